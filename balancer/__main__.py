@@ -1,0 +1,5 @@
+"""``python -m balancer``."""
+
+from balancer.cli import main
+
+raise SystemExit(main())

@@ -1,0 +1,81 @@
+"""What a balancing run asks for and what it returns; shared by the optimiser, writer and CLI."""
+
+from __future__ import annotations
+
+import enum
+from dataclasses import dataclass, field
+from typing import Literal
+
+from balancer.analysis import Loads
+from balancer.panel import Panel
+from balancer.systems import Line
+
+Engine = Literal["highs", "cbc"]
+Objective = Literal["spread", "line", "neutral"]
+
+
+class SolveStatus(enum.Enum):
+    """How far the result is proven. Never derived from a solver's label alone."""
+
+    OPTIMAL = "optimal"  # proven within the stated tolerance
+    FEASIBLE = "feasible"  # a checked arrangement, with a remaining gap
+    UNCHANGED = "unchanged"  # nothing to do (for example every circuit locked)
+
+
+@dataclass(frozen=True, slots=True)
+class BalanceOptions:
+    """Choices for one balancing run; passed explicitly, never global."""
+
+    fresh: bool = False
+    max_moves: int | None = None
+    target_imbalance_pct: float | None = None
+    engine: Engine = "highs"
+    time_limit_s: float = 60.0
+    tolerance_va: float = 1.0
+    move_spares: bool = False
+    objective: Objective = "spread"
+
+
+@dataclass(frozen=True, slots=True)
+class Move:
+    """One circuit whose breaker changes spaces."""
+
+    circuit_id: str
+    description: str
+    from_spaces: tuple[int, ...]
+    to_spaces: tuple[int, ...]
+    from_lines: tuple[Line, ...]
+    to_lines: tuple[Line, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class TradeoffRow:
+    """Best balance reachable with at most ``moves`` moves."""
+
+    moves: int
+    spread_va: float
+    imbalance_pct: float
+    neutral_a: float
+    status: SolveStatus
+
+
+@dataclass(frozen=True, slots=True)
+class BalanceResult:
+    """A checked arrangement of the panel's circuits and how good it is proven to be."""
+
+    before_panel: Panel
+    after_panel: Panel
+    before: Loads
+    after: Loads
+    status: SolveStatus
+    engine: str
+    tolerance_va: float
+    lower_bound_spread_va: float
+    moves: tuple[Move, ...]
+    solve_seconds: float = 0.0
+    notes: tuple[str, ...] = ()
+    tradeoff: tuple[TradeoffRow, ...] = field(default=())
+
+    @property
+    def gap_va(self) -> float:
+        return max(0.0, self.after.spread_va - self.lower_bound_spread_va)
