@@ -73,6 +73,7 @@ class Circuit:
     voltage_v: float | None = None
     continuous: bool | None = None
     neutral_va: float | None = None
+    yokes: float | None = None
     source_row: int | None = None
     extra: tuple[tuple[str, Any], ...] = ()
 

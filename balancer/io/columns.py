@@ -1,0 +1,251 @@
+"""The schedule's input columns as data: one table drives the reader, its messages and the
+format reference in docs/format.md (``python -m balancer.io.columns`` prints that table)."""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Literal
+
+Kind = Literal["space", "text", "poles", "number", "flag"]
+
+
+@dataclass(frozen=True, slots=True)
+class ColumnSpec:
+    key: str
+    header: str  # the spelling balancer writes
+    spellings: tuple[str, ...]  # accepted, compared after normalise()
+    kind: Kind
+    unit: str
+    description: str
+    required: bool = False
+    scale: float = 1.0  # multiply the cell value (kVA → VA)
+
+
+COLUMNS: tuple[ColumnSpec, ...] = (
+    ColumnSpec(
+        "space",
+        "Space",
+        (
+            "space",
+            "circuit",
+            "ckt",
+            "circuitno",
+            "circuitnumber",
+            "cktno",
+            "ckt#",
+            "circuit#",
+            "#",
+            "slot",
+            "spaceno",
+            "no",
+        ),
+        "space",
+        "",
+        "first space of the breaker (odd left, even right); a list such as 1,3,5 is "
+        "accepted for a multi-pole breaker; blank for a circuit not yet placed",
+    ),
+    ColumnSpec(
+        "description",
+        "Description",
+        ("description", "loaddescription", "name", "circuitdescription", "serving", "loadname"),
+        "text",
+        "",
+        "what the circuit serves",
+        required=True,
+    ),
+    ColumnSpec(
+        "poles",
+        "Poles",
+        ("poles", "pole", "p", "nopoles", "numberofpoles"),
+        "poles",
+        "",
+        "1, 2 or 3 (text such as 2P is accepted); blank means 1",
+    ),
+    ColumnSpec(
+        "load_va",
+        "Load (VA)",
+        ("load", "loadva", "va", "connectedva", "connectedload", "connected"),
+        "number",
+        "VA",
+        "connected load of the whole circuit; a unit of kVA in the header scales by 1000",
+        required=True,
+    ),
+    ColumnSpec(
+        "load_kva",
+        "Load (kVA)",
+        ("kva", "loadkva", "connectedkva"),
+        "number",
+        "kVA",
+        "connected load in kVA (instead of a VA column)",
+        scale=1000.0,
+    ),
+    ColumnSpec(
+        "phase_a",
+        "A",
+        ("a", "phasea", "aphase", "lineava", "vaa"),
+        "number",
+        "VA",
+        "VA under line A (instead of one load column)",
+    ),
+    ColumnSpec(
+        "phase_b",
+        "B",
+        ("b", "phaseb", "bphase", "linebva", "vab"),
+        "number",
+        "VA",
+        "VA under line B",
+    ),
+    ColumnSpec(
+        "phase_c",
+        "C",
+        ("c", "phasec", "cphase", "linecva", "vac"),
+        "number",
+        "VA",
+        "VA under line C",
+    ),
+    ColumnSpec(
+        "phase",
+        "Phase",
+        ("phase", "line", "phases", "lines"),
+        "text",
+        "",
+        "line letters as the schedule shows them; informative only (the space decides)",
+    ),
+    ColumnSpec(
+        "trip_a",
+        "Trip (A)",
+        ("trip", "breaker", "tripa", "ocp", "ocpd", "breakersize", "breakera", "rating"),
+        "number",
+        "A",
+        "breaker trip rating",
+    ),
+    ColumnSpec(
+        "load_class",
+        "Type",
+        ("type", "class", "loadtype", "loadclass", "category", "kind"),
+        "text",
+        "",
+        "load class, e.g. lighting, receptacle, motor, heating, kitchen, spare",
+    ),
+    ColumnSpec(
+        "power_factor",
+        "PF",
+        ("pf", "powerfactor"),
+        "number",
+        "",
+        "power factor; positive lagging, negative leading; blank means 1",
+    ),
+    ColumnSpec(
+        "locked",
+        "Locked",
+        ("locked", "fixed", "lock", "donotmove", "nomove", "keep"),
+        "flag",
+        "",
+        "yes: the breaker must stay in its space",
+    ),
+    ColumnSpec(
+        "group",
+        "MWBC",
+        ("mwbc", "group", "multiwire", "multiwiregroup", "sharedneutral", "neutralgroup"),
+        "text",
+        "",
+        "same mark on circuits that share a neutral (a multiwire branch circuit)",
+    ),
+    ColumnSpec(
+        "measured_a",
+        "Measured (A)",
+        ("measured", "measureda", "measuredamps", "measuredcurrent", "clamp", "clampreading"),
+        "number",
+        "A",
+        "clamp-meter reading of the circuit current",
+    ),
+    ColumnSpec(
+        "voltage_v",
+        "Voltage",
+        ("voltage", "volts", "v", "circuitvoltage"),
+        "number",
+        "V",
+        "circuit voltage when it differs from what the poles imply",
+    ),
+    ColumnSpec(
+        "neutral_va",
+        "Neutral (VA)",
+        ("neutralva", "neutralshare", "lnva", "neutralload"),
+        "number",
+        "VA",
+        "part of a 2-pole load that is line-to-neutral (e.g. a dryer's 120 V controls and motor)",
+    ),
+    ColumnSpec(
+        "continuous",
+        "Continuous",
+        ("continuous", "cont", "continuousload"),
+        "flag",
+        "",
+        "yes: the load runs three hours or more (counted at 125 %)",
+    ),
+    ColumnSpec(
+        "yokes",
+        "Receptacles",
+        ("receptacles", "yokes", "receptaclecount", "devices", "outlets"),
+        "number",
+        "",
+        "number of receptacle yokes on the circuit",
+    ),
+    ColumnSpec(
+        "notes",
+        "Notes",
+        ("notes", "note", "remarks", "comments", "comment"),
+        "text",
+        "",
+        "free text, kept and written back",
+    ),
+)
+
+BY_KEY = {spec.key: spec for spec in COLUMNS}
+_UNIT = re.compile(r"[\(\[]\s*([^)\]]*?)\s*[\)\]]")
+
+
+def normalise(header: str) -> tuple[str, str]:
+    """``'Load (kVA)'`` → ``('load', 'kva')``: case, spaces and punctuation dropped, unit apart."""
+    text = str(header).strip()
+    unit = ""
+    found = _UNIT.search(text)
+    if found:
+        unit = re.sub(r"[^a-z%]", "", found.group(1).lower())
+        text = _UNIT.sub(" ", text)
+    name = re.sub(r"[^a-z0-9#]", "", text.lower())
+    return name, unit
+
+
+def match(header: str) -> tuple[ColumnSpec, float] | None:
+    """The column a header means and the scale its unit implies; None when not recognised."""
+    name, unit = normalise(header)
+    if not name:
+        return None
+    for spec in COLUMNS:
+        if name in spec.spellings:
+            scale = spec.scale
+            if spec.key == "load_va" and unit == "kva":
+                scale = 1000.0
+            return spec, scale
+    return None
+
+
+def all_spellings() -> dict[str, ColumnSpec]:
+    return {spelling: spec for spec in COLUMNS for spelling in spec.spellings}
+
+
+def format_table_markdown() -> str:
+    lines = ["| column | also accepted | unit | required | meaning |", "|---|---|---|---|---|"]
+    for spec in COLUMNS:
+        also = ", ".join(f"`{s}`" for s in spec.spellings)
+        lines.append(
+            f"| {spec.header} | {also} | {spec.unit} | {'yes' if spec.required else ''} "
+            f"| {spec.description} |"
+        )
+    return "\n".join(lines)
+
+
+if __name__ == "__main__":
+    print(format_table_markdown())

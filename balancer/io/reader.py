@@ -1,0 +1,723 @@
+"""Read a panel schedule (.xlsx or .csv) into a :class:`~balancer.panel.Panel`.
+
+Every problem is collected with its place (``Circuits!E14``) and reported at once as a
+:class:`~balancer.errors.ScheduleError`; the input file is only ever opened for reading.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import re
+import zipfile
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from openpyxl import load_workbook
+from openpyxl.utils import get_column_letter
+from openpyxl.utils.exceptions import InvalidFileException
+
+from balancer.errors import Problem, ScheduleError
+from balancer.io.columns import BY_KEY, ColumnSpec, all_spellings, match, normalise
+from balancer.panel import SPARE, Circuit, Geometry, Panel, smallest_space_count
+from balancer.systems import System, find_system, known_designations
+
+DEFAULT_SYSTEM = "208Y/120"
+HEADER_SEARCH_ROWS = 40
+_TOTAL = re.compile(r"\b(sub-?)?totals?\b", re.IGNORECASE)
+_SPARE = re.compile(r"^\s*spare\b", re.IGNORECASE)
+_SPACE = re.compile(r"^\s*(space|spc|blank|provision|future space)\s*$", re.IGNORECASE)
+_TRUE = {"yes", "y", "true", "1", "x", "locked", "fixed", "keep", "continuous", "c"}
+_FALSE = {"no", "n", "false", "0", "", "-"}
+_NUMBER = re.compile(
+    r"^\s*(?P<num>[-+]?(\d{1,3}(,\d{3})+|\d+)(\.\d+)?|[-+]?\.\d+)\s*(?P<unit>[a-z%]*)\s*$",
+    re.IGNORECASE,
+)
+_PANEL_KEYS = {
+    "name": ("name", "panel", "panelname", "designation", "panelboard"),
+    "system": ("system", "voltage", "service", "volts", "supply"),
+    "spaces": ("spaces", "spacecount", "circuits", "numberofspaces", "poles", "size"),
+    "bus": ("bus", "busrating", "busa", "busamps", "bussing"),
+    "main": ("main", "mainbreaker", "maina", "mains", "mainrating", "mainocpd"),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class PanelOverrides:
+    """Panel attributes given on the command line; they win over the schedule's own."""
+
+    name: str | None = None
+    system: str | None = None
+    spaces: int | None = None
+    bus_a: float | None = None
+    main: str | None = None
+
+
+@dataclass(slots=True)
+class _Grid:
+    """A sheet as a rectangle of cell values, with the names used in messages."""
+
+    sheet: str
+    rows: list[list[Any]]
+    formulas: dict[tuple[int, int], str] = field(default_factory=dict)  # (row, col) 0-based
+
+    def where(self, row: int, col: int) -> str:
+        return f"{self.sheet}!{get_column_letter(col + 1)}{row + 1}"
+
+
+# ---------------------------------------------------------------- file → grids
+
+
+def _read_xlsx(path: Path) -> tuple[_Grid, _Grid | None]:
+    try:
+        values = load_workbook(path, data_only=True)
+        formulas = load_workbook(path, data_only=False)
+    except (InvalidFileException, zipfile.BadZipFile, KeyError, OSError) as exc:
+        hint = " (an old .xls file? save it as .xlsx)" if path.suffix.lower() == ".xls" else ""
+        raise ScheduleError(
+            Problem(str(path), f"is not a readable Excel workbook (.xlsx){hint}: {exc}")
+        ) from exc
+    names = values.sheetnames
+    circuits_name = _pick_sheet(names, ("circuits", "circuit", "schedule", "branchcircuits"))
+    panel_name = _pick_sheet(names, ("panel", "panelinfo", "paneldata"))
+    if circuits_name is None:
+        circuits_name = next((n for n in names if n != panel_name), names[0])
+    circuits = _grid_from_sheet(values[circuits_name], formulas[circuits_name])
+    panel = None
+    if panel_name is not None and panel_name != circuits_name:
+        panel = _grid_from_sheet(values[panel_name], formulas[panel_name])
+    return circuits, panel
+
+
+def _pick_sheet(names: Sequence[str], wanted: Sequence[str]) -> str | None:
+    for name in names:
+        if normalise(name)[0] in wanted:
+            return name
+    return None
+
+
+def _grid_from_sheet(values: Any, formulas: Any) -> _Grid:
+    rows = [list(r) for r in values.iter_rows(values_only=True)]
+    found: dict[tuple[int, int], str] = {}
+    for r, row in enumerate(formulas.iter_rows(values_only=True)):
+        for c, value in enumerate(row):
+            if isinstance(value, str) and value.startswith("="):
+                found[(r, c)] = value
+    return _Grid(values.title, rows, found)
+
+
+def _read_csv(path: Path) -> _Grid:
+    raw = path.read_bytes()
+    if b"\x00" in raw[:4096]:
+        raise ScheduleError(Problem(str(path), "is not a text CSV file (it holds binary data)"))
+    for encoding in ("utf-8-sig", "cp1252"):
+        try:
+            text = raw.decode(encoding)
+            break
+        except UnicodeDecodeError:
+            continue
+    try:
+        dialect = csv.Sniffer().sniff(text[:4096], delimiters=",;\t")
+    except csv.Error:
+        dialect = csv.excel  # type: ignore[assignment]
+    rows: list[list[Any]] = [list(r) for r in csv.reader(text.splitlines(), dialect)]
+    return _Grid(path.name, [[c if c.strip() else None for c in r] for r in rows])
+
+
+# ---------------------------------------------------------------- helpers
+
+
+def _text(value: Any) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value).strip()
+
+
+def _number(value: Any) -> tuple[float | None, str]:
+    """(number, unit suffix) from a cell; (None, '') when blank; raises ValueError if not a number."""
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return None, ""
+    if isinstance(value, bool):
+        raise ValueError
+    if isinstance(value, int | float):
+        return float(value), ""
+    found = _NUMBER.match(str(value))
+    if not found:
+        raise ValueError
+    return float(found.group("num").replace(",", "")), found.group("unit").lower()
+
+
+def _flag(value: Any) -> bool | None:
+    text = _text(value).lower()
+    if text in _TRUE:
+        return True
+    if text in _FALSE:
+        return False if text else None
+    raise ValueError
+
+
+def _space_list(value: Any) -> list[int]:
+    text = _text(value)
+    parts = [p for p in re.split(r"[,;/&+\s-]+", text) if p]
+    spaces = [int(p) for p in parts]  # ValueError for anything else
+    return spaces
+
+
+# ---------------------------------------------------------------- header
+
+
+def _find_header(grid: _Grid) -> tuple[int, dict[int, tuple[ColumnSpec, float]]]:
+    best_row, best = -1, {}
+    for r, row in enumerate(grid.rows[:HEADER_SEARCH_ROWS]):
+        found = {}
+        for c, value in enumerate(row):
+            if isinstance(value, str) and (m := match(value)):
+                found[c] = m
+        keys = {spec.key for spec, _ in found.values()}
+        if (
+            len(found) > len(best)
+            and len(found) >= 2
+            and keys & {"description", "load_va", "load_kva", "space"}
+        ):
+            best_row, best = r, found
+    return best_row, best
+
+
+def _header_problems(
+    grid: _Grid, header_row: int, found: dict[int, tuple[ColumnSpec, float]]
+) -> tuple[list[Problem], list[str]]:
+    problems, notices = [], []
+    headers = grid.rows[header_row] if header_row >= 0 else []
+    seen: dict[str, int] = {}
+    for c, (spec, _) in sorted(found.items()):
+        if spec.key in seen:
+            first = seen[spec.key]
+            problems.append(
+                Problem(
+                    grid.where(header_row, c),
+                    f"two columns give the {spec.header.lower()}: '{headers[first]}' in column "
+                    f"{get_column_letter(first + 1)} and '{headers[c]}' in column {get_column_letter(c + 1)}",
+                )
+            )
+        seen[spec.key] = c
+    spellings = list(all_spellings())
+    for c, value in enumerate(headers):
+        if c in found or value is None or not _text(value):
+            continue
+        name, _ = normalise(_text(value))
+        close = difflib.get_close_matches(name, spellings, n=1, cutoff=0.8)
+        if close:
+            spec = all_spellings()[close[0]]
+            notices.append(
+                f"{grid.where(header_row, c)}: column '{value}' is not one balancer reads "
+                f"(kept as is); did you mean '{spec.header}'?"
+            )
+    keys = set(seen)
+    has_load = keys & {"load_va", "load_kva", "phase_a", "phase_b", "phase_c"}
+    missing = []
+    if "description" not in keys:
+        missing.append("description")
+    if not has_load:
+        missing.append("load (VA or kVA, or per-line A/B/C columns)")
+    if missing:
+        listed = ", ".join(f"'{_text(h)}'" for h in headers if _text(h)) or "none"
+        where = grid.where(header_row, 0) if header_row >= 0 else grid.sheet
+        hint = ""
+        for value in headers:
+            close = difflib.get_close_matches(
+                normalise(_text(value))[0], spellings, n=1, cutoff=0.7
+            )
+            if close and value is not None and match(_text(value)) is None:
+                hint += f"; did you mean '{all_spellings()[close[0]].header}' for '{value}'?"
+        problems.append(
+            Problem(
+                where,
+                f"no column for the {' and the '.join(missing)}; headers found: {listed}{hint}",
+            )
+        )
+    if "load_va" in keys and "load_kva" in keys:
+        problems.append(
+            Problem(
+                grid.where(header_row, seen["load_kva"]),
+                "give the load either in VA or in kVA, not both",
+            )
+        )
+    return problems, notices
+
+
+# ---------------------------------------------------------------- panel attributes
+
+
+def _panel_pairs(
+    grid: _Grid | None, title_rows: list[list[Any]], sheet: str
+) -> dict[str, tuple[Any, str]]:
+    """Key/value pairs: 'Name | LP-1' rows on a Panel sheet, or 'System: 208Y/120' in title rows."""
+    pairs: dict[str, tuple[Any, str]] = {}
+    sources = []
+    if grid is not None:
+        sources.append((grid, grid.rows))
+    sources.append((_Grid(sheet, title_rows), title_rows))
+    for g, rows in sources:
+        for r, row in enumerate(rows):
+            cells = [(c, v) for c, v in enumerate(row) if v is not None and _text(v)]
+            for i, (c, value) in enumerate(cells):
+                text = _text(value)
+                key_text, sep, inline = text.partition(":")
+                key = normalise(key_text)[0]
+                for attr, names in _PANEL_KEYS.items():
+                    if key in names and attr not in pairs:
+                        if sep and inline.strip():
+                            pairs[attr] = (inline.strip(), g.where(r, c))
+                        elif i + 1 < len(cells):
+                            pairs[attr] = (cells[i + 1][1], g.where(r, cells[i + 1][0]))
+    return pairs
+
+
+def _main_rating(text: str) -> tuple[float | None, bool]:
+    """(main breaker amps or None, understood)."""
+    if re.search(r"\b(mlo|lugs?|main lugs?)\b", text, re.IGNORECASE):
+        return None, True
+    try:
+        value, _ = _number(text)
+    except ValueError:
+        return None, False
+    return value, value is not None
+
+
+# ---------------------------------------------------------------- rows → circuits
+
+
+@dataclass(slots=True)
+class _Row:
+    row: int
+    cells: dict[str, Any]
+    cols: dict[str, int]
+    extra: tuple[tuple[str, Any], ...]
+
+
+def _rows(
+    grid: _Grid,
+    header_row: int,
+    found: dict[int, tuple[ColumnSpec, float]],
+    problems: list[Problem],
+    notices: list[str],
+) -> list[_Row]:
+    headers = grid.rows[header_row]
+    extras = [(c, _text(h)) for c, h in enumerate(headers) if c not in found and _text(h)]
+    out = []
+    for r in range(header_row + 1, len(grid.rows)):
+        row = grid.rows[r]
+        if all(v is None or not _text(v) for v in row):
+            continue
+        for c in range(len(row)):
+            if (r, c) in grid.formulas and row[c] is None:
+                problems.append(
+                    Problem(
+                        grid.where(r, c),
+                        f"formula {grid.formulas[(r, c)]} has no saved value; open the file in a "
+                        "spreadsheet program, recalculate and save it, then run balancer again",
+                    )
+                )
+        cells = {spec.key: (row[c] if c < len(row) else None) for c, (spec, _) in found.items()}
+        cols = {spec.key: c for c, (spec, _) in found.items()}
+        texts = " ".join(_text(v) for v in row if v is not None)
+        if _TOTAL.search(texts) and not _text(cells.get("space")).isdigit():
+            notices.append(
+                f"{grid.where(r, 0)}: row '{texts[:40]}' looks like a total and was skipped"
+            )
+            continue
+        extra = tuple((h, row[c] if c < len(row) else None) for c, h in extras)
+        out.append(_Row(r, cells, cols, extra))
+    return out
+
+
+def _circuit(
+    item: _Row, grid: _Grid, scales: dict[str, float], problems: list[Problem], notices: list[str]
+) -> Circuit | None:
+    cells = item.cells
+
+    def where(key: str) -> str:
+        return grid.where(item.row, item.cols.get(key, 0))
+
+    def number(key: str, what: str, *, allow_negative: bool = False) -> float | None:
+        if key not in cells:
+            return None
+        try:
+            value, unit = _number(cells[key])
+        except ValueError:
+            problems.append(Problem(where(key), f"{what} '{_text(cells[key])}' is not a number"))
+            return None
+        if value is None:
+            return None
+        if unit == "kva" and key.startswith(("load", "phase")):
+            value *= 1000.0
+        elif unit not in ("", "va", "a", "v", "w", "kva", "%"):
+            problems.append(
+                Problem(where(key), f"{what} '{_text(cells[key])}': unit '{unit}' not understood")
+            )
+            return None
+        value *= scales.get(key, 1.0)
+        if value < 0 and not allow_negative:
+            problems.append(Problem(where(key), f"{what} {value:g} is negative"))
+            return None
+        return value
+
+    description = _text(cells.get("description"))
+    load_class = _text(cells.get("load_class")).lower()
+    space_text = _text(cells.get("space"))
+    if _SPACE.match(description) or load_class in ("space", "blank"):
+        return None  # an empty space, not a breaker
+    poles_text = _text(cells.get("poles"))
+    poles = 1
+    if poles_text:
+        found = re.fullmatch(r"(\d+)\s*(p|pole|poles|-pole)?", poles_text, re.IGNORECASE)
+        if not found or not 1 <= int(found.group(1)) <= 3:
+            problems.append(Problem(where("poles"), f"poles '{poles_text}' must be 1, 2 or 3"))
+            return None
+        poles = int(found.group(1))
+    load = number("load_va", "load") if "load_va" in cells else number("load_kva", "load")
+    phase_parts = [
+        number(k, f"line {k[-1].upper()} load")
+        for k in ("phase_a", "phase_b", "phase_c")
+        if k in cells
+    ]
+    if load is None and any(p is not None for p in phase_parts):
+        load = sum(p for p in phase_parts if p is not None)
+    is_spare = bool(_SPARE.match(description)) or load_class == SPARE
+    if not description and load is None and not poles_text and not _text(cells.get("trip_a")):
+        return None  # a numbered but empty line of the schedule
+    spaces: tuple[int, ...] = ()
+    if space_text:
+        try:
+            listed = _space_list(cells["space"])
+        except ValueError:
+            problems.append(Problem(where("space"), f"space '{space_text}' is not a space number"))
+            return None
+        if any(s < 1 for s in listed):
+            problems.append(Problem(where("space"), f"space '{space_text}' must be 1 or more"))
+            return None
+        first = listed[0]
+        spaces = tuple(first + 2 * k for k in range(poles))
+        if len(listed) > 1 and tuple(listed) != spaces:
+            problems.append(
+                Problem(
+                    where("space"),
+                    f"spaces {space_text} do not fit a {poles}-pole breaker at space {first} "
+                    f"(it takes {', '.join(map(str, spaces))})",
+                )
+            )
+            return None
+    pf = number("power_factor", "power factor", allow_negative=True)
+    if pf is not None and not (0 < abs(pf) <= 1):
+        problems.append(
+            Problem(
+                where("power_factor"),
+                f"power factor {pf:g} must be between 0 and 1 (negative for leading)",
+            )
+        )
+        pf = None
+    flags = {}
+    for key in ("locked", "continuous"):
+        try:
+            flags[key] = _flag(cells.get(key))
+        except ValueError:
+            problems.append(Problem(where(key), f"{key} '{_text(cells[key])}' should be yes or no"))
+            flags[key] = None
+    if load is None:
+        if not is_spare:
+            notices.append(
+                f"{where('load_va' if 'load_va' in cells else 'load_kva')}: "
+                f"'{description or 'circuit'}' has no load; counted as 0 VA"
+            )
+        load = 0.0
+    if is_spare:
+        if load:
+            notices.append(
+                f"{where('load_va')}: spare '{description}' has a load of {load:g} VA; counted as given"
+            )
+        load_class = SPARE
+    circuit_id = str(spaces[0]) if spaces else f"R{item.row + 1}"
+    return Circuit(
+        id=circuit_id,
+        description=description,
+        poles=poles,
+        load_va=load,
+        spaces=spaces,
+        trip_a=number("trip_a", "trip"),
+        load_class=load_class,
+        power_factor=pf if pf is not None else 1.0,
+        locked=bool(flags.get("locked")),
+        group=_text(cells.get("group")),
+        measured_a=number("measured_a", "measured current"),
+        notes=_text(cells.get("notes")),
+        voltage_v=number("voltage_v", "voltage"),
+        continuous=flags.get("continuous"),
+        neutral_va=number("neutral_va", "neutral share"),
+        yokes=number("yokes", "receptacle count"),
+        source_row=item.row + 1,
+        extra=item.extra,
+    )
+
+
+# ---------------------------------------------------------------- checks on the whole panel
+
+
+def _placement_problems(
+    circuits: list[Circuit], where: dict[str, str], system: System, spaces: int
+) -> list[Problem]:
+    problems = []
+    geometry = Geometry(system.lines, spaces)
+    taken: dict[int, Circuit] = {}
+    for circuit in circuits:
+        at = where[circuit.id]
+        if circuit.poles > system.max_poles:
+            problems.append(
+                Problem(
+                    at,
+                    f"a {circuit.poles}-pole circuit ('{circuit.description}') "
+                    f"cannot be served by a {system.label()} panel",
+                )
+            )
+            continue
+        if circuit.poles == 1 and not system.neutral:
+            problems.append(
+                Problem(
+                    at,
+                    f"'{circuit.description}' is 1-pole, but a {system.label()} "
+                    "panel has no neutral for a line-to-neutral load",
+                )
+            )
+        if not circuit.spaces:
+            continue
+        if circuit.spaces[-1] > spaces:
+            problems.append(
+                Problem(
+                    at,
+                    f"a {circuit.poles}-pole breaker at space {circuit.spaces[0]} "
+                    f"would take spaces {', '.join(map(str, circuit.spaces))}, past the last space {spaces}",
+                )
+            )
+            continue
+        for s in circuit.spaces:
+            if s in taken:
+                other = taken[s]
+                problems.append(
+                    Problem(
+                        at,
+                        f"space {s} is already taken by '{other.description}' ({where[other.id]})",
+                    )
+                )
+            taken[s] = circuit
+        if (
+            circuit.poles == 1
+            and system.high_leg
+            and geometry.line_of(circuit.spaces[0]) == system.high_leg
+        ):
+            problems.append(
+                Problem(
+                    at,
+                    f"space {circuit.spaces[0]} is on the high leg "
+                    f"{system.high_leg} ({system.line_to_neutral_v[system.lines.index(system.high_leg)]:.0f} V "
+                    f"to neutral; NEC 110.15 marking, 408.3(E) position); a 1-pole "
+                    f"{system.line_to_neutral_v[0]:.0f} V circuit ('{circuit.description}') cannot go there",
+                )
+            )
+    poles = sum(c.poles for c in circuits)
+    if poles > spaces:
+        problems.append(
+            Problem("", f"the circuits need {poles} poles but the panel has only {spaces} spaces")
+        )
+    return problems
+
+
+def _group_notices(circuits: list[Circuit], panel_lines: Geometry) -> list[str]:
+    notices = []
+    groups: dict[str, list[Circuit]] = {}
+    for c in circuits:
+        if c.group:
+            groups.setdefault(c.group, []).append(c)
+    for name, members in groups.items():
+        lines = [panel_lines.line_of(s) for c in members for s in c.spaces]
+        if len(lines) != len(set(lines)):
+            notices.append(
+                f"multiwire group '{name}': members share a line, so the shared neutral "
+                "carries the sum of their currents (NEC 210.4 wants different lines)"
+            )
+    return notices
+
+
+# ---------------------------------------------------------------- entry point
+
+
+def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> Panel:
+    """Read and validate a schedule file.
+
+    Parameters
+    ----------
+    path
+        An ``.xlsx`` workbook (circuits on a sheet named like "Circuits", else the first; panel
+        attributes on a sheet named "Panel") or a ``.csv`` file.
+    overrides
+        Panel attributes from the command line; they win over the file's.
+
+    Raises
+    ------
+    ScheduleError
+        With every problem found, each with its place.
+    """
+    path = Path(path)
+    overrides = overrides or PanelOverrides()
+    if not path.exists():
+        raise ScheduleError(Problem(str(path), "no such file"))
+    if path.is_dir():
+        raise ScheduleError(Problem(str(path), "is a folder, not a schedule file"))
+    if path.stat().st_size == 0:
+        raise ScheduleError(Problem(str(path), "the file is empty"))
+    suffix = path.suffix.lower()
+    if suffix in (".xlsx", ".xlsm", ".xls"):
+        grid, panel_grid = _read_xlsx(path)
+    elif suffix in (".csv", ".txt", ".tsv"):
+        grid, panel_grid = _read_csv(path), None
+    else:
+        raise ScheduleError(
+            Problem(str(path), f"'{suffix}' files are not read; give an .xlsx or .csv schedule")
+        )
+    if not any(any(v is not None for v in row) for row in grid.rows):
+        raise ScheduleError(Problem(grid.sheet, "the sheet holds no data"), str(path))
+
+    problems: list[Problem] = []
+    notices: list[str] = []
+    header_row, found = _find_header(grid)
+    header_problems, header_notices = _header_problems(grid, header_row, found)
+    if header_row < 0 or header_problems:
+        raise ScheduleError(
+            header_problems or [Problem(grid.sheet, "no header row found")], str(path)
+        )
+    notices += header_notices
+    scales = {spec.key: scale for spec, scale in found.values()}
+    rows = _rows(grid, header_row, found, problems, notices)
+    circuits = []
+    where_of: dict[str, str] = {}
+    for item in rows:
+        circuit = _circuit(item, grid, scales, problems, notices)
+        if circuit is not None:
+            if circuit.id in where_of:  # same first space twice: keep ids unique, report below
+                circuit = Circuit(**{**_as_dict(circuit), "id": f"{circuit.id}@R{item.row + 1}"})
+            circuits.append(circuit)
+            where_of[circuit.id] = grid.where(item.row, item.cols.get("space", 0))
+
+    pairs = _panel_pairs(panel_grid, grid.rows[:header_row], grid.sheet)
+    name = overrides.name or _text(pairs.get("name", (path.stem, ""))[0]) or path.stem
+    system = _resolve_system(overrides.system, pairs, problems, notices)
+    spaces = _resolve_spaces(overrides.spaces, pairs, circuits, problems, notices)
+    bus_a = overrides.bus_a
+    if bus_a is None and "bus" in pairs:
+        try:
+            bus_a = _number(pairs["bus"][0])[0]
+        except ValueError:
+            problems.append(
+                Problem(pairs["bus"][1], f"bus rating '{_text(pairs['bus'][0])}' is not a number")
+            )
+    main_text = (
+        overrides.main if overrides.main is not None else _text(pairs.get("main", ("", ""))[0])
+    )
+    main_a, understood = _main_rating(main_text) if main_text else (None, True)
+    if not understood:
+        problems.append(
+            Problem(
+                pairs.get("main", ("", "--main"))[1],
+                f"main '{main_text}' should be a rating in amperes or MLO (main lugs only)",
+            )
+        )
+    if system is not None and spaces is not None:
+        problems += _placement_problems(circuits, where_of, system, spaces)
+        notices += _group_notices(circuits, Geometry(system.lines, spaces))
+    if not circuits and not problems:
+        problems.append(Problem(grid.sheet, "no branch circuits found below the header row"))
+    if problems:
+        raise ScheduleError(problems, str(path))
+    assert system is not None and spaces is not None
+    return Panel(
+        name=name,
+        system=system,
+        spaces=spaces,
+        circuits=tuple(circuits),
+        bus_a=bus_a,
+        main_a=main_a,
+        source=str(path),
+        notices=tuple(notices),
+    )
+
+
+def _as_dict(circuit: Circuit) -> dict[str, Any]:
+    return {f: getattr(circuit, f) for f in Circuit.__dataclass_fields__}
+
+
+def _resolve_system(
+    given: str | None,
+    pairs: dict[str, tuple[Any, str]],
+    problems: list[Problem],
+    notices: list[str],
+) -> System | None:
+    text, where = (
+        (given, "--system")
+        if given
+        else (_text(pairs["system"][0]), pairs["system"][1])
+        if "system" in pairs
+        else (None, "")
+    )
+    if not text:
+        notices.append(f"no system given; assumed {DEFAULT_SYSTEM} (use --system or a Panel sheet)")
+        text = DEFAULT_SYSTEM
+    system = find_system(text)
+    if system is None:
+        problems.append(
+            Problem(
+                where, f"system '{text}' is not known; known: {', '.join(known_designations())}"
+            )
+        )
+    return system
+
+
+def _resolve_spaces(
+    given: int | None,
+    pairs: dict[str, tuple[Any, str]],
+    circuits: list[Circuit],
+    problems: list[Problem],
+    notices: list[str],
+) -> int | None:
+    if given is not None:
+        value, where = float(given), "--spaces"
+    elif "spaces" in pairs:
+        where = pairs["spaces"][1]
+        try:
+            value = _number(pairs["spaces"][0])[0]  # type: ignore[assignment]
+        except ValueError:
+            value = None  # type: ignore[assignment]
+        if value is None:
+            problems.append(
+                Problem(where, f"space count '{_text(pairs['spaces'][0])}' is not a number")
+            )
+            return None
+    else:
+        poles = sum(c.poles for c in circuits)
+        highest = max((c.spaces[-1] for c in circuits if c.spaces), default=0)
+        count = smallest_space_count(poles, highest)
+        notices.append(
+            f"no space count given; assumed {count}, the smallest common size that fits "
+            f"{poles} poles (use --spaces or a Panel sheet)"
+        )
+        return count
+    if value < 1 or not float(value).is_integer():
+        problems.append(
+            Problem(where, f"space count {value:g} must be a whole number of 1 or more")
+        )
+        return None
+    return int(value)
+
+
+__all__ = ["BY_KEY", "PanelOverrides", "read_schedule"]
