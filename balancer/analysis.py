@@ -3,17 +3,24 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 
+from balancer.errors import Problem, ScheduleError
+from balancer.harmonics import Profile, spectrum_for
 from balancer.panel import Circuit, Panel
 from balancer.phasors import (
-    circuit_line_currents,
+    circuit_harmonic_currents,
+    circuit_power,
     nema_unbalance_pct,
-    pf_angle_rad,
-    sum_currents,
+    rms,
     unbalance_factor_pct,
 )
 from balancer.systems import Line
+
+# Relative margin by which the neutral RMS current must exceed the largest line RMS current
+# before it is flagged; keeps rounding noise on a balanced panel from raising the flag.
+NEUTRAL_FLAG_MARGIN = 1e-9
 
 
 @dataclass(frozen=True, slots=True)
@@ -23,7 +30,18 @@ class Loads:
     ``phase_va`` follows the schedule convention (common practice): a 1-pole load counts wholly
     on its line, a 2-pole load half on each of its lines, a 3-pole load a third on each.
     ``imbalance_pct`` is the NEMA MG 1 unbalance definition applied to those phase loads.
-    Currents are phasor magnitudes in amperes RMS at the fundamental.
+
+    ``line_a`` and ``neutral_a`` are fundamental-frequency current magnitudes (A RMS);
+    ``line_rms_a`` and ``neutral_rms_a`` the true RMS currents with every circuit's harmonic
+    spectrum, √(Σ_h |I_h|²); ``neutral_without_harmonics_a`` the neutral as it would be if every
+    load drew a sinusoidal current of its stated VA. ``unbalance_factor_pct`` is |I2|/|I1| of
+    the fundamental line currents (three-phase systems only). ``phase_kw`` and ``phase_kvar``
+    are fundamental real and reactive power by line (a line-to-neutral part wholly on its line,
+    a line-to-line part half on each); ``phase_pf`` their displacement power factor, negative
+    when leading.
+    ``neutral_exceeds_phase`` is True when the neutral RMS current is above the largest line
+    RMS current: such a neutral counts as a current-carrying conductor (NEC 310.15(E)) and its
+    non-linear share gets no demand reduction (NEC 220.61(C)).
     """
 
     phase_va: dict[Line, float]
@@ -36,6 +54,11 @@ class Loads:
     phase_kw: dict[Line, float]
     phase_kvar: dict[Line, float]
     unplaced: tuple[str, ...] = ()
+    line_rms_a: dict[Line, float] = field(default_factory=dict)
+    neutral_rms_a: float = 0.0
+    neutral_without_harmonics_a: float = 0.0
+    neutral_exceeds_phase: bool = False
+    phase_pf: dict[Line, float] = field(default_factory=dict)
 
     @property
     def heaviest_line(self) -> Line:
@@ -53,46 +76,89 @@ def spread_and_imbalance(phase_va: dict[Line, float]) -> tuple[float, float]:
     return max(values) - min(values), nema_unbalance_pct(values)
 
 
-def analyze(panel: Panel) -> Loads:
-    """Figures for the panel as its circuits are placed; unplaced circuits are left out and named."""
+def _phase_pf(power: complex) -> float:
+    if abs(power) == 0:
+        return 1.0
+    pf = power.real / abs(power)
+    return -pf if power.imag < 0 else pf
+
+
+def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Loads:
+    """Figures for the panel as its circuits are placed; unplaced circuits are left out and named.
+
+    ``profiles`` are the harmonic profiles circuits may name (the bundled ones when None).
+
+    Raises
+    ------
+    ScheduleError
+        Listing every placed circuit that cannot connect where it is (a 1-pole load on a high
+        leg or on a system without neutral, a voltage that does not fit the poles...).
+    """
     lines = panel.lines
     phase_va = dict.fromkeys(lines, 0.0)
-    phase_kw = dict.fromkeys(lines, 0.0)
-    phase_kvar = dict.fromkeys(lines, 0.0)
-    parts = []
-    neutral = 0j
+    power = dict.fromkeys(lines, 0j)
+    by_order: dict[int, dict[Line, complex]] = {}
+    sinusoidal_neutral = 0j
     unplaced = []
+    problems = []
     for circuit in panel.circuits:
         circuit_lines = panel.lines_of(circuit)
         if not circuit_lines:
             if circuit.load_va:
                 unplaced.append(circuit.id)
             continue
-        angle = pf_angle_rad(circuit.power_factor)
         for line, va in share_by_line(panel, circuit).items():
             phase_va[line] += va
-            phase_kw[line] += va * math.cos(angle) / 1000.0
-            phase_kvar[line] += va * math.sin(angle) / 1000.0
-        currents = circuit_line_currents(
-            panel.system, circuit_lines, circuit.load_va, circuit.power_factor
+        if circuit.load_va == 0:
+            continue
+        where = f"circuit {circuit.id}" + (
+            f" (row {circuit.source_row})" if circuit.source_row is not None else ""
         )
-        parts.append(currents)
-        if len(circuit_lines) == 1:
-            neutral += currents[circuit_lines[0]]
-    line_currents = sum_currents(parts, lines)
+        try:
+            spectrum = spectrum_for(circuit, profiles)
+            args = (panel.system, circuit_lines, circuit.load_va, circuit.power_factor)
+            extra = {"voltage_v": circuit.voltage_v, "neutral_va": circuit.neutral_va}
+            parts = circuit_harmonic_currents(*args, spectrum=spectrum, **extra)
+            sinusoidal = circuit_harmonic_currents(*args, spectrum=None, **extra)
+            circuit_kva = circuit_power(*args, spectrum=spectrum, **extra)
+        except ValueError as exc:
+            problems.append(Problem(where, str(exc)))
+            continue
+        for h, part in parts.items():
+            total = by_order.setdefault(h, dict.fromkeys(lines, 0j))
+            for line, current in part.lines.items():
+                total[line] += current
+        sinusoidal_neutral += sinusoidal[1].neutral
+        for line, value in circuit_kva.items():
+            power[line] += value
+    if problems:
+        raise ScheduleError(problems, source=panel.source)
+    fundamental = by_order.get(1, dict.fromkeys(lines, 0j))
+    line_rms = {line: rms(order[line] for order in by_order.values()) for line in lines}
+    # Kirchhoff: whatever the lines carry out returns on the neutral.
+    neutral_by_order = [sum(order.values(), 0j) for order in by_order.values()]
+    has_neutral = panel.system.neutral
+    neutral_rms = rms(neutral_by_order) if has_neutral else 0.0
+    largest_line = max(line_rms.values(), default=0.0)
     spread, imbalance = spread_and_imbalance(phase_va)
     factor = None
     if len(lines) == 3:
-        factor = unbalance_factor_pct(*(line_currents[line] for line in lines))
+        factor = unbalance_factor_pct(*(fundamental[line] for line in lines))
     return Loads(
         phase_va=phase_va,
         total_va=math.fsum(phase_va.values()),
         spread_va=spread,
         imbalance_pct=imbalance,
-        line_a={line: abs(value) for line, value in line_currents.items()},
-        neutral_a=abs(neutral) if panel.system.neutral else 0.0,
+        line_a={line: abs(value) for line, value in fundamental.items()},
+        neutral_a=abs(sum(fundamental.values(), 0j)) if has_neutral else 0.0,
         unbalance_factor_pct=factor,
-        phase_kw=phase_kw,
-        phase_kvar=phase_kvar,
+        phase_kw={line: value.real / 1000.0 for line, value in power.items()},
+        phase_kvar={line: value.imag / 1000.0 for line, value in power.items()},
         unplaced=tuple(unplaced),
+        line_rms_a=line_rms,
+        neutral_rms_a=neutral_rms,
+        neutral_without_harmonics_a=abs(sinusoidal_neutral) if has_neutral else 0.0,
+        neutral_exceeds_phase=has_neutral
+        and neutral_rms > largest_line * (1 + NEUTRAL_FLAG_MARGIN) + NEUTRAL_FLAG_MARGIN,
+        phase_pf={line: _phase_pf(value) for line, value in power.items()},
     )
