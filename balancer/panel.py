@@ -102,7 +102,8 @@ class Panel:
     spaces: int
     circuits: tuple[Circuit, ...]
     bus_a: float | None = None
-    main_a: float | None = None  # None: main lugs only
+    main_a: float | None = None
+    main_lugs_only: bool = False
     source: str = ""
     notices: tuple[str, ...] = field(default=())
 

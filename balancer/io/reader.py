@@ -326,9 +326,7 @@ def _rows(
         cols = {spec.key: c for c, (spec, _) in found.items()}
         texts = " ".join(_text(v) for v in row if v is not None)
         if _TOTAL.search(texts) and not _text(cells.get("space")).isdigit():
-            notices.append(
-                f"{grid.where(r, 0)}: row '{texts[:40]}' looks like a total and was skipped"
-            )
+            notices.append(f"{grid.where(r, 0)}: skipped the total row '{texts[:40]}'")
             continue
         extra = tuple((h, row[c] if c < len(row) else None) for c, h in extras)
         out.append(_Row(r, cells, cols, extra))
@@ -648,6 +646,7 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
         circuits=tuple(circuits),
         bus_a=bus_a,
         main_a=main_a,
+        main_lugs_only=bool(main_text) and main_a is None,
         source=str(path),
         notices=tuple(notices),
     )

@@ -1,0 +1,47 @@
+"""balancer: spread a panelboard's branch circuits across its phases, provably well.
+
+The pipeline, in order: :func:`read_schedule` → :func:`analyze` → :func:`balance` (model, solve,
+verify) → the writer. Heavier parts (the optimiser, the writer) load on first use, so
+``balancer check`` starts quickly.
+"""
+
+from __future__ import annotations
+
+from importlib import import_module
+from typing import Any
+
+from balancer.analysis import Loads, analyze
+from balancer.io.reader import PanelOverrides, read_schedule
+from balancer.panel import Circuit, Panel
+from balancer.systems import System, get_system
+
+__version__ = "0.1.0"
+
+_LAZY = {
+    "balance": ("balancer.optimize", "balance"),
+    "BalanceOptions": ("balancer.result", "BalanceOptions"),
+    "BalanceResult": ("balancer.result", "BalanceResult"),
+    "write_schedule": ("balancer.io.writer", "write_workbook"),
+}
+
+__all__ = [
+    "BalanceOptions",
+    "BalanceResult",
+    "Circuit",
+    "Loads",
+    "Panel",
+    "PanelOverrides",
+    "System",
+    "analyze",
+    "balance",
+    "get_system",
+    "read_schedule",
+    "write_schedule",
+]
+
+
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        module, attribute = _LAZY[name]
+        return getattr(import_module(module), attribute)
+    raise AttributeError(f"module 'balancer' has no attribute {name!r}")

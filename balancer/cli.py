@@ -1,0 +1,331 @@
+"""Command line: ``balancer check|balance|demo``. The only place errors become exit statuses."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+from balancer import report
+from balancer.analysis import analyze
+from balancer.errors import BalancerError, Problem, ScheduleError
+from balancer.io.reader import PanelOverrides, read_schedule
+from balancer.panel import Panel
+
+EXIT_OK, EXIT_BAD_INPUT, EXIT_SOLVER, EXIT_INFEASIBLE = 0, 2, 3, 4
+
+DESCRIPTION = """\
+Spread a panelboard's branch circuits across its phases.
+
+  check    read a panel schedule and report per-line loads, imbalance and currents
+  balance  find the best arrangement of circuits in spaces and write a revised schedule
+  demo     run balance on a bundled sample schedule (demo data)
+"""
+EPILOG = """\
+exit status: 0 done, 2 bad input (every problem is listed with its cell),
+3 solver failure, 4 no arrangement satisfies the panel's rules.
+
+An engineering aid: work inside panelboards is for qualified persons with the
+equipment de-energised; verify with a meter. The adopted code, local amendments
+and the authority having jurisdiction govern.
+"""
+
+
+def _panel_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("panel (these win over the schedule's Panel sheet)")
+    group.add_argument("--name", help="panel name")
+    group.add_argument(
+        "--system",
+        help="supply system, e.g. 208Y/120, 480Y/277, 400Y/230, 120/240, 240/120 (high leg), "
+        "'480 delta' (default when the file says nothing: 208Y/120)",
+    )
+    group.add_argument("--spaces", type=int, help="number of spaces (pole positions) in the panel")
+    group.add_argument("--bus", type=float, metavar="AMPS", help="bus rating in amperes")
+    group.add_argument(
+        "--main", metavar="AMPS|MLO", help="main breaker rating, or MLO for main lugs only"
+    )
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="balancer",
+        description=DESCRIPTION,
+        epilog=EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version="balancer 0.1.0")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+
+    check = commands.add_parser(
+        "check",
+        help="report per-line loads, imbalance and currents of a schedule",
+        description="Read a schedule (.xlsx or .csv) and report per-line loads, imbalance, "
+        "line and neutral currents. Nothing is written.",
+    )
+    check.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
+    check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    _panel_options(check)
+
+    balance = commands.add_parser(
+        "balance",
+        help="find the best arrangement and write a revised schedule",
+        description="Find the arrangement of circuits in spaces with the smallest phase spread "
+        "(then the fewest moves, then the smallest neutral current), prove how good it is, and "
+        "write a revised schedule workbook. The input file is never changed.",
+    )
+    balance.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
+    balance.add_argument(
+        "-o",
+        "--output",
+        type=Path,
+        help="workbook to write (default: <schedule>-balanced.xlsx beside it)",
+    )
+    balance.add_argument(
+        "--json", action="store_true", help="print one JSON object instead of text"
+    )
+    balance.add_argument(
+        "--fresh", action="store_true", help="ignore existing space numbers: lay the panel out anew"
+    )
+    balance.add_argument(
+        "--max-moves",
+        type=int,
+        metavar="N",
+        help="best balance reachable by moving at most N circuits",
+    )
+    balance.add_argument(
+        "--move-spares",
+        action="store_true",
+        help="let spare breakers move too (default: they stay)",
+    )
+    balance.add_argument(
+        "--engine", choices=("highs", "cbc"), default="highs", help="MILP engine (default: highs)"
+    )
+    balance.add_argument(
+        "--time-limit",
+        type=float,
+        default=60.0,
+        metavar="S",
+        help="solver time limit in seconds (default 60)",
+    )
+    balance.add_argument(
+        "--tolerance",
+        type=float,
+        default=1.0,
+        metavar="VA",
+        help="absolute tolerance on the phase spread in VA (default 1)",
+    )
+    _panel_options(balance)
+
+    demo = commands.add_parser(
+        "demo",
+        help="balance a bundled sample schedule (demo data)",
+        description="Run balance on a bundled sample schedule (demo data) and say where the "
+        "revised workbook was written.",
+    )
+    demo.add_argument(
+        "--output-dir",
+        type=Path,
+        default=Path("balancer-demo"),
+        help="folder for the revised workbook (default: ./balancer-demo)",
+    )
+    return parser
+
+
+def _overrides(args: argparse.Namespace) -> PanelOverrides:
+    return PanelOverrides(
+        name=args.name, system=args.system, spaces=args.spaces, bus_a=args.bus, main=args.main
+    )
+
+
+def _warnings(panel: Panel) -> list[str]:
+    return list(panel.notices)
+
+
+def _print_json(data: dict[str, Any]) -> None:
+    print(json.dumps(report.clean(data), indent=2, ensure_ascii=False))
+
+
+def run_check(args: argparse.Namespace) -> int:
+    panel = read_schedule(args.schedule, _overrides(args))
+    loads = analyze(panel)
+    warnings = _warnings(panel)
+    if args.json:
+        _print_json(
+            {
+                "panel": report.panel_to_dict(panel),
+                "loads": report.loads_to_dict(loads),
+                "circuits": report.circuits_to_list(panel),
+                "warnings": warnings,
+            }
+        )
+    else:
+        print(report.check_text(panel, loads, warnings))
+    return EXIT_OK
+
+
+def default_output(schedule: Path) -> Path:
+    return schedule.with_name(f"{schedule.stem}-balanced.xlsx")
+
+
+def _same_file(first: Path, second: Path) -> bool:
+    try:
+        return first.resolve() == second.resolve() or (second.exists() and first.samefile(second))
+    except OSError:
+        return False
+
+
+def balance_file(
+    schedule: Path, output: Path | None, options: Any, overrides: PanelOverrides
+) -> tuple[Any, Path]:
+    """Read → balance → write; returns the result and the workbook written."""
+    from balancer.io.writer import write_workbook
+    from balancer.optimize import balance
+
+    output = output or default_output(schedule)
+    if _same_file(schedule, output):
+        raise ScheduleError(
+            Problem(
+                "--output", f"{output} is the input schedule; balancer never overwrites its input"
+            )
+        )
+    panel = read_schedule(schedule, overrides)
+    result = balance(panel, options)
+    written = write_workbook(result, output)
+    return result, written
+
+
+def balance_json(result: Any, written: Path) -> dict[str, Any]:
+    return {
+        "panel": report.panel_to_dict(result.after_panel),
+        "status": result.status.value,
+        "engine": result.engine,
+        "tolerance_va": result.tolerance_va,
+        "lower_bound_spread_va": result.lower_bound_spread_va,
+        "gap_va": result.gap_va,
+        "solve_seconds": result.solve_seconds,
+        "before": report.loads_to_dict(result.before),
+        "after": report.loads_to_dict(result.after),
+        "moves": [
+            {
+                "id": m.circuit_id,
+                "description": m.description,
+                "from": list(m.from_spaces),
+                "to": list(m.to_spaces),
+                "from_phases": list(m.from_lines),
+                "to_phases": list(m.to_lines),
+            }
+            for m in result.moves
+        ],
+        "circuits": report.circuits_to_list(result.after_panel),
+        "notes": list(result.notes),
+        "warnings": _warnings(result.before_panel),
+        "output": str(written),
+    }
+
+
+def balance_text(result: Any, written: Path) -> str:
+    before, after = result.before, result.after
+    lines = [report.panel_heading(result.before_panel), ""]
+    lines += report.loads_table(before, title="Before")
+    lines += [""] + report.loads_table(after, title="After")
+    status = result.status.value
+    lines += [
+        "",
+        f"Result: {status} ({result.engine}); spread {after.spread_va:,.1f} VA, "
+        f"lower bound {result.lower_bound_spread_va:,.1f} VA, tolerance {result.tolerance_va:g} VA"
+        + (f", gap {result.gap_va:,.1f} VA" if status != "optimal" else ""),
+    ]
+    if result.moves:
+        lines += ["", f"Moves ({len(result.moves)}):"]
+        for m in result.moves:
+            origin = ",".join(map(str, m.from_spaces)) or "new"
+            lines.append(
+                f"  {m.description:<32} {origin:>8} ({''.join(m.from_lines) or '-'}) -> "
+                f"{','.join(map(str, m.to_spaces)):>8} ({''.join(m.to_lines)})"
+            )
+    else:
+        lines += ["", "Moves: none needed."]
+    notes = list(result.notes) + _warnings(result.before_panel)
+    if notes:
+        lines += ["", "Notes:"] + [f"  - {n}" for n in notes]
+    lines += ["", f"Wrote {written}", "", *report.wrap(report.SAFETY_NOTE)]
+    return "\n".join(lines)
+
+
+def _options(args: argparse.Namespace) -> Any:
+    from balancer.result import BalanceOptions
+
+    if args.max_moves is not None and args.max_moves < 0:
+        raise ScheduleError(Problem("--max-moves", f"{args.max_moves} must be 0 or more"))
+    if args.time_limit <= 0:
+        raise ScheduleError(Problem("--time-limit", "must be more than 0 seconds"))
+    return BalanceOptions(
+        fresh=args.fresh,
+        max_moves=args.max_moves,
+        engine=args.engine,
+        time_limit_s=args.time_limit,
+        tolerance_va=args.tolerance,
+        move_spares=args.move_spares,
+    )
+
+
+def run_balance(args: argparse.Namespace) -> int:
+    result, written = balance_file(args.schedule, args.output, _options(args), _overrides(args))
+    if args.json:
+        _print_json(balance_json(result, written))
+    else:
+        print(balance_text(result, written))
+    return EXIT_OK
+
+
+def sample_folder() -> Path:
+    """The bundled samples: ./sample_schedules, else the one beside the installed source tree."""
+    for candidate in (
+        Path.cwd() / "sample_schedules",
+        Path(__file__).resolve().parents[1] / "sample_schedules",
+    ):
+        if (candidate / DEMO_SAMPLE).exists():
+            return candidate
+    raise ScheduleError(
+        Problem(
+            "demo",
+            "the bundled samples were not found; run from a clone of the project "
+            "(installed with pip install -e .)",
+        )
+    )
+
+
+DEMO_SAMPLE = "office-208y120.xlsx"
+
+
+def run_demo(args: argparse.Namespace) -> int:
+    from balancer.result import BalanceOptions
+
+    schedule = sample_folder() / DEMO_SAMPLE
+    args.output_dir.mkdir(parents=True, exist_ok=True)
+    output = args.output_dir / default_output(schedule).name
+    print(f"Demo: balancing {schedule} (demo data)\n")
+    result, written = balance_file(schedule, output, BalanceOptions(), PanelOverrides())
+    print(balance_text(result, written))
+    return EXIT_OK
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    handlers = {"check": run_check, "balance": run_balance, "demo": run_demo}
+    try:
+        return handlers[args.command](args)
+    except BalancerError as exc:
+        print(f"balancer: {exc}", file=sys.stderr)
+        return exc.exit_status
+    except KeyboardInterrupt:
+        print("balancer: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,572 @@
+"""The revised schedule workbook: summary, panel layout, changes, circuit list, charts and notes.
+
+A new workbook is always written (never the input), atomically: a temporary file in the target
+folder, then ``os.replace``. The "Circuits" sheet is a plain list, one row per circuit with
+every unused input column handed back unchanged, so the tool's own reader can read it again.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import tempfile
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from openpyxl import Workbook
+from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.worksheet import Worksheet
+
+from balancer.analysis import Loads, share_by_line
+from balancer.errors import BalancerError
+from balancer.panel import Circuit, Panel
+from balancer.result import BalanceResult, SolveStatus
+
+ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
+"""A sheet another part of balancer adds: its title and its rows (the first row is the header)."""
+
+SAFETY_NOTES: tuple[str, ...] = (
+    "Work on panelboards only by qualified persons, with the equipment de-energised, locked out "
+    "and verified dead with a properly rated meter before touching any conductor.",
+    "Moving a breaker changes which line feeds each circuit: check multiwire branch circuits "
+    "(NEC 210.4: handle ties or multipole breakers, conductors on different lines), high-leg "
+    "marking (NEC 110.15) and the circuit directory (NEC 408.4) after every change.",
+    "These figures are an engineering aid computed from the schedule as given, not a measurement: "
+    "confirm the loads with a meter under typical operation.",
+    "The adopted electrical code, its local amendments, the authority having jurisdiction and "
+    "licensed professional practice govern over anything this tool reports.",
+)
+
+STATUS_TEXT = {
+    SolveStatus.OPTIMAL: "optimal: proven best within the stated tolerance",
+    SolveStatus.FEASIBLE: "feasible: checked arrangement, not proven best (see gap)",
+    SolveStatus.UNCHANGED: "unchanged: nothing could be improved or moved",
+}
+
+# Columns of the list sheet, as the reader spells them, and how each is taken from a circuit.
+# The first six are always written; the others only when some circuit has a value there.
+CIRCUIT_COLUMNS: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
+    ("Circuit", lambda c: c.id, "@"),
+    ("Description", lambda c: c.description, "@"),
+    ("Space", lambda c: c.first_space, "0"),
+    ("Poles", lambda c: c.poles, "0"),
+    ("Trip A", lambda c: c.trip_a, "0"),
+    ("Load VA", lambda c: c.load_va, "#,##0"),
+    ("Class", lambda c: c.load_class or None, "@"),
+    ("PF", lambda c: None if c.power_factor == 1.0 else c.power_factor, "0.00"),
+    ("Locked", lambda c: "yes" if c.locked else None, "@"),
+    ("Group", lambda c: c.group or None, "@"),
+    ("Measured A", lambda c: c.measured_a, "0.0"),
+    ("Voltage V", lambda c: c.voltage_v, "0"),
+    ("Continuous", lambda c: None if c.continuous is None else ("yes" if c.continuous else "no"), "@"),
+    ("Neutral VA", lambda c: c.neutral_va, "#,##0"),
+    ("Notes", lambda c: c.notes or None, "@"),
+)
+_ALWAYS = 6
+CIRCUITS_SHEET = "Circuits"
+
+VA = "#,##0"
+AMPS = "0.0"
+PCT = '0.0" %"'
+
+# Our own look: slate header, pale blue-grey banding, thin grey rules.
+_HEAD_FILL = PatternFill("solid", fgColor="33475B")
+_HEAD_FONT = Font(bold=True, color="FFFFFF")
+_BAND_FILL = PatternFill("solid", fgColor="EEF2F5")
+_MOVED_FILL = PatternFill("solid", fgColor="FFF1C7")
+_LINE_FILL = PatternFill("solid", fgColor="D5DDE4")
+_TITLE_FONT = Font(bold=True, size=14)
+_SECTION_FONT = Font(bold=True, size=11, color="33475B")
+_THIN = Side(style="thin", color="9AA5B1")
+_BOX = Border(left=_THIN, right=_THIN, top=_THIN, bottom=_THIN)
+_CENTRE = Alignment(horizontal="center", vertical="center")
+_WRAP = Alignment(wrap_text=True, vertical="top")
+
+
+@dataclass(frozen=True, slots=True)
+class _Table:
+    """Where a table landed on a sheet, for charts and tests."""
+
+    header_row: int
+    first_row: int
+    last_row: int
+
+
+def atomic_write_bytes(path: Path, data: bytes) -> Path:
+    """Write ``data`` to ``path`` through a temporary file in the same folder and os.replace."""
+    return _atomic(path, lambda tmp: tmp.write_bytes(data))
+
+
+def _atomic(path: Path, write: Callable[[Path], object]) -> Path:
+    path = Path(path)
+    fd, name = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=path.suffix, dir=path.parent)
+    os.close(fd)
+    tmp = Path(name)
+    try:
+        write(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return path
+
+
+def refuse_input_path(path: Path, *inputs: str | Path | None) -> None:
+    """Raise when ``path`` is one of the input files: the input is never written."""
+    target = Path(path).resolve()
+    for given in inputs:
+        if not given:
+            continue
+        source = Path(given).resolve()
+        same = target == source or (target.exists() and source.exists() and os.path.samefile(target, source))
+        if same:
+            raise BalancerError(
+                f"{path}: this is the input schedule; balancer never overwrites its input. "
+                "Choose another output name."
+            )
+
+
+# --- cell helpers -----------------------------------------------------------------------------
+
+
+def _header(ws: Worksheet, row: int, titles: Sequence[str], col: int = 1) -> None:
+    for i, title in enumerate(titles):
+        cell = ws.cell(row=row, column=col + i, value=title)
+        cell.fill = _HEAD_FILL
+        cell.font = _HEAD_FONT
+        cell.alignment = Alignment(horizontal="center", vertical="center", wrap_text=True)
+        cell.border = _BOX
+
+
+def _put(ws: Worksheet, row: int, col: int, value: Any, fmt: str | None = None) -> None:
+    cell = ws.cell(row=row, column=col, value=value)
+    cell.border = _BOX
+    if fmt and isinstance(value, (int, float)) and not isinstance(value, bool):
+        cell.number_format = fmt
+
+
+def _section(ws: Worksheet, row: int, text: str) -> None:
+    ws.cell(row=row, column=1, value=text).font = _SECTION_FONT
+
+
+def _print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> None:
+    ws.page_setup.orientation = "landscape" if landscape else "portrait"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.print_options.horizontalCentered = True
+    ws.page_margins.left = ws.page_margins.right = 0.5
+    ws.oddFooter.right.text = "&A, page &P of &N"
+    ws.oddFooter.left.text = "Engineering aid: verify before work"
+    if title_rows:
+        ws.print_title_rows = title_rows
+
+
+def _widths(ws: Worksheet, widths: Sequence[float]) -> None:
+    for i, width in enumerate(widths, start=1):
+        ws.column_dimensions[get_column_letter(i)].width = width
+
+
+def _spaces_text(spaces: Sequence[int]) -> str:
+    return ", ".join(str(s) for s in spaces) if spaces else "unplaced"
+
+
+def _lines_text(lines: Sequence[str]) -> str:
+    return "-".join(lines) if lines else ""
+
+
+def _panel_facts(panel: Panel) -> list[tuple[str, Any, str | None]]:
+    return [
+        ("Panel", panel.name, None),
+        ("System", panel.system.label(), None),
+        ("Spaces", panel.spaces, "0"),
+        ("Bus rating A", panel.bus_a, "0"),
+        ("Main A", panel.main_a if panel.main_a is not None else "main lugs only", "0"),
+        ("Source", panel.source or "", None),
+    ]
+
+
+# --- sheets -----------------------------------------------------------------------------------
+
+
+def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
+    panel = result.after_panel
+    ws.title = "Summary"
+    ws["A1"] = f"{panel.name}: revised schedule"
+    ws["A1"].font = _TITLE_FONT
+    row = 3
+    for label, value, fmt in _panel_facts(panel):
+        ws.cell(row=row, column=1, value=label).font = Font(bold=True)
+        cell = ws.cell(row=row, column=2, value=value)
+        if fmt and isinstance(value, (int, float)):
+            cell.number_format = fmt
+        row += 1
+    for notice in panel.notices:
+        ws.cell(row=row, column=1, value="Notice").font = Font(bold=True)
+        ws.cell(row=row, column=2, value=notice)
+        row += 1
+
+    row += 1
+    _section(ws, row, "Per-line figures")
+    row += 1
+    header_row = row
+    _header(ws, row, ["Line", "Before VA", "After VA", "Average VA", "Before A", "After A"])
+    average = result.after.total_va / len(panel.lines)
+    first_row = row + 1
+    for line in panel.lines:
+        row += 1
+        _put(ws, row, 1, line)
+        ws.cell(row=row, column=1).alignment = _CENTRE
+        _put(ws, row, 2, result.before.phase_va[line], VA)
+        _put(ws, row, 3, result.after.phase_va[line], VA)
+        _put(ws, row, 4, average, VA)
+        _put(ws, row, 5, result.before.line_a[line], AMPS)
+        _put(ws, row, 6, result.after.line_a[line], AMPS)
+    table = _Table(header_row, first_row, row)
+
+    row += 2
+    _section(ws, row, "Totals")
+    row += 1
+    _header(ws, row, ["Figure", "Before", "After"])
+    figures: list[tuple[str, Callable[[Loads], Any], str]] = [
+        ("Total VA", lambda x: x.total_va, VA),
+        ("Spread VA (heaviest - lightest)", lambda x: x.spread_va, VA),
+        ("Imbalance % (NEMA MG 1 definition)", lambda x: x.imbalance_pct, PCT),
+        ("Current unbalance |I2|/|I1| %", lambda x: x.unbalance_factor_pct, PCT),
+        ("Neutral current A", lambda x: x.neutral_a if panel.system.neutral else "no neutral", AMPS),
+        ("Heaviest line", lambda x: x.heaviest_line, ""),
+    ]
+    for label, get, fmt in figures:
+        row += 1
+        _put(ws, row, 1, label)
+        _put(ws, row, 2, get(result.before), fmt)
+        _put(ws, row, 3, get(result.after), fmt)
+
+    row += 2
+    _section(ws, row, "Result")
+    facts: list[tuple[str, Any, str | None]] = [
+        ("Status", STATUS_TEXT[result.status], None),
+        ("Engine", result.engine, None),
+        ("Lower bound on spread VA", result.lower_bound_spread_va, VA),
+        ("Gap to lower bound VA", result.gap_va, VA),
+        ("Tolerance VA", result.tolerance_va, VA),
+        ("Moves", len(result.moves), "0"),
+        ("Solve time s", result.solve_seconds, "0.00"),
+    ]
+    for label, value, fmt in facts:
+        row += 1
+        _put(ws, row, 1, label)
+        _put(ws, row, 2, value, fmt)
+    for note in result.notes:
+        row += 1
+        _put(ws, row, 1, "Note")
+        _put(ws, row, 2, note)
+    if result.after.unplaced:
+        row += 1
+        _put(ws, row, 1, "Not placed (left out of the figures)")
+        _put(ws, row, 2, ", ".join(result.after.unplaced))
+
+    row += 2
+    _section(ws, row, "Cautions")
+    for note in SAFETY_NOTES:
+        row += 1
+        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=6)
+        cell = ws.cell(row=row, column=1, value=note)
+        cell.alignment = _WRAP
+        ws.row_dimensions[row].height = 30
+    _widths(ws, [36, 16, 16, 13, 11, 11])
+    _print_setup(ws, landscape=False, title_rows=None)
+    return table
+
+
+def _side_cells(panel: Panel, space: int) -> tuple[Any, Any, Any, Any, Circuit | None]:
+    """Description, load VA on this space's line, trip and poles for one space."""
+    occupant = next((c for c in panel.circuits if space in c.spaces), None)
+    if occupant is None:
+        return "(space)", None, None, None, None
+    line = panel.geometry.line_of(space)
+    share = share_by_line(panel, occupant).get(line, 0.0)
+    if space == occupant.first_space:
+        return occupant.description, share, occupant.trip_a, occupant.poles, occupant
+    return f"(pole of space {occupant.first_space})", share, None, None, occupant
+
+
+def _layout(ws: Worksheet, result: BalanceResult) -> None:
+    panel = result.after_panel
+    before_spaces = {c.id: c.spaces for c in result.before_panel.circuits}
+    ws.title = "Layout"
+    ws["A1"] = f"{panel.name}: revised layout, as the panel is built (odd spaces left, even right)"
+    ws["A1"].font = _TITLE_FONT
+    ws["A2"] = (
+        f"{panel.system.label()}. Load VA is each circuit's share on that row's line. "
+        "'Was' gives the old spaces of a moved breaker."
+    )
+    titles = ["Was", "Description", "Load VA", "Trip A", "Poles", "Space", "Line",
+              "Space", "Poles", "Trip A", "Load VA", "Description", "Was"]
+    _header(ws, 3, titles)
+    geometry = panel.geometry
+    totals = dict.fromkeys(panel.lines, 0.0)
+    row = 3
+    for pair in range(geometry.rows()):
+        row += 1
+        left, right = 2 * pair + 1, 2 * pair + 2
+        line = geometry.line_of(left)
+        for space, cols in ((left, (2, 3, 4, 5, 6, 1)), (right, (12, 11, 10, 9, 8, 13))):
+            if space > panel.spaces:
+                continue
+            description, share, trip, poles, occupant = _side_cells(panel, space)
+            d_col, va_col, trip_col, poles_col, space_col, was_col = cols
+            _put(ws, row, d_col, description)
+            _put(ws, row, va_col, share, VA)
+            _put(ws, row, trip_col, trip, "0")
+            _put(ws, row, poles_col, poles, "0")
+            _put(ws, row, space_col, space, "0")
+            ws.cell(row=row, column=space_col).alignment = _CENTRE
+            moved = occupant is not None and before_spaces.get(occupant.id) != occupant.spaces
+            was = _spaces_text(before_spaces.get(occupant.id, ())) if moved and occupant else None
+            _put(ws, row, was_col, was)
+            if share:
+                totals[line] += share
+            if description == "(space)":
+                ws.cell(row=row, column=d_col).font = Font(italic=True, color="6B7785")
+            if moved:
+                for col in cols:
+                    ws.cell(row=row, column=col).fill = _MOVED_FILL
+        _put(ws, row, 7, line)
+        centre = ws.cell(row=row, column=7)
+        centre.alignment = _CENTRE
+        centre.font = Font(bold=True)
+        centre.fill = _LINE_FILL
+    row += 2
+    _section(ws, row, "Line totals")
+    row += 1
+    _header(ws, row, ["Line", "Load VA", "Amps"], col=2)
+    for line in panel.lines:
+        row += 1
+        _put(ws, row, 2, line)
+        _put(ws, row, 3, totals[line], VA)
+        _put(ws, row, 4, result.after.line_a[line], AMPS)
+    if panel.system.neutral:
+        row += 1
+        _put(ws, row, 2, "N")
+        _put(ws, row, 3, None)
+        _put(ws, row, 4, result.after.neutral_a, AMPS)
+    _widths(ws, [8, 30, 10, 7, 6, 7, 6, 7, 6, 7, 10, 30, 8])
+    ws.freeze_panes = "A4"
+    _print_setup(ws, landscape=True, title_rows="1:3")
+
+
+def _changes(ws: Worksheet, result: BalanceResult) -> None:
+    ws.title = "Changes"
+    moved = {m.circuit_id for m in result.moves}
+    ws["A1"] = f"{result.after_panel.name}: {len(moved)} breaker(s) change spaces"
+    ws["A1"].font = _TITLE_FONT
+    titles = ["Circuit", "Description", "Poles", "Load VA", "Old spaces", "Old lines",
+              "New spaces", "New lines", "Moved"]
+    _header(ws, 2, titles)
+    after = {c.id: c for c in result.after_panel.circuits}
+    row = 2
+    for circuit in result.before_panel.circuits:
+        new = after.get(circuit.id, circuit)
+        row += 1
+        values: list[tuple[Any, str | None]] = [
+            (circuit.id, None), (circuit.description, None), (circuit.poles, "0"),
+            (circuit.load_va, VA), (_spaces_text(circuit.spaces), None),
+            (_lines_text(result.before_panel.lines_of(circuit)), None),
+            (_spaces_text(new.spaces), None), (_lines_text(result.after_panel.lines_of(new)), None),
+            ("moved" if circuit.id in moved else "", None),
+        ]
+        for col, (value, fmt) in enumerate(values, start=1):
+            _put(ws, row, col, value, fmt)
+            if col >= 5:
+                ws.cell(row=row, column=col).alignment = _CENTRE
+            if circuit.id in moved:
+                ws.cell(row=row, column=col).fill = _MOVED_FILL
+    ws.auto_filter.ref = f"A2:I{row}"
+    _widths(ws, [9, 32, 6, 10, 11, 9, 11, 9, 8])
+    ws.freeze_panes = "A3"
+    _print_setup(ws, landscape=True, title_rows="2:2")
+
+
+def _circuits(ws: Worksheet, panel: Panel) -> None:
+    ws.title = CIRCUITS_SHEET
+    columns = [
+        column
+        for i, column in enumerate(CIRCUIT_COLUMNS)
+        if i < _ALWAYS or any(column[1](c) is not None for c in panel.circuits)
+    ]
+    extra_headers: list[str] = []
+    for circuit in panel.circuits:
+        for header, _ in circuit.extra:
+            if header not in extra_headers:
+                extra_headers.append(header)
+    _header(ws, 1, [name for name, _, _ in columns] + extra_headers)
+    for row, circuit in enumerate(panel.circuits, start=2):
+        for col, (_, get, fmt) in enumerate(columns, start=1):
+            _put(ws, row, col, get(circuit), fmt)
+        extra = dict(circuit.extra)
+        for col, header in enumerate(extra_headers, start=len(columns) + 1):
+            _put(ws, row, col, extra.get(header))
+    width = {"Description": 32, "Notes": 24, "Load VA": 10}
+    _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
+    ws.freeze_panes = "C2"
+    _print_setup(ws, landscape=True, title_rows="1:1")
+
+
+def _tradeoff(ws: Worksheet, result: BalanceResult) -> None:
+    from balancer.io.charts import tradeoff_chart
+
+    ws.title = "Trade-off"
+    ws["A1"] = "Best balance reachable with at most this many moves"
+    ws["A1"].font = _TITLE_FONT
+    _header(ws, 2, ["Moves allowed", "Spread VA", "Imbalance %", "Neutral A", "Status"])
+    row = 2
+    for entry in result.tradeoff:
+        row += 1
+        _put(ws, row, 1, entry.moves, "0")
+        _put(ws, row, 2, entry.spread_va, VA)
+        _put(ws, row, 3, entry.imbalance_pct, "0.0")
+        _put(ws, row, 4, entry.neutral_a, AMPS)
+        _put(ws, row, 5, entry.status.value)
+    _widths(ws, [14, 12, 12, 11, 11])
+    chart = tradeoff_chart(ws, header_row=2, first_row=3, last_row=row, moves_col=1, imbalance_col=3)
+    ws.add_chart(chart, "G2")
+    _print_setup(ws, landscape=True, title_rows="2:2")
+
+
+def _phasors(ws: Worksheet, result: BalanceResult, harmonic: tuple[float | None, float | None] | None) -> None:
+    from openpyxl.drawing.image import Image
+
+    from balancer.io.charts import draw_phasor_diagram, phasor_arrows, phasor_figure_bytes
+
+    ws.title = "Phasors"
+    ws["A1"] = "Line and neutral current phasors (RMS, fundamental), before and after"
+    ws["A1"].font = _TITLE_FONT
+    _header(ws, 2, ["Current", "Before A", "Before angle °", "After A", "After angle °"])
+    before = phasor_arrows(result.before_panel)
+    after = phasor_arrows(result.after_panel)
+    row = 2
+    for old, new in zip(before, after, strict=True):
+        row += 1
+        name = "Neutral" if old.kind == "neutral" else f"Line {old.label}"
+        _put(ws, row, 1, name)
+        _put(ws, row, 2, old.magnitude_a, AMPS)
+        _put(ws, row, 3, old.angle_deg, "0.0")
+        _put(ws, row, 4, new.magnitude_a, AMPS)
+        _put(ws, row, 5, new.angle_deg, "0.0")
+    ws.cell(row=row + 1, column=1, value="Angles from line A's line-to-neutral voltage.")
+    _widths(ws, [14, 11, 14, 11, 14])
+    fig = draw_phasor_diagram(before, after, harmonic_neutral_rms_a=harmonic,
+                              title=f"{result.after_panel.name}: current phasors")
+    image = Image(io.BytesIO(phasor_figure_bytes(fig, "png", dpi=90)))
+    ws.add_image(image, f"A{row + 3}")
+    _print_setup(ws, landscape=True, title_rows=None)
+
+
+def _notes(ws: Worksheet) -> None:
+    ws.title = "Notes"
+    ws["A1"] = "Cautions and how to read this workbook"
+    ws["A1"].font = _TITLE_FONT
+    lines = [
+        *SAFETY_NOTES,
+        "Per-line VA follows the usual schedule convention (common practice): a 1-pole load "
+        "counts wholly on its line, a 2-pole load half on each line, a 3-pole load a third.",
+        "Imbalance % is the largest deviation from the average line load, divided by the average "
+        "(the NEMA MG 1 definition, applied to loads).",
+        "Currents are phasor sums at the fundamental frequency from the schedule's VA and power "
+        "factors; the neutral carries the sum of the 1-pole circuit currents.",
+        "A result is called optimal only when the solver proved it within the tolerance; "
+        "otherwise the gap to the lower bound is stated.",
+        "The 'Circuits' sheet can be read back by balancer; edit it there and run again.",
+    ]
+    for row, text in enumerate(lines, start=3):
+        cell = ws.cell(row=row, column=1, value=text)
+        cell.alignment = _WRAP
+        ws.row_dimensions[row].height = 32
+    ws.column_dimensions["A"].width = 90
+    _print_setup(ws, landscape=False, title_rows=None)
+    ws.print_options.horizontalCentered = False
+
+
+def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
+    ws.title = title[:31]
+    if not rows:
+        return
+    _header(ws, 1, [str(v) for v in rows[0]])
+    widths = [max(10, min(50, len(str(v)) + 2)) for v in rows[0]]
+    for r, values in enumerate(rows[1:], start=2):
+        for c, value in enumerate(values, start=1):
+            fmt = "#,##0.##" if isinstance(value, float) else None
+            _put(ws, r, c, value, fmt)
+            if c <= len(widths):
+                widths[c - 1] = max(widths[c - 1], min(50, len(str(value)) + 2))
+    _widths(ws, widths)
+    _print_setup(ws, landscape=True, title_rows="1:1")
+
+
+def write_workbook(
+    result: BalanceResult,
+    path: Path | str,
+    *,
+    input_path: Path | str | None = None,
+    extra_sheets: Sequence[ExtraSheet] = (),
+    phasor_diagram: bool = True,
+    harmonic_neutral_rms_a: tuple[float | None, float | None] | None = None,
+) -> Path:
+    """Write the revised schedule workbook for ``result`` to ``path`` and return the path.
+
+    Parameters
+    ----------
+    result
+        The balancing result (before and after panels and figures).
+    path
+        The new workbook. Refused when it is the input (``input_path`` or the panel's source).
+    input_path
+        The schedule that was read, when known.
+    extra_sheets
+        ``(title, rows)`` sheets from other parts of balancer (demand and feeder check, work
+        order); the first row of each is its header. Placed after the built-in sheets.
+    phasor_diagram
+        Add the "Phasors" sheet with the diagram image (needs matplotlib and Pillow).
+    harmonic_neutral_rms_a
+        Neutral RMS current with harmonics before and after, when known; drawn as bars.
+
+    Raises
+    ------
+    BalancerError
+        When ``path`` is the input file.
+    """
+    from balancer.io.charts import phase_load_chart
+
+    path = Path(path)
+    refuse_input_path(path, input_path, result.before_panel.source or None)
+    wb = Workbook()
+    summary = wb.active
+    assert summary is not None
+    table = _summary(summary, result)
+    chart = phase_load_chart(
+        summary, header_row=table.header_row, first_row=table.first_row, last_row=table.last_row,
+        line_col=1, before_col=2, after_col=3, average_col=4,
+    )
+    summary.add_chart(chart, f"A{summary.max_row + 2}")
+    _layout(wb.create_sheet(), result)
+    _changes(wb.create_sheet(), result)
+    _circuits(wb.create_sheet(), result.after_panel)
+    if result.tradeoff:
+        _tradeoff(wb.create_sheet(), result)
+    if phasor_diagram:
+        _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
+    taken = set(wb.sheetnames)
+    for title, rows in extra_sheets:
+        name = title[:31]
+        if name in taken:
+            raise ValueError(f"extra sheet {title!r} would repeat a sheet name")
+        taken.add(name)
+        _extra(wb.create_sheet(), name, rows)
+    _notes(wb.create_sheet())
+    wb.properties.title = f"{result.after_panel.name} revised schedule"
+    wb.properties.creator = "balancer"
+    return _atomic(path, lambda tmp: wb.save(tmp))

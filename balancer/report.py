@@ -1,0 +1,137 @@
+"""Turn results into what people read: terminal text and JSON-ready dictionaries."""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import textwrap
+from typing import Any
+
+from balancer.analysis import Loads
+from balancer.panel import Panel
+
+SAFETY_NOTE = (
+    "An engineering aid, not a design approval. Work inside a panelboard is for qualified "
+    "persons, with the equipment de-energised and absence of voltage verified with a meter. "
+    "The adopted code, local amendments, the authority having jurisdiction and licensed "
+    "practice govern."
+)
+IMBALANCE_DEFINITION = (
+    "imbalance: NEMA MG 1 definition applied to phase loads, "
+    "largest deviation from the average ÷ average"
+)
+
+
+def _clean(value: Any) -> Any:
+    """JSON-friendly: round floats to 0.001, enums to their value, tuples to lists."""
+    if isinstance(value, float):
+        if math.isnan(value) or math.isinf(value):
+            return None
+        rounded = round(value, 3)
+        return 0.0 if rounded == 0 else rounded
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_clean(v) for v in value]
+    if hasattr(value, "value") and not isinstance(value, int | str):
+        return value.value
+    return value
+
+
+def clean(value: Any) -> Any:
+    return _clean(value)
+
+
+def panel_to_dict(panel: Panel) -> dict[str, Any]:
+    return {
+        "name": panel.name,
+        "system": panel.system.designation,
+        "system_label": panel.system.label(),
+        "frequency_hz": panel.system.frequency_hz,
+        "spaces": panel.spaces,
+        "bus_a": panel.bus_a,
+        "main_a": panel.main_a,
+        "source": panel.source,
+    }
+
+
+def loads_to_dict(loads: Loads) -> dict[str, Any]:
+    """Every field of :class:`Loads`, so new figures reach JSON without changes here."""
+    out = {f.name: getattr(loads, f.name) for f in dataclasses.fields(loads)}
+    return _clean(out)  # type: ignore[no-any-return]
+
+
+def circuits_to_list(panel: Panel) -> list[dict[str, Any]]:
+    rows = []
+    for c in panel.circuits:
+        rows.append(
+            {
+                "id": c.id,
+                "description": c.description,
+                "poles": c.poles,
+                "load_va": c.load_va,
+                "spaces": list(c.spaces),
+                "phases": list(panel.lines_of(c)),
+                "trip_a": c.trip_a,
+                "load_class": c.load_class,
+                "power_factor": c.power_factor,
+                "locked": c.locked,
+                "group": c.group,
+            }
+        )
+    return _clean(rows)  # type: ignore[no-any-return]
+
+
+def panel_heading(panel: Panel) -> str:
+    parts = [f"Panel {panel.name}", panel.system.label(), f"{panel.spaces} spaces"]
+    if panel.system.frequency_hz != 60:
+        parts.insert(2, f"{panel.system.frequency_hz:g} Hz")
+    if panel.bus_a:
+        parts.append(f"bus {panel.bus_a:g} A")
+    if panel.main_a:
+        parts.append(f"main {panel.main_a:g} A")
+    elif panel.main_lugs_only:
+        parts.append("main lugs only")
+    return " | ".join(parts)
+
+
+def loads_table(loads: Loads, *, title: str = "") -> list[str]:
+    """Per-line figures as aligned text lines."""
+    lines = [title] if title else []
+    lines.append(f"  {'line':<5}{'load kVA':>10}{'kW':>9}{'kvar':>9}{'current A':>12}")
+    for line, va in loads.phase_va.items():
+        lines.append(
+            f"  {line:<5}{va / 1000:>10.2f}{loads.phase_kw[line]:>9.2f}"
+            f"{loads.phase_kvar[line]:>9.2f}{loads.line_a[line]:>12.1f}"
+        )
+    lines.append(f"  {'total':<5}{loads.total_va / 1000:>10.2f}")
+    lines.append(
+        f"  spread {loads.spread_va / 1000:.2f} kVA (max − min) | imbalance "
+        f"{loads.imbalance_pct:.1f} % | neutral {loads.neutral_a:.1f} A"
+        + (
+            f" | negative-sequence unbalance {loads.unbalance_factor_pct:.1f} %"
+            if loads.unbalance_factor_pct is not None
+            else ""
+        )
+    )
+    return lines
+
+
+def check_text(panel: Panel, loads: Loads, warnings: list[str]) -> str:
+    lines = [
+        panel_heading(panel),
+        f"  read from {panel.source} ({len(panel.circuits)} circuits)",
+        "",
+    ]
+    lines += loads_table(loads)
+    lines.append(f"  ({IMBALANCE_DEFINITION})")
+    if loads.unplaced:
+        lines.append(f"  not counted: {len(loads.unplaced)} circuit(s) without a space number")
+    if warnings:
+        lines += ["", "Notes:"] + [f"  - {w}" for w in warnings]
+    lines += ["", *wrap(SAFETY_NOTE)]
+    return "\n".join(lines)
+
+
+def wrap(text: str, width: int = 88) -> list[str]:
+    return textwrap.wrap(text, width)
