@@ -149,11 +149,28 @@ def load_systems(path: Path | None = None) -> dict[str, System]:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ScheduleError(Problem(where, f"not valid TOML: {exc}")) from exc
-    systems = [
-        _system_from_table(t, f"{where} system {i + 1}")
-        for i, t in enumerate(data.get("system", []))
-    ]
+    tables = data.get("system", [])
+    if not isinstance(tables, list) or not tables:
+        raise ScheduleError(Problem(where, "no [[system]] tables found"))
+    systems = [_system_from_table(t, f"{where} system {i + 1}") for i, t in enumerate(tables)]
+    seen: dict[str, int] = {}
+    for i, system in enumerate(systems):
+        if system.designation in seen:
+            raise ScheduleError(
+                Problem(
+                    f"{where} system {i + 1}",
+                    f"designation {system.designation!r} already used by system "
+                    f"{seen[system.designation] + 1}",
+                )
+            )
+        seen[system.designation] = i
     return {s.designation: s for s in systems}
+
+
+def all_systems(path: Path | None = None) -> dict[str, System]:
+    """The bundled systems plus those in a user's file; a user's entry replaces a bundled one
+    of the same designation."""
+    return {**builtin_systems(), **(load_systems(path) if path is not None else {})}
 
 
 @cache
@@ -270,13 +287,14 @@ def circuit_wiring(
     if voltage_v is None or _matches(voltage_v, line_to_line_v):
         return Wiring("line-to-line", line_to_line_v)
     servable = [system.line_to_neutral_v[system.lines.index(x)] for x in lines]
-    if system.neutral and all(_matches(voltage_v, v) for v in servable):
+    ordinary = [v for x, v in zip(lines, servable, strict=True) if x != system.high_leg]
+    if system.neutral and ordinary and all(_matches(voltage_v, v) for v in ordinary):
         if system.high_leg in lines:
             raise ValueError(
                 f"a {voltage_v:g} V multiwire circuit cannot use line {system.high_leg}: "
                 f"{_high_leg_reason(system)}"
             )
-        return Wiring("multiwire", servable[0])
+        return Wiring("multiwire", ordinary[0])
     hint = ""
     if system.designation == "208Y/120" and _matches(voltage_v, 240.0):
         hint = "; 240 V equipment on a 208Y/120 system runs at 208 V: check its rating"
