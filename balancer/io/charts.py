@@ -11,7 +11,7 @@ from __future__ import annotations
 import cmath
 import io
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Literal
@@ -20,8 +20,9 @@ from openpyxl.chart import BarChart, LineChart, Reference
 from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.drawing.line import LineProperties
 
+from balancer.harmonics import Profile, spectrum_for
 from balancer.panel import Panel
-from balancer.phasors import circuit_line_currents, sum_currents
+from balancer.phasors import circuit_harmonic_currents
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -55,14 +56,19 @@ def phase_load_chart(
     bars.x_axis.title = "Line"
     categories = Reference(ws, min_col=line_col, min_row=first_row, max_row=last_row)
     for col in (before_col, after_col):
-        bars.add_data(Reference(ws, min_col=col, min_row=header_row, max_row=last_row), titles_from_data=True)
+        bars.add_data(
+            Reference(ws, min_col=col, min_row=header_row, max_row=last_row), titles_from_data=True
+        )
     bars.set_categories(categories)
     # Before hatched-light, after solid-dark: the two stay apart in greyscale print.
     bars.series[0].graphicalProperties = GraphicalProperties(solidFill="B8C4CE")
     bars.series[0].graphicalProperties.line = LineProperties(solidFill="3C4A57")
     bars.series[1].graphicalProperties = GraphicalProperties(solidFill="3C4A57")
     average = LineChart()
-    average.add_data(Reference(ws, min_col=average_col, min_row=header_row, max_row=last_row), titles_from_data=True)
+    average.add_data(
+        Reference(ws, min_col=average_col, min_row=header_row, max_row=last_row),
+        titles_from_data=True,
+    )
     average.set_categories(categories)
     line = average.series[0]
     line.graphicalProperties.line = LineProperties(solidFill="000000", prstDash="dash", w=22000)
@@ -90,7 +96,10 @@ def tradeoff_chart(
     chart.title = "Imbalance against moves allowed"
     chart.y_axis.title = "Imbalance %"
     chart.x_axis.title = "Moves allowed"
-    chart.add_data(Reference(ws, min_col=imbalance_col, min_row=header_row, max_row=last_row), titles_from_data=True)
+    chart.add_data(
+        Reference(ws, min_col=imbalance_col, min_row=header_row, max_row=last_row),
+        titles_from_data=True,
+    )
     chart.set_categories(Reference(ws, min_col=moves_col, min_row=first_row, max_row=last_row))
     series = chart.series[0]
     series.marker.symbol = "circle"
@@ -125,27 +134,32 @@ class Arrow:
         return math.degrees(cmath.phase(self.current_a)) if self.current_a else 0.0
 
 
-def phasor_arrows(panel: Panel) -> tuple[Arrow, ...]:
-    """Line current phasors of the panel as placed, then the neutral (when the system has one).
+def phasor_arrows(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> tuple[Arrow, ...]:
+    """Fundamental line current phasors of the panel as placed, then the neutral (if any).
 
-    Uses the same per-circuit currents as :func:`balancer.analysis.analyze`, so the magnitudes
-    equal ``Loads.line_a`` and ``Loads.neutral_a``: the neutral carries the sum of the
-    line-to-neutral (1-pole) circuit currents.
+    Built from the same per-circuit currents as :func:`balancer.analysis.analyze`, so the
+    magnitudes equal ``Loads.line_a`` and ``Loads.neutral_a``; the neutral is what the lines
+    carry out and does not return on them (Kirchhoff's current law).
     """
-    parts = []
-    neutral = 0j
+    totals = dict.fromkeys(panel.lines, 0j)
     for circuit in panel.circuits:
         lines = panel.lines_of(circuit)
-        if not lines:
+        if not lines or circuit.load_va == 0:
             continue
-        currents = circuit_line_currents(panel.system, lines, circuit.load_va, circuit.power_factor)
-        parts.append(currents)
-        if len(lines) == 1:
-            neutral += currents[lines[0]]
-    totals = sum_currents(parts, panel.lines)
+        by_order = circuit_harmonic_currents(
+            panel.system,
+            lines,
+            circuit.load_va,
+            circuit.power_factor,
+            spectrum=spectrum_for(circuit, profiles),
+            voltage_v=circuit.voltage_v,
+            neutral_va=circuit.neutral_va,
+        )
+        for line, current in by_order[1].lines.items():
+            totals[line] += current
     arrows = [Arrow(line, totals[line], "line") for line in panel.lines]
     if panel.system.neutral:
-        arrows.append(Arrow("N", neutral, "neutral"))
+        arrows.append(Arrow("N", sum(totals.values(), 0j), "neutral"))
     return tuple(arrows)
 
 
@@ -176,15 +190,28 @@ def _draw_one(ax: object, arrows: Sequence[Arrow], title: str, reach_a: float) -
             "",
             xy=(tip.real, tip.imag),
             xytext=(0, 0),
-            arrowprops={"arrowstyle": "-|>", "linestyle": style, "color": colour, "lw": width,
-                        "shrinkA": 0, "shrinkB": 0, "mutation_scale": 14},
+            arrowprops={
+                "arrowstyle": "-|>",
+                "linestyle": style,
+                "color": colour,
+                "lw": width,
+                "shrinkA": 0,
+                "shrinkB": 0,
+                "mutation_scale": 14,
+            },
         )
         name = "Neutral" if arrow.kind == "neutral" else f"Line {arrow.label}"
         offset = tip / abs(tip) * limit * 0.08 if abs(tip) > 0 else complex(0, limit * 0.08)
         where = tip + offset
-        ax.text(where.real, where.imag, f"{name}\n{arrow.magnitude_a:.1f} A", fontsize=8,
-                ha="center", va="center",
-                bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": colour, "ls": style})
+        ax.text(
+            where.real,
+            where.imag,
+            f"{name}\n{arrow.magnitude_a:.1f} A",
+            fontsize=8,
+            ha="center",
+            va="center",
+            bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": colour, "ls": style},
+        )
     ax.set_title(title, fontsize=10)
     ax.set_xlabel("real part (A)", fontsize=8)
     ax.set_ylabel("imaginary part (A)", fontsize=8)
@@ -195,7 +222,7 @@ def draw_phasor_diagram(
     before: Sequence[Arrow],
     after: Sequence[Arrow] | None = None,
     *,
-    harmonic_neutral_rms_a: tuple[float | None, float | None] | None = None,
+    harmonic_neutral_rms_a: Sequence[float | None] | None = None,
     title: str = "",
 ) -> Figure:
     """Draw the arrows (before and after side by side, one scale), plus an optional bar panel of
@@ -205,7 +232,9 @@ def draw_phasor_diagram(
     panels = [("Before" if after is not None else "As placed", before)]
     if after is not None:
         panels.append(("After", after))
-    extra = harmonic_neutral_rms_a is not None and any(v is not None for v in harmonic_neutral_rms_a)
+    extra = harmonic_neutral_rms_a is not None and any(
+        v is not None for v in harmonic_neutral_rms_a
+    )
     count = len(panels) + (1 if extra else 0)
     fig = Figure(figsize=(4.2 * count, 4.6), layout="constrained")
     axes = fig.subplots(1, count, squeeze=False)[0]
@@ -221,12 +250,32 @@ def draw_phasor_diagram(
             fundamental.append(neutral.magnitude_a if neutral else 0.0)
             rms.append(value or 0.0)
         x = list(range(len(names)))
-        ax.bar([i - 0.2 for i in x], fundamental, 0.4, label="fundamental", color="white",
-               edgecolor="black", hatch="//")
-        ax.bar([i + 0.2 for i in x], rms, 0.4, label="RMS with harmonics", color="#555555",
-               edgecolor="black")
+        ax.bar(
+            [i - 0.2 for i in x],
+            fundamental,
+            0.4,
+            label="fundamental",
+            color="white",
+            edgecolor="black",
+            hatch="//",
+        )
+        ax.bar(
+            [i + 0.2 for i in x],
+            rms,
+            0.4,
+            label="RMS with harmonics",
+            color="#555555",
+            edgecolor="black",
+        )
         for i in x:
-            ax.text(i - 0.2, fundamental[i], f"{fundamental[i]:.1f}", ha="center", va="bottom", fontsize=8)
+            ax.text(
+                i - 0.2,
+                fundamental[i],
+                f"{fundamental[i]:.1f}",
+                ha="center",
+                va="bottom",
+                fontsize=8,
+            )
             ax.text(i + 0.2, rms[i], f"{rms[i]:.1f}", ha="center", va="bottom", fontsize=8)
         ax.set_xticks(x, names)
         ax.set_ylabel("neutral current (A)", fontsize=8)

@@ -8,6 +8,7 @@ every unused input column handed back unchanged, so the tool's own reader can re
 from __future__ import annotations
 
 import io
+import math
 import os
 import tempfile
 from collections.abc import Callable, Sequence
@@ -46,27 +47,43 @@ STATUS_TEXT = {
     SolveStatus.UNCHANGED: "unchanged: nothing could be improved or moved",
 }
 
-# Columns of the list sheet, as the reader spells them, and how each is taken from a circuit.
-# The first six are always written; the others only when some circuit has a value there.
-CIRCUIT_COLUMNS: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
-    ("Circuit", lambda c: c.id, "@"),
-    ("Description", lambda c: c.description, "@"),
-    ("Space", lambda c: c.first_space, "0"),
-    ("Poles", lambda c: c.poles, "0"),
-    ("Trip A", lambda c: c.trip_a, "0"),
-    ("Load VA", lambda c: c.load_va, "#,##0"),
-    ("Class", lambda c: c.load_class or None, "@"),
-    ("PF", lambda c: None if c.power_factor == 1.0 else c.power_factor, "0.00"),
-    ("Locked", lambda c: "yes" if c.locked else None, "@"),
-    ("Group", lambda c: c.group or None, "@"),
-    ("Measured A", lambda c: c.measured_a, "0.0"),
-    ("Voltage V", lambda c: c.voltage_v, "0"),
-    ("Continuous", lambda c: None if c.continuous is None else ("yes" if c.continuous else "no"), "@"),
-    ("Neutral VA", lambda c: c.neutral_va, "#,##0"),
-    ("Notes", lambda c: c.notes or None, "@"),
+
+def _flag_text(value: bool | None) -> str | None:
+    return None if value is None else ("yes" if value else "no")
+
+
+# What the list sheet writes for each column key of balancer.io.columns (headers are taken from
+# there, so the reader finds them). The first five are always written, the others only when some
+# circuit has a value. A multi-pole breaker is written by its first space, as the reader expects.
+_CIRCUIT_VALUES: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
+    ("space", lambda c: c.first_space, "0"),
+    ("description", lambda c: c.description, "@"),
+    ("poles", lambda c: c.poles, "0"),
+    ("trip_a", lambda c: c.trip_a, "0"),
+    ("load_va", lambda c: c.load_va, "#,##0"),
+    ("load_class", lambda c: c.load_class or None, "@"),
+    ("power_factor", lambda c: None if c.power_factor == 1.0 else c.power_factor, "0.00"),
+    ("locked", lambda c: "yes" if c.locked else None, "@"),
+    ("group", lambda c: c.group or None, "@"),
+    ("measured_a", lambda c: c.measured_a, "0.0"),
+    ("voltage_v", lambda c: c.voltage_v, "0"),
+    ("continuous", lambda c: _flag_text(c.continuous), "@"),
+    ("neutral_va", lambda c: c.neutral_va, "#,##0"),
+    ("yokes", lambda c: getattr(c, "yokes", None), "0"),
+    ("notes", lambda c: c.notes or None, "@"),
 )
-_ALWAYS = 6
+_ALWAYS = 5
+
+
+def _circuit_columns() -> tuple[tuple[str, Callable[[Circuit], Any], str], ...]:
+    from balancer.io.columns import COLUMNS
+
+    headers = {spec.key: spec.header for spec in COLUMNS}
+    return tuple((headers[key], get, fmt) for key, get, fmt in _CIRCUIT_VALUES if key in headers)
+
+
 CIRCUITS_SHEET = "Circuits"
+PANEL_SHEET = "Panel"
 
 VA = "#,##0"
 AMPS = "0.0"
@@ -121,7 +138,9 @@ def refuse_input_path(path: Path, *inputs: str | Path | None) -> None:
         if not given:
             continue
         source = Path(given).resolve()
-        same = target == source or (target.exists() and source.exists() and os.path.samefile(target, source))
+        same = target == source or (
+            target.exists() and source.exists() and os.path.samefile(target, source)
+        )
         if same:
             raise BalancerError(
                 f"{path}: this is the input schedule; balancer never overwrites its input. "
@@ -178,15 +197,40 @@ def _lines_text(lines: Sequence[str]) -> str:
     return "-".join(lines) if lines else ""
 
 
+def _main_text(panel: Panel) -> float | str | None:
+    if panel.main_a is not None:
+        return panel.main_a
+    return "MLO" if getattr(panel, "main_lugs_only", False) else None
+
+
 def _panel_facts(panel: Panel) -> list[tuple[str, Any, str | None]]:
+    main = _main_text(panel)
     return [
         ("Panel", panel.name, None),
         ("System", panel.system.label(), None),
         ("Spaces", panel.spaces, "0"),
         ("Bus rating A", panel.bus_a, "0"),
-        ("Main A", panel.main_a if panel.main_a is not None else "main lugs only", "0"),
+        ("Main A", "main lugs only" if main == "MLO" else main, "0"),
         ("Source", panel.source or "", None),
     ]
+
+
+def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
+    """Key/value rows the reader takes the panel's attributes from."""
+    ws.title = PANEL_SHEET
+    _header(ws, 1, ["Attribute", "Value"])
+    rows: list[tuple[str, Any, str | None]] = [
+        ("Name", panel.name, None),
+        ("System", panel.system.designation, None),
+        ("Spaces", panel.spaces, "0"),
+        ("Bus", panel.bus_a, "0"),
+        ("Main", _main_text(panel), "0"),
+    ]
+    for row, (label, value, fmt) in enumerate(rows, start=2):
+        _put(ws, row, 1, label)
+        _put(ws, row, 2, value, fmt)
+    _widths(ws, [14, 24])
+    _print_setup(ws, landscape=False, title_rows=None)
 
 
 # --- sheets -----------------------------------------------------------------------------------
@@ -236,7 +280,11 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         ("Spread VA (heaviest - lightest)", lambda x: x.spread_va, VA),
         ("Imbalance % (NEMA MG 1 definition)", lambda x: x.imbalance_pct, PCT),
         ("Current unbalance |I2|/|I1| %", lambda x: x.unbalance_factor_pct, PCT),
-        ("Neutral current A", lambda x: x.neutral_a if panel.system.neutral else "no neutral", AMPS),
+        (
+            "Neutral current A",
+            lambda x: x.neutral_a if panel.system.neutral else "no neutral",
+            AMPS,
+        ),
         ("Heaviest line", lambda x: x.heaviest_line, ""),
     ]
     for label, get, fmt in figures:
@@ -304,8 +352,21 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
         f"{panel.system.label()}. Load VA is each circuit's share on that row's line. "
         "'Was' gives the old spaces of a moved breaker."
     )
-    titles = ["Was", "Description", "Load VA", "Trip A", "Poles", "Space", "Line",
-              "Space", "Poles", "Trip A", "Load VA", "Description", "Was"]
+    titles = [
+        "Was",
+        "Description",
+        "Load VA",
+        "Trip A",
+        "Poles",
+        "Space",
+        "Line",
+        "Space",
+        "Poles",
+        "Trip A",
+        "Load VA",
+        "Description",
+        "Was",
+    ]
     _header(ws, 3, titles)
     geometry = panel.geometry
     totals = dict.fromkeys(panel.lines, 0.0)
@@ -364,8 +425,17 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
     moved = {m.circuit_id for m in result.moves}
     ws["A1"] = f"{result.after_panel.name}: {len(moved)} breaker(s) change spaces"
     ws["A1"].font = _TITLE_FONT
-    titles = ["Circuit", "Description", "Poles", "Load VA", "Old spaces", "Old lines",
-              "New spaces", "New lines", "Moved"]
+    titles = [
+        "Circuit",
+        "Description",
+        "Poles",
+        "Load VA",
+        "Old spaces",
+        "Old lines",
+        "New spaces",
+        "New lines",
+        "Moved",
+    ]
     _header(ws, 2, titles)
     after = {c.id: c for c in result.after_panel.circuits}
     row = 2
@@ -373,10 +443,14 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
         new = after.get(circuit.id, circuit)
         row += 1
         values: list[tuple[Any, str | None]] = [
-            (circuit.id, None), (circuit.description, None), (circuit.poles, "0"),
-            (circuit.load_va, VA), (_spaces_text(circuit.spaces), None),
+            (circuit.id, None),
+            (circuit.description, None),
+            (circuit.poles, "0"),
+            (circuit.load_va, VA),
+            (_spaces_text(circuit.spaces), None),
             (_lines_text(result.before_panel.lines_of(circuit)), None),
-            (_spaces_text(new.spaces), None), (_lines_text(result.after_panel.lines_of(new)), None),
+            (_spaces_text(new.spaces), None),
+            (_lines_text(result.after_panel.lines_of(new)), None),
             ("moved" if circuit.id in moved else "", None),
         ]
         for col, (value, fmt) in enumerate(values, start=1):
@@ -395,7 +469,7 @@ def _circuits(ws: Worksheet, panel: Panel) -> None:
     ws.title = CIRCUITS_SHEET
     columns = [
         column
-        for i, column in enumerate(CIRCUIT_COLUMNS)
+        for i, column in enumerate(_circuit_columns())
         if i < _ALWAYS or any(column[1](c) is not None for c in panel.circuits)
     ]
     extra_headers: list[str] = []
@@ -410,7 +484,7 @@ def _circuits(ws: Worksheet, panel: Panel) -> None:
         extra = dict(circuit.extra)
         for col, header in enumerate(extra_headers, start=len(columns) + 1):
             _put(ws, row, col, extra.get(header))
-    width = {"Description": 32, "Notes": 24, "Load VA": 10}
+    width = {"Description": 32, "Notes": 24}
     _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
     ws.freeze_panes = "C2"
     _print_setup(ws, landscape=True, title_rows="1:1")
@@ -432,12 +506,14 @@ def _tradeoff(ws: Worksheet, result: BalanceResult) -> None:
         _put(ws, row, 4, entry.neutral_a, AMPS)
         _put(ws, row, 5, entry.status.value)
     _widths(ws, [14, 12, 12, 11, 11])
-    chart = tradeoff_chart(ws, header_row=2, first_row=3, last_row=row, moves_col=1, imbalance_col=3)
+    chart = tradeoff_chart(
+        ws, header_row=2, first_row=3, last_row=row, moves_col=1, imbalance_col=3
+    )
     ws.add_chart(chart, "G2")
     _print_setup(ws, landscape=True, title_rows="2:2")
 
 
-def _phasors(ws: Worksheet, result: BalanceResult, harmonic: tuple[float | None, float | None] | None) -> None:
+def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | None] | None) -> None:
     from openpyxl.drawing.image import Image
 
     from balancer.io.charts import draw_phasor_diagram, phasor_arrows, phasor_figure_bytes
@@ -459,8 +535,12 @@ def _phasors(ws: Worksheet, result: BalanceResult, harmonic: tuple[float | None,
         _put(ws, row, 5, new.angle_deg, "0.0")
     ws.cell(row=row + 1, column=1, value="Angles from line A's line-to-neutral voltage.")
     _widths(ws, [14, 11, 14, 11, 14])
-    fig = draw_phasor_diagram(before, after, harmonic_neutral_rms_a=harmonic,
-                              title=f"{result.after_panel.name}: current phasors")
+    fig = draw_phasor_diagram(
+        before,
+        after,
+        harmonic_neutral_rms_a=harmonic,
+        title=f"{result.after_panel.name}: current phasors",
+    )
     image = Image(io.BytesIO(phasor_figure_bytes(fig, "png", dpi=90)))
     ws.add_image(image, f"A{row + 3}")
     _print_setup(ws, landscape=True, title_rows=None)
@@ -485,8 +565,8 @@ def _notes(ws: Worksheet) -> None:
     for row, text in enumerate(lines, start=3):
         cell = ws.cell(row=row, column=1, value=text)
         cell.alignment = _WRAP
-        ws.row_dimensions[row].height = 32
-    ws.column_dimensions["A"].width = 90
+        ws.row_dimensions[row].height = 15 * math.ceil(len(text) / 70) + 3
+    ws.column_dimensions["A"].width = 80
     _print_setup(ws, landscape=False, title_rows=None)
     ws.print_options.horizontalCentered = False
 
@@ -507,6 +587,19 @@ def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
     _print_setup(ws, landscape=True, title_rows="1:1")
 
 
+HARMONIC_MARGIN_A = 0.05  # below this the RMS and fundamental neutral currents count as equal
+
+
+def harmonic_neutral(*loads: Loads) -> tuple[float | None, ...] | None:
+    """Neutral RMS currents with harmonics, or None when harmonics change none of them."""
+    values = [getattr(x, "neutral_rms_a", None) for x in loads]
+    differs = any(
+        v is not None and abs(v - x.neutral_a) > HARMONIC_MARGIN_A
+        for v, x in zip(values, loads, strict=True)
+    )
+    return tuple(values) if differs else None
+
+
 def write_workbook(
     result: BalanceResult,
     path: Path | str,
@@ -514,7 +607,7 @@ def write_workbook(
     input_path: Path | str | None = None,
     extra_sheets: Sequence[ExtraSheet] = (),
     phasor_diagram: bool = True,
-    harmonic_neutral_rms_a: tuple[float | None, float | None] | None = None,
+    harmonic_neutral_rms_a: Sequence[float | None] | None = None,
 ) -> Path:
     """Write the revised schedule workbook for ``result`` to ``path`` and return the path.
 
@@ -532,7 +625,8 @@ def write_workbook(
     phasor_diagram
         Add the "Phasors" sheet with the diagram image (needs matplotlib and Pillow).
     harmonic_neutral_rms_a
-        Neutral RMS current with harmonics before and after, when known; drawn as bars.
+        Neutral RMS current with harmonics before and after; taken from the figures when not
+        given, and drawn as bars only when harmonics change the neutral.
 
     Raises
     ------
@@ -548,16 +642,25 @@ def write_workbook(
     assert summary is not None
     table = _summary(summary, result)
     chart = phase_load_chart(
-        summary, header_row=table.header_row, first_row=table.first_row, last_row=table.last_row,
-        line_col=1, before_col=2, after_col=3, average_col=4,
+        summary,
+        header_row=table.header_row,
+        first_row=table.first_row,
+        last_row=table.last_row,
+        line_col=1,
+        before_col=2,
+        after_col=3,
+        average_col=4,
     )
     summary.add_chart(chart, f"A{summary.max_row + 2}")
     _layout(wb.create_sheet(), result)
     _changes(wb.create_sheet(), result)
     _circuits(wb.create_sheet(), result.after_panel)
+    _panel_sheet(wb.create_sheet(), result.after_panel)
     if result.tradeoff:
         _tradeoff(wb.create_sheet(), result)
     if phasor_diagram:
+        if harmonic_neutral_rms_a is None:
+            harmonic_neutral_rms_a = harmonic_neutral(result.before, result.after)
         _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
     taken = set(wb.sheetnames)
     for title, rows in extra_sheets:

@@ -1,0 +1,121 @@
+"""Text bars of the per-line loads for the terminal summaries of ``check`` and ``balance``.
+
+Every bar carries its meaning in plain characters and numbers (the bar length, the ``|`` mark
+at the average, the VA, amperes and deviation figures, the ``heaviest`` tag); colour is only an
+extra for a terminal that asks for it, so a pipe, a log file or a greyscale screen loses nothing.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from collections.abc import Mapping
+from typing import TextIO
+
+from balancer.analysis import Loads
+from balancer.systems import Line
+
+_FILL = "#"
+_EMPTY = "."
+_AVERAGE = "|"
+_BOLD = "\033[1m"
+_YELLOW = "\033[33m"
+_RESET = "\033[0m"
+
+
+def use_color(stream: TextIO, no_color: bool = False) -> bool:
+    """Whether to colour output on ``stream``.
+
+    Colour only on a terminal, never with ``--no-color`` or the ``NO_COLOR`` environment
+    variable (the convention published at no-color.org).
+    """
+    if no_color or os.environ.get("NO_COLOR"):
+        return False
+    isatty = getattr(stream, "isatty", None)
+    return bool(isatty and isatty())
+
+
+def _bar(value: float, scale_max: float, average: float, width: int) -> str:
+    filled = 0 if scale_max <= 0 else round(value / scale_max * width)
+    mark = None if scale_max <= 0 else min(width - 1, round(average / scale_max * width))
+    cells = [_FILL if i < filled else _EMPTY for i in range(width)]
+    if mark is not None and average > 0:
+        cells[mark] = _AVERAGE
+    return "".join(cells)
+
+
+def phase_bars(
+    loads: Loads,
+    *,
+    title: str = "",
+    width: int = 40,
+    color: bool = False,
+    scale_max_va: float | None = None,
+    show_neutral: bool = True,
+) -> list[str]:
+    """Lines of text, one bar per line (phase), scaled to the heaviest line.
+
+    Parameters
+    ----------
+    loads
+        The figures to draw.
+    title
+        A heading line, left out when empty.
+    width
+        Characters in a full-length bar.
+    color
+        Add ANSI colour (the heaviest line in bold yellow). The text is the same without it.
+    scale_max_va
+        VA of a full bar; give the same value to draw "before" and "after" on one scale.
+    show_neutral
+        Add the neutral current line (leave out for a system without a neutral).
+
+    Returns
+    -------
+    list of str
+        ``A  ######|####....  12,340 VA  102.8 A  +3.1 %`` and so on, then a legend line.
+    """
+    phase_va: Mapping[Line, float] = loads.phase_va
+    values = list(phase_va.values())
+    average = math.fsum(values) / len(values) if values else 0.0
+    top = scale_max_va if scale_max_va is not None else max(values, default=0.0)
+    heaviest = max(phase_va, key=lambda line: phase_va[line]) if values else None
+    out = [title] if title else []
+    spread_tied = max(values, default=0.0) - min(values, default=0.0) < 0.5
+    for line, va in phase_va.items():
+        deviation = 0.0 if average == 0 else (va - average) / average * 100.0
+        amps = loads.line_a.get(line, 0.0)
+        text = (
+            f"{line}  {_bar(va, top, average, width)}  {va:>9,.0f} VA  {amps:>7.1f} A"
+            f"  {deviation:+6.1f} %"
+        )
+        if line == heaviest and not spread_tied:
+            text += "  heaviest"
+            if color:
+                text = f"{_BOLD}{_YELLOW}{text}{_RESET}"
+        out.append(text)
+    if show_neutral:
+        out.append(f"N  neutral {loads.neutral_a:.1f} A")
+    out.append(
+        f"   '{_AVERAGE}' = average {average:,.0f} VA; spread {loads.spread_va:,.0f} VA;"
+        f" imbalance {loads.imbalance_pct:.1f} %"
+    )
+    return out
+
+
+def before_after_bars(
+    before: Loads,
+    after: Loads,
+    *,
+    width: int = 40,
+    color: bool = False,
+    show_neutral: bool = True,
+) -> list[str]:
+    """Bars before and after a balancing run, drawn on one scale so lengths compare."""
+    top = max([*before.phase_va.values(), *after.phase_va.values(), 0.0])
+    common = {"width": width, "color": color, "scale_max_va": top, "show_neutral": show_neutral}
+    return [
+        *phase_bars(before, title="Before", **common),  # type: ignore[arg-type]
+        "",
+        *phase_bars(after, title="After", **common),  # type: ignore[arg-type]
+    ]
