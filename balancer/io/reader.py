@@ -351,14 +351,16 @@ def _circuit(
             return None
         if value is None:
             return None
-        if unit == "kva" and key.startswith(("load", "phase")):
-            value *= 1000.0
-        elif unit not in ("", "va", "a", "v", "w", "kva", "%"):
+        is_load = key.startswith(("load", "phase"))
+        if unit not in ("", "va", "a", "v", "kva", "%") or (unit in ("va", "kva") and not is_load):
             problems.append(
                 Problem(where(key), f"{what} '{_text(cells[key])}': unit '{unit}' not understood")
             )
             return None
-        value *= scales.get(key, 1.0)
+        if unit == "kva":
+            value *= 1000.0  # the cell says kVA, whatever the column's unit
+        elif unit != "va":
+            value *= scales.get(key, 1.0)
         if value < 0 and not allow_negative:
             problems.append(Problem(where(key), f"{what} {value:g} is negative"))
             return None
@@ -465,7 +467,11 @@ def _circuit(
 
 
 def _placement_problems(
-    circuits: list[Circuit], where: dict[str, str], system: System, spaces: int
+    circuits: list[Circuit],
+    where: dict[str, str],
+    system: System,
+    spaces: int,
+    spaces_where: str = "",
 ) -> list[Problem]:
     problems = []
     geometry = Geometry(system.lines, spaces)
@@ -527,7 +533,10 @@ def _placement_problems(
     poles = sum(c.poles for c in circuits)
     if poles > spaces:
         problems.append(
-            Problem("", f"the circuits need {poles} poles but the panel has only {spaces} spaces")
+            Problem(
+                spaces_where,
+                f"the circuits need {poles} poles but the panel has only {spaces} spaces",
+            )
         )
     return problems
 
@@ -632,7 +641,14 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
             )
         )
     if system is not None and spaces is not None:
-        problems += _placement_problems(circuits, where_of, system, spaces)
+        spaces_where = (
+            "--spaces"
+            if overrides.spaces is not None
+            else pairs["spaces"][1]
+            if "spaces" in pairs
+            else grid.sheet
+        )
+        problems += _placement_problems(circuits, where_of, system, spaces, spaces_where)
         notices += _group_notices(circuits, Geometry(system.lines, spaces))
     if not circuits and not problems:
         problems.append(Problem(grid.sheet, "no branch circuits found below the header row"))

@@ -1,0 +1,85 @@
+"""Figures checked against the outside world; the source of each check stands beside it."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from balancer.analysis import analyze
+from balancer.panel import Circuit, Panel
+from balancer.phasors import neutral_magnitude_unity_pf, nema_unbalance_pct
+from balancer.systems import get_system
+
+ATOL_A = 1e-9
+
+
+def _panel(loads_va: list[float], system: str = "208Y/120") -> Panel:
+    # spaces 1, 3, 5 are on lines A, B, C (common practice numbering)
+    circuits = tuple(
+        Circuit(str(s), f"load {s}", 1, va, (s,))
+        for s, va in zip((1, 3, 5), loads_va, strict=False)
+    )
+    return Panel("T", get_system(system), 12, circuits)
+
+
+@pytest.mark.parametrize("system", ["208Y/120", "480Y/277", "400Y/230"])
+def test_balanced_wye_load_has_no_neutral_current(system: str) -> None:
+    # Fact of the trade (any circuits textbook): three equal line-to-neutral loads 120° apart
+    # sum to zero in the neutral.
+    loads = analyze(_panel([1800.0, 1800.0, 1800.0], system))
+    assert loads.neutral_a == pytest.approx(0.0, abs=1e-9 * sum(loads.line_a.values()))
+    assert loads.imbalance_pct == pytest.approx(0.0)
+
+
+def test_neutral_current_matches_the_unity_pf_formula() -> None:
+    # |I_N| = √(Ia² + Ib² + Ic² − IaIb − IbIc − IcIa), the closed form of the phasor sum of
+    # unity-PF currents 120° apart (common practice). 1200, 960, 720 VA at 120 V: 10, 8, 6 A
+    # give √12 = 3.4641 A.
+    loads = analyze(_panel([1200.0, 960.0, 720.0]))
+    assert loads.neutral_a == pytest.approx(math.sqrt(12.0), abs=ATOL_A)
+    assert neutral_magnitude_unity_pf(10, 8, 6) == pytest.approx(math.sqrt(12.0))
+    assert loads.line_a == pytest.approx({"A": 10.0, "B": 8.0, "C": 6.0})
+
+
+def test_single_phase_neutral_is_the_difference_of_the_lines() -> None:
+    # 120/240 V single-phase 3-wire: the two 120 V halves are 180° apart, so the neutral
+    # carries the difference of the line currents (common practice).
+    system = get_system("120/240")
+    circuits = (Circuit("1", "a", 1, 1800.0, (1,)), Circuit("3", "b", 1, 600.0, (3,)))
+    loads = analyze(Panel("T", system, 12, circuits))
+    assert loads.line_a == pytest.approx({"A": 15.0, "B": 5.0})
+    assert loads.neutral_a == pytest.approx(10.0)
+
+
+@pytest.mark.parametrize(
+    ("values", "expected_pct", "abs_tol"),
+    [
+        # NEMA MG 1 definition; example 462/463/455 V → 1.1 % (exact 1.087 %), from an
+        # eng-tips forum thread quoting the MG 1 method (REFERENCE.md).
+        ((462.0, 463.0, 455.0), 1.087, 0.001),
+        # Trade-article example: 480/476/472 V → 0.84 %; (max − min)/average would wrongly
+        # give 1.68 % (REFERENCE.md).
+        ((480.0, 476.0, 472.0), 0.84, 0.001),
+    ],
+)
+def test_nema_unbalance_published_examples(
+    values: tuple[float, ...], expected_pct: float, abs_tol: float
+) -> None:
+    assert nema_unbalance_pct(values) == pytest.approx(expected_pct, abs=abs_tol)
+
+
+def test_schedule_convention_splits_multipole_loads() -> None:
+    # Common practice for panel schedules: a 2-pole line-to-line load counts half on each of
+    # its lines, a 3-pole load a third on each.
+    system = get_system("208Y/120")
+    circuits = (
+        Circuit("1", "heater", 2, 3000.0, (1, 3)),
+        Circuit("2", "fan", 3, 9000.0, (2, 4, 6)),
+    )
+    loads = analyze(Panel("T", system, 12, circuits))
+    assert loads.phase_va == pytest.approx({"A": 4500.0, "B": 4500.0, "C": 3000.0})
+    # the 2-pole 208 V load draws 3000/208 = 14.42 A in each of its lines
+    heater_only = analyze(Panel("T", system, 12, circuits[:1]))
+    assert heater_only.line_a["A"] == pytest.approx(3000 / 208)
+    assert heater_only.neutral_a == pytest.approx(0.0, abs=ATOL_A)

@@ -1,0 +1,69 @@
+"""The bundled samples run end to end through the command line."""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from balancer.cli import main
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
+SAMPLE_FILES = sorted(p.name for p in SAMPLES.glob("*.xlsx")) + sorted(
+    p.name for p in SAMPLES.glob("*.csv")
+)
+
+
+@pytest.mark.parametrize("name", SAMPLE_FILES)
+def test_check_json_on_each_sample(name: str, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["check", "--json", str(SAMPLES / name)]) == 0
+    data = json.loads(capsys.readouterr().out)
+    loads = data["loads"]
+    phase_va = loads["phase_va"]
+    assert math.isclose(sum(phase_va.values()), loads["total_va"], abs_tol=0.01)
+    assert math.isclose(
+        max(phase_va.values()) - min(phase_va.values()), loads["spread_va"], abs_tol=0.01
+    )
+    assert loads["imbalance_pct"] > 1.0  # the samples are built with a visible imbalance
+    assert sum(c["load_va"] for c in data["circuits"]) == pytest.approx(loads["total_va"], abs=0.01)
+    for circuit in data["circuits"]:
+        assert len(circuit["spaces"]) == circuit["poles"] == len(circuit["phases"])
+
+
+def test_office_sample_phase_loads_by_independent_reading(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    # Re-derive the per-line loads with pandas and the common-practice numbering (row r of the
+    # panel on line "ABC"[r % 3], a k-pole breaker at n taking n, n+2, ...), independently of the
+    # tool's reader and geometry code.
+    path = SAMPLES / "office-208y120.xlsx"
+    frame = pd.read_excel(path, sheet_name="Circuits", header=3)
+    frame = frame[pd.to_numeric(frame["Ckt"], errors="coerce").notna()]
+    expected = {"A": 0.0, "B": 0.0, "C": 0.0}
+    for _, row in frame.iterrows():
+        poles = int(row["Poles"]) if not pd.isna(row["Poles"]) else 1
+        load = 0.0 if pd.isna(row["Load (VA)"]) else float(row["Load (VA)"])
+        for k in range(poles):
+            space = int(row["Ckt"]) + 2 * k
+            expected["ABC"[((space - 1) // 2) % 3]] += load / poles
+    assert main(["check", "--json", str(path)]) == 0
+    got = json.loads(capsys.readouterr().out)["loads"]["phase_va"]
+    assert got == pytest.approx(expected, abs=0.01)
+
+
+def test_check_text_names_the_figures(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["check", str(SAMPLES / "office-208y120.xlsx")]) == 0
+    out = capsys.readouterr().out
+    for words in (
+        "Panel L3A",
+        "208Y/120 V",
+        "imbalance",
+        "neutral",
+        "NEMA MG 1",
+        "qualified",
+        "de-energised",
+    ):
+        assert words in out
