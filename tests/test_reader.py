@@ -146,3 +146,12 @@ def test_shared_neutral_on_one_line_is_flagged(tmp_path: Path) -> None:
     path.write_text("Ckt,Description,VA,MWBC\n1,Desk 1,900,W\n7,Desk 2,900,W\n", encoding="utf-8")
     panel = read_schedule(path)
     assert any("multiwire group 'W'" in n for n in panel.notices)
+
+
+def test_format_doc_lists_every_column() -> None:
+    # docs/format.md carries the generated column table; keep it in step with the schema.
+    from balancer.io.columns import format_table_markdown
+
+    doc = (Path(__file__).resolve().parents[1] / "docs" / "format.md").read_text(encoding="utf-8")
+    table = doc.split("<!-- columns:start -->")[1].split("<!-- columns:end -->")[0].strip()
+    assert table == format_table_markdown().strip()
