@@ -230,7 +230,7 @@ def balance_text(result: Any, written: Path) -> str:
     before, after = result.before, result.after
     lines = [report.panel_heading(result.before_panel), ""]
     lines += report.loads_table(before, title="Before")
-    lines += [""] + report.loads_table(after, title="After")
+    lines += ["", *report.loads_table(after, title="After")]
     status = result.status.value
     lines += [
         "",

@@ -137,7 +137,7 @@ STANDARD_SPACE_COUNTS = (18, 24, 30, 42, 54, 60, 84)  # common practice for pane
 
 
 def smallest_space_count(poles_needed: int, highest_space: int = 0) -> int:
-    """The smallest common panelboard size that holds ``poles_needed`` poles and ``highest_space``."""
+    """The smallest common panelboard size holding ``poles_needed`` poles and ``highest_space``."""
     need = max(poles_needed, highest_space)
     for count in STANDARD_SPACE_COUNTS:
         if count >= need:

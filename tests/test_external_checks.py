@@ -8,7 +8,7 @@ import pytest
 
 from balancer.analysis import analyze
 from balancer.panel import Circuit, Panel
-from balancer.phasors import neutral_magnitude_unity_pf, nema_unbalance_pct
+from balancer.phasors import nema_unbalance_pct, neutral_magnitude_unity_pf
 from balancer.systems import get_system
 
 ATOL_A = 1e-9

@@ -71,10 +71,11 @@ def test_titles_panel_sheet_units_and_subtotals() -> None:
         30,
         225,
     )
-    assert panel.main_a is None and panel.main_lugs_only
+    assert panel.main_a is None
+    assert panel.main_lugs_only
     by_id = {c.id: c for c in panel.circuits}
     assert by_id["1"].load_va == 2400  # 2.4 in a kVA column
-    assert by_id["1"].poles == 1 and by_id["1"].trip_a == 20  # "1P", "20A"
+    assert (by_id["1"].poles, by_id["1"].trip_a) == (1, 20)  # "1P", "20A"
     assert by_id["3"].spaces == (3, 5, 7)
     assert by_id["2"].load_va == 1100  # "1,100 VA" in a kVA column: the cell's own unit wins
     assert by_id["4"].load_va == 500
@@ -119,7 +120,8 @@ def test_spares_spaces_and_unknown_columns_kept(tmp_path: Path) -> None:
     panel = read_schedule(path)
     assert [c.id for c in panel.circuits] == ["1", "3", "2"]
     spare = panel.circuit("3")
-    assert spare.is_spare and spare.load_va == 0
+    assert spare.is_spare
+    assert spare.load_va == 0
     assert panel.circuit("1").extra == (("Wire", "12 AWG"), ("Room", "101"))
     assert panel.circuit("2").spaces == (2, 4)
 

@@ -138,7 +138,7 @@ def _text(value: Any) -> str:
 
 
 def _number(value: Any) -> tuple[float | None, str]:
-    """(number, unit suffix) from a cell; (None, '') when blank; raises ValueError if not a number."""
+    """(number, unit suffix) of a cell; (None, '') when blank; ValueError when not a number."""
     if value is None or (isinstance(value, str) and not value.strip()):
         return None, ""
     if isinstance(value, bool):
@@ -200,7 +200,8 @@ def _header_problems(
                 Problem(
                     grid.where(header_row, c),
                     f"two columns give the {spec.header.lower()}: '{headers[first]}' in column "
-                    f"{get_column_letter(first + 1)} and '{headers[c]}' in column {get_column_letter(c + 1)}",
+                    f"{get_column_letter(first + 1)} and '{headers[c]}' in column "
+                    f"{get_column_letter(c + 1)}",
                 )
             )
         seen[spec.key] = c
@@ -437,7 +438,8 @@ def _circuit(
     if is_spare:
         if load:
             notices.append(
-                f"{where('load_va')}: spare '{description}' has a load of {load:g} VA; counted as given"
+                f"{where('load_va')}: spare '{description}' has a load of {load:g} VA; "
+                "counted as given"
             )
         load_class = SPARE
     circuit_id = str(spaces[0]) if spaces else f"R{item.row + 1}"
@@ -474,6 +476,9 @@ def _placement_problems(
     spaces_where: str = "",
 ) -> list[Problem]:
     problems = []
+    high_leg_v = (
+        system.line_to_neutral_v[system.lines.index(system.high_leg)] if system.high_leg else 0.0
+    )
     geometry = Geometry(system.lines, spaces)
     taken: dict[int, Circuit] = {}
     for circuit in circuits:
@@ -502,7 +507,8 @@ def _placement_problems(
                 Problem(
                     at,
                     f"a {circuit.poles}-pole breaker at space {circuit.spaces[0]} "
-                    f"would take spaces {', '.join(map(str, circuit.spaces))}, past the last space {spaces}",
+                    f"would take spaces {', '.join(map(str, circuit.spaces))}, "
+                    f"past the last space {spaces}",
                 )
             )
             continue
@@ -525,9 +531,10 @@ def _placement_problems(
                 Problem(
                     at,
                     f"space {circuit.spaces[0]} is on the high leg "
-                    f"{system.high_leg} ({system.line_to_neutral_v[system.lines.index(system.high_leg)]:.0f} V "
+                    f"{system.high_leg} ({high_leg_v:.0f} V "
                     f"to neutral; NEC 110.15 marking, 408.3(E) position); a 1-pole "
-                    f"{system.line_to_neutral_v[0]:.0f} V circuit ('{circuit.description}') cannot go there",
+                    f"{system.line_to_neutral_v[0]:.0f} V circuit ('{circuit.description}') "
+                    "cannot go there",
                 )
             )
     poles = sum(c.poles for c in circuits)
@@ -654,7 +661,8 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
         problems.append(Problem(grid.sheet, "no branch circuits found below the header row"))
     if problems:
         raise ScheduleError(problems, str(path))
-    assert system is not None and spaces is not None
+    assert system is not None
+    assert spaces is not None
     return Panel(
         name=name,
         system=system,
