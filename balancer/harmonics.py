@@ -113,8 +113,10 @@ def builtin_profiles() -> dict[str, Profile]:
 
 
 def all_profiles(path: Path | None = None) -> dict[str, Profile]:
-    """Bundled profiles plus a user's; a user's profile replaces a bundled one of its name."""
-    return {**builtin_profiles(), **(load_profiles(path) if path is not None else {})}
+    """Bundled profiles plus a user's; a user's profile replaces a bundled one of its name and
+    comes first, so its aliases win over bundled ones."""
+    mine = load_profiles(path) if path is not None else {}
+    return {**mine, **{k: v for k, v in builtin_profiles().items() if k not in mine}}
 
 
 def find_profile(text: str, profiles: Mapping[str, Profile] | None = None) -> Profile | None:
