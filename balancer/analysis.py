@@ -116,11 +116,17 @@ def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Load
         )
         try:
             spectrum = spectrum_for(circuit, profiles)
-            args = (panel.system, circuit_lines, circuit.load_va, circuit.power_factor)
-            extra = {"voltage_v": circuit.voltage_v, "neutral_va": circuit.neutral_va}
-            parts = circuit_harmonic_currents(*args, spectrum=spectrum, **extra)
-            sinusoidal = circuit_harmonic_currents(*args, spectrum=None, **extra)
-            circuit_kva = circuit_power(*args, spectrum=spectrum, **extra)
+            system, load_va, pf = panel.system, circuit.load_va, circuit.power_factor
+            volts, neutral_va = circuit.voltage_v, circuit.neutral_va
+            parts = circuit_harmonic_currents(
+                system, circuit_lines, load_va, pf, spectrum, volts, neutral_va
+            )
+            sinusoidal = circuit_harmonic_currents(
+                system, circuit_lines, load_va, pf, None, volts, neutral_va
+            )
+            circuit_kva = circuit_power(
+                system, circuit_lines, load_va, pf, spectrum, volts, neutral_va
+            )
         except ValueError as exc:
             problems.append(Problem(where, str(exc)))
             continue
