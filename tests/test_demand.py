@@ -1,0 +1,634 @@
+"""Demand rules at and around their thresholds, rule files, the feeder check and branch flags.
+
+Panels here are invented demo data. NEC values cite the clause and how they were obtained:
+"F" read in a published copy (listed in the project's reference notes), "from memory" recalled.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from balancer.demand import (
+    OCCUPANCIES,
+    ClassRule,
+    DemandOptions,
+    DemandResult,
+    Tier,
+    apply_tiers,
+    builtin_rule_set,
+    classify,
+    compute_demand,
+    default_rule_set_name,
+    demand_sheet_rows,
+    demand_to_dict,
+    load_rule_set,
+    loads_section_lines,
+    resolve_rule_set,
+    units_demand,
+)
+from balancer.errors import ScheduleError
+from balancer.panel import Circuit, Panel
+from balancer.systems import get_system
+
+ATOL_VA = 1e-6
+ATOL_A = 1e-6
+# Top-level keys of a complete rule file, for the malformed-file cases.
+HEAD = (
+    'name = "x"\ntitle = "x"\nedition = "x"\ncontinuous_factor = 1.25\n'
+    'continuous_clause = "x"\nfeeder_sizing = true\n'
+)
+RULES_DIR = Path(__file__).resolve().parents[1] / "balancer" / "rules"
+
+
+def make_panel(
+    loads: list[tuple[str, float, int]] | list[dict[str, Any]],
+    system: str = "208Y/120",
+    bus_a: float | None = None,
+    main_a: float | None = None,
+) -> Panel:
+    """Demo panel: circuits placed one after another from space 1 (left column first)."""
+    circuits = []
+    space = 1
+    for i, item in enumerate(loads):
+        spec = (
+            dict(item)
+            if isinstance(item, dict)
+            else dict(zip(("load_class", "load_va", "poles"), item, strict=True))
+        )
+        poles = int(spec.pop("poles", 1))
+        spaces = tuple(space + 2 * k for k in range(poles))
+        space += 2 * poles
+        circuits.append(
+            Circuit(
+                id=str(spec.pop("id", i + 1)),
+                description=f"demo {i + 1}",
+                poles=poles,
+                spaces=spec.pop("spaces", spaces),
+                **spec,
+            )
+        )
+    return Panel(
+        "DEMO (invented)", get_system(system), 84, tuple(circuits), bus_a=bus_a, main_a=main_a
+    )
+
+
+def demand_of(result: DemandResult, name: str) -> float:
+    return next(c.demand_va for c in result.by_class if c.name == name)
+
+
+def run(loads: list[Any], **options: Any) -> DemandResult:
+    system = options.pop("system", "208Y/120")
+    return compute_demand(make_panel(loads, system), DemandOptions(**options))
+
+
+# --- classes and spellings -------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("text", "name"),
+    [
+        ("ltg", "general_lighting"),
+        ("lighting", "general_lighting"),
+        ("rcpt", "general_receptacles"),
+        ("receptacle", "general_receptacles"),
+        ("mtr", "motors"),
+        ("motor", "motors"),
+        ("htg", "space_heating"),
+        ("ac", "air_conditioning"),
+        ("a/c", "air_conditioning"),
+        ("kitchen", "kitchen"),
+        ("wh", "water_heating"),
+        ("ev", "ev"),
+        ("spare", "spare"),
+        ("lighting - exterior", "general_lighting"),
+        ("widget", None),
+    ],
+)
+def test_classify(text: str, name: str | None) -> None:
+    assert classify(text) == name
+
+
+def test_unknown_type_warns_and_counts_in_full() -> None:
+    result = run([("widget", 1500.0, 1), ("", 500.0, 1)])
+    assert result.total_demand_va == pytest.approx(2000.0, abs=ATOL_VA)
+    assert any("'widget' is not a known load class" in w for w in result.warnings)
+    assert any("give no type" in w for w in result.warnings)
+
+
+# --- general lighting, Table 220.45 (2023) / Table 220.42 (2020) (F) -------------------------
+
+
+@pytest.mark.parametrize(
+    ("occupancy", "load_va", "demand_va"),
+    [
+        ("dwelling", 3000.0, 3000.0),
+        ("dwelling", 3001.0, 3000.35),
+        ("dwelling", 120000.0, 3000.0 + 117000.0 * 0.35),
+        ("dwelling", 120001.0, 3000.0 + 117000.0 * 0.35 + 0.25),
+        ("hotel", 20000.0, 10000.0),
+        ("hotel", 20001.0, 10000.4),
+        ("hotel", 100000.0, 10000.0 + 80000.0 * 0.4),
+        ("hotel", 100001.0, 42000.3),
+        ("warehouse", 12500.0, 12500.0),
+        ("warehouse", 12501.0, 12500.5),
+        ("other", 250000.0, 250000.0),
+    ],
+)
+def test_general_lighting_tiers(occupancy: str, load_va: float, demand_va: float) -> None:
+    result = run([("ltg", load_va, 1)], occupancy=occupancy)
+    assert demand_of(result, "general_lighting") == pytest.approx(demand_va, abs=ATOL_VA)
+
+
+# --- receptacles, 220.47 (2023) / 220.44 (2020): first 10 kVA at 100%, rest at 50% (F) -------
+
+
+@pytest.mark.parametrize(
+    ("load_va", "demand_va"),
+    [(9999.0, 9999.0), (10000.0, 10000.0), (10001.0, 10000.5), (30000.0, 20000.0)],
+)
+def test_receptacles_non_dwelling(load_va: float, demand_va: float) -> None:
+    # Split over several circuits: the tiers apply to the class total, not per circuit.
+    result = run([("rcpt", load_va / 4, 1)] * 4)
+    assert demand_of(result, "general_receptacles") == pytest.approx(demand_va, abs=ATOL_VA)
+
+
+def test_receptacle_count_gives_180_va_per_yoke() -> None:
+    # 220.14(I) (F): 180 VA per yoke. 56 yokes = 10,080 VA -> 10,000 + 40 = 10,040 VA demand.
+    result = run(
+        [
+            {"load_class": "rcpt", "load_va": 0.0, "yokes": 30.0},
+            {"load_class": "rcpt", "load_va": 999.0, "yokes": 26.0},
+        ]
+    )
+    row = next(c for c in result.by_class if c.name == "general_receptacles")
+    assert row.connected_va == pytest.approx(10080.0, abs=ATOL_VA)
+    assert row.demand_va == pytest.approx(10040.0, abs=ATOL_VA)
+    assert any("26 receptacles × 180 VA" in w for w in result.warnings)
+
+
+def test_annex_d_example_d3_receptacles() -> None:
+    # NEC Annex D, Example D3 (store building), receptacle part (from memory):
+    # 80 receptacles × 180 VA = 14,400 VA; 10,000 VA at 100% + 4,400 VA at 50% = 12,200 VA.
+    result = run([{"load_class": "rcpt", "load_va": 0.0, "yokes": 8.0}] * 10)
+    assert demand_of(result, "general_receptacles") == pytest.approx(12200.0, abs=ATOL_VA)
+
+
+def test_annex_d_example_d1a_dwelling_general_loads() -> None:
+    # NEC Annex D, Example D1(a), one-family dwelling of 1,500 ft² (from memory):
+    # general lighting 1,500 × 3 VA = 4,500 VA, two small-appliance circuits 3,000 VA and a
+    # laundry circuit 1,500 VA: 9,000 VA; first 3,000 VA at 100%, 6,000 VA at 35% = 2,100 VA;
+    # net 5,100 VA. Small-appliance and laundry loads join general lighting (220.52).
+    loads = [("ltg", 1500.0, 1)] * 3 + [("rcpt", 1500.0, 1)] * 2 + [("rcpt", 1500.0, 1)]
+    result = run(loads, occupancy="dwelling", system="120/240")
+    total = demand_of(result, "general_lighting") + demand_of(result, "general_receptacles")
+    assert total == pytest.approx(5100.0, abs=ATOL_VA)
+    rcpt = next(c for c in result.by_class if c.name == "general_receptacles")
+    assert "220.52" in rcpt.rule
+    assert "counted with general lighting" in rcpt.rule
+
+
+# --- Table 220.56 kitchen equipment (factors from memory; two-largest floor F) ---------------
+
+
+@pytest.mark.parametrize(
+    ("units", "factor"),
+    [(1, 1.0), (2, 1.0), (3, 0.9), (4, 0.8), (5, 0.7), (6, 0.65), (7, 0.65)],
+)
+def test_kitchen_units(units: int, factor: float) -> None:
+    result = run([("kitchen", 2000.0, 1)] * units)
+    # Equal units: the two-largest floor never binds here (it does below).
+    assert demand_of(result, "kitchen") == pytest.approx(factor * 2000.0 * units, abs=ATOL_VA)
+
+
+def test_kitchen_never_below_two_largest() -> None:
+    # Six units, 22,000 VA: 65% gives 14,300 VA, below the two largest (20,000 VA) (220.56, F).
+    loads = [("kitchen", 10000.0, 3), ("kitchen", 10000.0, 3)] + [("kitchen", 500.0, 1)] * 4
+    result = run(loads)
+    assert demand_of(result, "kitchen") == pytest.approx(20000.0, abs=ATOL_VA)
+
+
+def test_units_demand_direct() -> None:
+    rule = builtin_rule_set("nec2023").classes["kitchen"]
+    assert units_demand([], rule) == 0.0
+    assert units_demand([3000.0, 3000.0, 3000.0], rule) == pytest.approx(8100.0, abs=ATOL_VA)
+
+
+# --- motors, heating vs cooling, EV, water heating -------------------------------------------
+
+
+def test_largest_motor_at_125_percent() -> None:
+    # 430.24 (F): 125% of the largest motor plus the others.
+    result = run([("mtr", 5000.0, 3), ("mtr", 3000.0, 3)])
+    assert demand_of(result, "motors") == pytest.approx(5000.0 * 1.25 + 3000.0, abs=ATOL_VA)
+    adders = [c.motor_adder_va for c in result.circuits]
+    assert adders == [pytest.approx(1250.0), 0.0]
+
+
+def test_heating_and_cooling_noncoincident() -> None:
+    # 220.60 (F): only the larger of noncoincident loads is counted.
+    result = run([("htg", 15000.0, 3), ("ac", 10000.0, 3)])
+    assert demand_of(result, "space_heating") == pytest.approx(15000.0, abs=ATOL_VA)
+    assert demand_of(result, "air_conditioning") == 0.0
+    row = next(c for c in result.by_class if c.name == "air_conditioning")
+    assert "220.60" in row.rule
+
+
+def test_cooling_larger_keeps_its_motor_adder() -> None:
+    # With cooling the larger, the compressor is the largest motor (440.33, from memory).
+    result = run([("htg", 8000.0, 3), ("ac", 10000.0, 3), ("mtr", 2000.0, 3)])
+    assert demand_of(result, "space_heating") == 0.0
+    assert demand_of(result, "air_conditioning") == pytest.approx(12500.0, abs=ATOL_VA)
+    assert demand_of(result, "motors") == pytest.approx(2000.0, abs=ATOL_VA)
+
+
+def test_ev_floor_and_continuous_default() -> None:
+    # 220.57 (from memory): EVSE at 7,200 VA or its nameplate, whichever is larger.
+    result = run([("ev", 6000.0, 2), ("ev", 9600.0, 2)])
+    assert demand_of(result, "ev") == pytest.approx(7200.0 + 9600.0, abs=ATOL_VA)
+    assert all(c.continuous for c in result.circuits)
+
+
+def test_spares_count_nothing() -> None:
+    result = run([("spare", 0.0, 1), ("ltg", 1000.0, 1)])
+    assert result.total_demand_va == pytest.approx(1000.0, abs=ATOL_VA)
+
+
+# --- continuous loads ------------------------------------------------------------------------
+
+
+def test_continuous_defaults_by_occupancy_and_override() -> None:
+    other = run([("ltg", 1000.0, 1)])
+    assert other.circuits[0].continuous  # non-dwelling lighting: continuous (common practice)
+    dwelling = run([("ltg", 1000.0, 1)], occupancy="dwelling")
+    assert not dwelling.circuits[0].continuous
+    flagged = run([{"load_class": "rcpt", "load_va": 1000.0, "continuous": True}])
+    assert flagged.circuits[0].continuous
+
+
+def test_feeder_required_current_adds_125_percent_and_motor() -> None:
+    # 215.2(A)(1), 215.3 (F): noncontinuous + 125% continuous; 430.24: +25% largest motor.
+    # Demo: 1-pole 12,000 VA continuous lighting on A; 3-pole 10,000 VA motor.
+    result = run([("ltg", 12000.0, 1), ("mtr", 10000.0, 3)])
+    per_line_motor_a = 10000.0 / (math.sqrt(3) * 208.0)
+    expected_design = 12000.0 / 120.0 + per_line_motor_a * 1.25
+    expected_required = 12000.0 * 1.25 / 120.0 + per_line_motor_a * 1.25
+    feeder = result.feeder
+    assert feeder.design_line == "A"
+    assert feeder.design_a == pytest.approx(expected_design, abs=ATOL_A)
+    assert feeder.required_a == pytest.approx(expected_required, abs=ATOL_A)
+    assert feeder.min_ocpd_a == 175  # 159.7 A -> 175 A (240.6(A), F)
+    assert feeder.conductor_cu == "2/0"  # 175 A at 75 °C (Table 310.16, F)
+    assert feeder.conductor_al == "4/0"  # 180 A at 75 °C (Table 310.16, F)
+
+
+def test_two_pole_share_uses_line_to_line_current() -> None:
+    # A 2-pole 4,160 VA load at 208 V draws 20 A on each of its lines (C: I = VA / V_LL).
+    result = run([{"load_class": "wh", "load_va": 4160.0, "poles": 2, "continuous": False}])
+    assert result.feeder.design_a == pytest.approx(20.0, abs=ATOL_A)
+
+
+# --- spread over phases ----------------------------------------------------------------------
+
+
+def test_phase_demand_sums_to_total_and_follows_the_factor() -> None:
+    loads = [("rcpt", 8000.0, 1), ("rcpt", 8000.0, 1), ("rcpt", 4000.0, 1), ("mtr", 6000.0, 3)]
+    result = run(loads)
+    assert math.fsum(result.phase_demand_va.values()) == pytest.approx(
+        result.total_demand_va, abs=ATOL_VA
+    )
+    # Receptacles 20,000 VA -> 15,000 VA: factor 0.75 on each circuit's share.
+    motor_share = 6000.0 * 1.25 / 3
+    assert result.phase_demand_va["A"] == pytest.approx(8000.0 * 0.75 + motor_share, abs=ATOL_VA)
+    assert result.phase_demand_va["C"] == pytest.approx(4000.0 * 0.75 + motor_share, abs=ATOL_VA)
+
+
+def test_unplaced_circuit_spread_evenly_with_warning() -> None:
+    result = run([{"load_class": "other", "load_va": 3000.0, "spaces": ()}])
+    assert all(v == pytest.approx(1000.0) for v in result.phase_demand_va.values())
+    assert any("not placed" in w for w in result.warnings)
+
+
+# --- neutral 220.61 --------------------------------------------------------------------------
+
+
+def test_neutral_reduction_above_200_a_and_nonlinear_exception() -> None:
+    # 36,000 VA line-to-neutral on A = 300 A: 200 + 0.7 × 100 = 270 A (220.61(B), F).
+    loads = [
+        {"load_class": "other", "load_va": 12000.0, "spaces": (1,)},
+        {"load_class": "other", "load_va": 12000.0, "spaces": (7,)},
+        {"load_class": "other", "load_va": 12000.0, "spaces": (13,)},
+    ]
+    result = run(loads)
+    assert result.feeder.neutral_unreduced_a == pytest.approx(300.0, abs=ATOL_A)
+    assert result.feeder.neutral_a == pytest.approx(270.0, abs=ATOL_A)
+    # 220.61(C)(1): the non-linear part on a 4-wire wye is not reduced.
+    nonlinear = run(loads, nonlinear_classes=("other",))
+    assert nonlinear.feeder.neutral_a == pytest.approx(300.0, abs=ATOL_A)
+
+
+def test_no_neutral_on_three_wire_delta() -> None:
+    result = run([("mtr", 10000.0, 3)], system="480 delta")
+    assert result.feeder.neutral_a is None
+
+
+# --- ratings, spare capacity, voltage drop ---------------------------------------------------
+
+
+def test_spare_capacity_against_smaller_of_bus_and_main() -> None:
+    panel = make_panel(
+        [{"load_class": "other", "load_va": 12000.0, "spaces": (1,)}], bus_a=225, main_a=200
+    )
+    result = compute_demand(panel)
+    assert result.feeder.rating_a == 200
+    assert result.feeder.spare_a == pytest.approx(100.0, abs=ATOL_A)
+    assert result.feeder.spare_pct == pytest.approx(50.0, abs=1e-9)
+
+
+def test_voltage_drop_uses_chosen_conductor_and_design_current() -> None:
+    result = run([("mtr", 30000.0, 3)], feeder_length_ft=200.0, feeder_conductor="1/0 Cu")
+    current = 30000.0 * 1.25 / (math.sqrt(3) * 208.0)
+    expected = math.sqrt(3) * current * 0.122 * 200.0 / 1000.0 / 208.0 * 100.0
+    assert result.feeder.voltage_drop_pct == pytest.approx(expected, rel=1e-9)
+    bad = DemandOptions(feeder_length_ft=100.0, feeder_conductor="huge")
+    with pytest.raises(ScheduleError, match="feeder-conductor"):
+        compute_demand(make_panel([("mtr", 1000.0, 3)]), bad)
+
+
+def test_ambient_and_bundling_raise_conductor() -> None:
+    plain = run([{"load_class": "other", "load_va": 12000.0, "spaces": (1,)}])
+    hot = run(
+        [{"load_class": "other", "load_va": 12000.0, "spaces": (1,)}],
+        ambient_c=40,
+        current_carrying=6,
+    )
+    assert plain.feeder.conductor_cu == "3"  # 100 A
+    assert hot.feeder.conductor_factor == pytest.approx(0.88 * 0.8)
+    assert hot.feeder.conductor_cu == "1/0"  # 100 / 0.704 = 142 A -> 150 A
+
+
+# --- branch circuits -------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("load_va", "continuous", "flagged", "suggested"),
+    [
+        (1920.0, True, False, None),  # 16 A × 1.25 = 20 A on a 20 A breaker: at the limit
+        (1921.0, True, True, 25),
+        (2400.0, False, False, None),  # 20 A noncontinuous on 20 A
+        (2401.0, False, True, 25),
+    ],
+)
+def test_branch_breaker_check(
+    load_va: float, continuous: bool, flagged: bool, suggested: int | None
+) -> None:
+    # 210.19(A)(1), 210.20(A) (F): continuous load at 125%; 240.6(A) next rating.
+    result = run(
+        [{"load_class": "other", "load_va": load_va, "trip_a": 20.0, "continuous": continuous}]
+    )
+    flags = [b for b in result.branch_flags if b.kind == "overloaded"]
+    assert bool(flags) == flagged
+    if flagged:
+        assert flags[0].suggested_trip_a == suggested
+
+
+def test_branch_missing_trip_suggests_one() -> None:
+    result = run([{"load_class": "other", "load_va": 3000.0, "continuous": False}])
+    flag = result.branch_flags[0]
+    assert flag.kind == "no_trip"
+    assert flag.suggested_trip_a == 25  # 3,000 VA / 120 V = 25 A, a standard rating (240.6(A))
+
+
+@pytest.mark.parametrize(
+    ("wire", "trip_a", "limit_a"),
+    [("#12", 30.0, 20), ("14 AWG", 20.0, 15), ("10 AL", 30.0, 25), ("12 AL", 20.0, 15)],
+)
+def test_small_conductor_limit_240_4_d(wire: str, trip_a: float, limit_a: int) -> None:
+    # 240.4(D) (F): 14 Cu 15 A, 12 Cu 20 A, 10 Cu 30 A, 12 Al 15 A, 10 Al 25 A.
+    item = {"load_class": "other", "load_va": 600.0, "trip_a": trip_a, "extra": (("Wire", wire),)}
+    result = run([item])
+    flags = [b for b in result.branch_flags if b.kind == "small_conductor"]
+    assert len(flags) == 1
+    assert flags[0].suggested_trip_a == limit_a
+    assert flags[0].clause == "240.4(D)"
+
+
+def test_small_conductor_within_limit_and_motor_exempt() -> None:
+    fine = run(
+        [
+            {
+                "load_class": "other",
+                "load_va": 600.0,
+                "trip_a": 20.0,
+                "extra": (("Conductor", "#12"),),
+            }
+        ]
+    )
+    assert not fine.branch_flags
+    # 240.4(G) sends motor circuits to Article 430: no 240.4(D) flag there.
+    motor = run(
+        [{"load_class": "mtr", "load_va": 1000.0, "trip_a": 30.0, "extra": (("Wire", "#12"),)}]
+    )
+    assert not [b for b in motor.branch_flags if b.kind == "small_conductor"]
+
+
+def test_conductor_ampacity_and_unread_size() -> None:
+    # 30 A continuous on 10 AWG: 37.5 A needed, 10 AWG Cu carries 30 A in the 60 °C column
+    # (Table 310.16, F; 60 °C for circuits of 100 A or less, 110.14(C)(1)(a)).
+    item = {
+        "load_class": "wh",
+        "load_va": 6240.0,
+        "poles": 2,
+        "trip_a": 40.0,
+        "extra": (("Wire", "#10"),),
+    }
+    result = run([item])
+    kinds = {b.kind for b in result.branch_flags}
+    assert "conductor_ampacity" in kinds
+    assert "small_conductor" in kinds  # 10 AWG Cu on a 40 A breaker
+    odd = run(
+        [
+            {
+                "load_class": "other",
+                "load_va": 100.0,
+                "trip_a": 20.0,
+                "extra": (("Wire", "see plan"),),
+            }
+        ]
+    )
+    assert [b.kind for b in odd.branch_flags] == ["conductor_unread"]
+
+
+# --- rule sets as data -----------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("name", ["nec2023", "nec2020", "connected"])
+def test_rule_set_from_its_file_equals_builtin(name: str) -> None:
+    from_file = load_rule_set(RULES_DIR / f"{name}.toml")
+    assert from_file == builtin_rule_set(name)
+    assert resolve_rule_set(str(RULES_DIR / f"{name}.toml"), get_system("208Y/120")) == from_file
+
+
+def test_nec2023_factors_match_the_published_tables() -> None:
+    # Expected values written out here from the reference notes (F), independently of the file.
+    rules = builtin_rule_set("nec2023")
+    lighting = rules.classes["general_lighting"]
+    assert lighting.tiers["dwelling"] == (Tier(3000.0, 1.0), Tier(120000.0, 0.35), Tier(None, 0.25))
+    assert lighting.tiers["hotel"] == (Tier(20000.0, 0.5), Tier(100000.0, 0.4), Tier(None, 0.3))
+    assert lighting.tiers["warehouse"] == (Tier(12500.0, 1.0), Tier(None, 0.5))
+    assert lighting.tiers_for("other") == (Tier(None, 1.0),)
+    receptacles = rules.classes["general_receptacles"]
+    assert receptacles.tiers_for("other") == (Tier(10000.0, 1.0), Tier(None, 0.5))
+    assert receptacles.pool == {"dwelling": "general_lighting"}
+    assert rules.classes["kitchen"].unit_factors == (1.0, 1.0, 0.9, 0.8, 0.7, 0.65)  # from memory
+    assert rules.classes["kitchen"].floor_two_largest
+    assert rules.continuous_factor == 1.25
+    assert rules.largest_motor_extra == 0.25
+    assert rules.noncoincident == ((("space_heating", "air_conditioning"), "220.60"),)
+    assert rules.classes["spare"].factor == 0.0
+
+
+def test_editions_differ_only_in_clause_numbers() -> None:
+    # 2020 -> 2023 renumbering (F): Table 220.12 -> 220.42(A); 220.42 -> 220.45; 220.44 -> 220.47.
+    new, old = builtin_rule_set("nec2023"), builtin_rule_set("nec2020")
+    assert "Table 220.45" in new.classes["general_lighting"].clause
+    assert "Table 220.42" in old.classes["general_lighting"].clause
+    assert "220.47" in new.classes["general_receptacles"].clause
+    assert "220.44" in old.classes["general_receptacles"].clause
+    for name, rule in new.classes.items():
+        assert rule.tiers == old.classes[name].tiers
+        assert rule.factor == old.classes[name].factor
+
+
+def test_default_rule_set_by_system() -> None:
+    assert default_rule_set_name(get_system("208Y/120")) == "nec2023"
+    assert default_rule_set_name(get_system("400Y/230")) == "connected"
+
+
+def test_connected_set_on_400y230_sizes_nothing() -> None:
+    result = run([("ltg", 23000.0, 1), ("rcpt", 23000.0, 1)], system="400Y/230")
+    assert result.rule_set.name == "connected"
+    assert result.total_demand_va == pytest.approx(46000.0, abs=ATOL_VA)
+    assert result.feeder.min_ocpd_a is None
+    assert result.feeder.conductor_cu is None
+    assert result.feeder.design_a == pytest.approx(100.0, abs=ATOL_A)  # 23,000 VA / 230 V
+    assert any("No code demand factors" in c for c in result.cautions)
+
+
+def test_user_file_with_base_overrides_one_class(tmp_path: Path) -> None:
+    path = tmp_path / "site.toml"
+    path.write_text(
+        'name = "site"\ntitle = "Site diversity (demo)"\nedition = "owner\'s standard, demo"\n'
+        'base = "nec2023"\n[classes.general_receptacles]\n'
+        'method = "factor"\nfactor = 0.8\nclause = "owner\'s factor"\n',
+        encoding="utf-8",
+    )
+    result = run([("rcpt", 20000.0, 1), ("ltg", 1000.0, 1)], rules=path)
+    assert result.rule_set.title == "Site diversity (demo)"
+    assert demand_of(result, "general_receptacles") == pytest.approx(16000.0, abs=ATOL_VA)
+    assert demand_of(result, "general_lighting") == pytest.approx(1000.0, abs=ATOL_VA)
+
+
+@pytest.mark.parametrize(
+    ("text", "key"),
+    [
+        (
+            HEAD + '[classes.other]\nmethod = "factor"\nfactor = "high"\nclause = "x"\n',
+            "classes.other.factor",
+        ),
+        (
+            HEAD + '[classes.other]\nmethod = "factor"\n',
+            "classes.other.clause",
+        ),
+        (
+            'base = "nec2023"\n[classes.general_lighting]\nmethod = "tiers"\nclause = "x"\n'
+            "tiers.default = [{ upto_va = 100, factor = 1.0 }]\n",
+            "classes.general_lighting.tiers.default[0].upto_va",
+        ),
+        (
+            'base = "nec2023"\n[classes.kitchen]\nmethod = "lookup"\nclause = "x"\n',
+            "classes.kitchen.method",
+        ),
+        ('base = "nec1999"\n', "base"),
+        (
+            'base = "nec2023"\n[[noncoincident]]\n'
+            'classes = ["space_heating", "snow_melting"]\nclause = "x"\n',
+            "noncoincident[0].classes",
+        ),
+    ],
+)
+def test_malformed_rule_file_names_file_and_key(tmp_path: Path, text: str, key: str) -> None:
+    path = tmp_path / "bad.toml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(ScheduleError) as info:
+        load_rule_set(path)
+    message = str(info.value)
+    assert str(path) in message
+    assert f"key {key}" in message
+
+
+def test_rule_file_not_toml(tmp_path: Path) -> None:
+    path = tmp_path / "broken.toml"
+    path.write_text("name = \n", encoding="utf-8")
+    with pytest.raises(ScheduleError, match="not valid TOML"):
+        load_rule_set(path)
+    with pytest.raises(ScheduleError, match="--rules"):
+        resolve_rule_set("no-such-set", get_system("208Y/120"))
+
+
+def test_unknown_occupancy_is_a_clear_error() -> None:
+    assert "other" in OCCUPANCIES
+    with pytest.raises(ScheduleError, match="--occupancy"):
+        run([("ltg", 100.0, 1)], occupancy="spaceport")
+    assert run([("ltg", 100.0, 1)], occupancy="Office").occupancy == "other"
+
+
+def test_apply_tiers_direct() -> None:
+    tiers = (Tier(3000.0, 1.0), Tier(120000.0, 0.35), Tier(None, 0.25))
+    assert apply_tiers(0.0, tiers) == 0.0
+    assert apply_tiers(2000.0, tiers) == pytest.approx(2000.0)
+    assert apply_tiers(200000.0, tiers) == pytest.approx(3000 + 117000 * 0.35 + 80000 * 0.25)
+    assert isinstance(builtin_rule_set("nec2023").classes["ev"], ClassRule)
+
+
+# --- output ----------------------------------------------------------------------------------
+
+
+def _sample() -> DemandResult:
+    loads = [("ltg", 9000.0, 1), ("rcpt", 14400.0, 1), ("mtr", 7500.0, 3), ("spare", 0.0, 1)]
+    panel = make_panel(loads, bus_a=225, main_a=225)
+    return compute_demand(panel, DemandOptions(feeder_length_ft=120.0))
+
+
+def test_demand_to_dict_shape_and_json() -> None:
+    data = demand_to_dict(_sample())
+    json.dumps(data)
+    assert data["rule_set"] == "nec2023"
+    assert set(data["by_class"]["general_receptacles"]) == {"connected_va", "demand_va", "rule"}
+    assert data["by_class"]["general_receptacles"]["demand_va"] == 12200.0
+    for key in ("design_a", "min_ocpd_a", "conductor_cu", "conductor_al", "neutral_a", "spare_pct"):
+        assert key in data["feeder"]
+    assert data["total_connected_va"] == 30900.0
+    assert isinstance(data["branch_flags"], list)
+
+
+def test_loads_section_names_rule_set_and_cautions() -> None:
+    lines = loads_section_lines(_sample())
+    assert lines[0].startswith("Loads: NEC 2023")
+    text = "\n".join(lines)
+    assert "authority having jurisdiction" in text
+    assert "qualified persons" in text
+    assert "Minimum OCPD" in text
+    assert "Voltage drop" in text
+    assert all(isinstance(line, str) for line in lines)
+
+
+def test_sheet_rows_are_lists() -> None:
+    rows = demand_sheet_rows(_sample())
+    assert rows[0][:2] == ["Rule set", "NEC 2023"]
+    assert ["Class", "Circuits", "Connected VA", "Demand VA", "Rule"] in rows
+    assert all(isinstance(r, list) for r in rows)
