@@ -600,6 +600,12 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
         raise ScheduleError(
             Problem(str(path), f"'{suffix}' files are not read; give an .xlsx or .csv schedule")
         )
+    return _panel_from_grids(path, grid, panel_grid, overrides)
+
+
+def _panel_from_grids(
+    path: Path, grid: _Grid, panel_grid: _Grid | None, overrides: PanelOverrides
+) -> Panel:
     if not any(any(v is not None for v in row) for row in grid.rows):
         raise ScheduleError(Problem(grid.sheet, "the sheet holds no data"), str(path))
 
@@ -744,3 +750,45 @@ def _resolve_spaces(
 
 
 __all__ = ["BY_KEY", "PanelOverrides", "read_schedule"]
+
+
+def read_workbook_sheets(
+    path: str | Path, sheets: Sequence[str], overrides: Sequence[PanelOverrides] | None = None
+) -> list[Panel]:
+    """Read one panel from each of ``sheets`` of one workbook (opened once).
+
+    Each sheet holds a whole schedule: panel attributes in title rows above the header
+    ("System: 208Y/120"), circuits below. ``overrides`` pairs with ``sheets``.
+
+    Raises
+    ------
+    ScheduleError
+        With every problem of every sheet, each with its place.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise ScheduleError(Problem(str(path), "no such file"))
+    try:
+        values = load_workbook(path, data_only=True)
+        formulas = load_workbook(path, data_only=False)
+    except (InvalidFileException, zipfile.BadZipFile, KeyError, OSError) as exc:
+        raise ScheduleError(
+            Problem(str(path), f"is not a readable Excel workbook (.xlsx): {exc}")
+        ) from exc
+    panels: list[Panel] = []
+    problems: list[Problem] = []
+    for index, sheet in enumerate(sheets):
+        if sheet not in values.sheetnames:
+            near = difflib.get_close_matches(sheet, values.sheetnames, n=1)
+            hint = f" (did you mean '{near[0]}'?)" if near else ""
+            problems.append(Problem(str(path), f"no sheet named '{sheet}'{hint}"))
+            continue
+        grid = _grid_from_sheet(values[sheet], formulas[sheet])
+        try:
+            given = overrides[index] if overrides else PanelOverrides()
+            panels.append(_panel_from_grids(path, grid, None, given))
+        except ScheduleError as exc:
+            problems += exc.problems
+    if problems:
+        raise ScheduleError(problems, str(path))
+    return panels
