@@ -1,0 +1,533 @@
+"""A printable PDF of a panel: summary, circuit directory as the panel is built, work order and
+cautions. Drawn with matplotlib's PdfPages (its DejaVu fonts ship with it, so any machine that
+installs balancer can write the PDF); fonts are embedded as TrueType so the text can be searched
+and copied.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Literal
+
+from balancer.analysis import Loads, share_by_line
+from balancer.io.writer import (
+    SAFETY_NOTES,
+    STATUS_TEXT,
+    ExtraSheet,
+    _atomic,
+    refuse_input_path,
+)
+from balancer.panel import Panel
+from balancer.result import BalanceResult
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
+Paper = Literal["letter", "a4"]
+PAPER_IN: dict[Paper, tuple[float, float]] = {"letter": (8.5, 11.0), "a4": (8.27, 11.69)}
+MARGIN_IN = 0.6
+DIRECTORY_ROWS_PER_PAGE = 30
+_POINTS = 72.0
+_GREY = "#5A6570"
+_RULE = "#9AA5B1"
+_HEAD = "#33475B"
+
+
+@dataclass
+class _Page:
+    """A page being laid out from the top down, in inches."""
+
+    fig: Figure
+    width_in: float
+    height_in: float
+    y_in: float = MARGIN_IN
+
+    def _xy(self, x_in: float, y_in: float) -> tuple[float, float]:
+        return x_in / self.width_in, 1.0 - y_in / self.height_in
+
+    def text(self, x_in: float, y_in: float, text: str, size: float = 9, **kw: Any) -> None:
+        self.fig.text(*self._xy(x_in, y_in), text, fontsize=size, va="top", **kw)
+
+    def line(
+        self, x0_in: float, x1_in: float, y_in: float, colour: str = _RULE, lw: float = 0.6
+    ) -> None:
+        x0, y = self._xy(x0_in, y_in)
+        x1, _ = self._xy(x1_in, y_in)
+        self.fig.add_artist(_line2d([x0, x1], [y, y], colour, lw))
+
+    def rect(self, x_in: float, y_in: float, w_in: float, h_in: float, colour: str) -> None:
+        from matplotlib.patches import Rectangle
+
+        x, y = self._xy(x_in, y_in + h_in)
+        self.fig.add_artist(
+            Rectangle((x, y), w_in / self.width_in, h_in / self.height_in, color=colour, lw=0)
+        )
+
+    def heading(self, text: str, size: float = 13) -> None:
+        self.text(MARGIN_IN, self.y_in, text, size=size, weight="bold", color=_HEAD)
+        self.y_in += size / _POINTS * 1.6
+
+    def paragraph(self, text: str, size: float = 8.5, width_chars: int = 110) -> None:
+        import textwrap
+
+        for part in textwrap.wrap(text, width_chars) or [""]:
+            self.text(MARGIN_IN, self.y_in, part, size=size)
+            self.y_in += size / _POINTS * 1.35
+
+    def table(
+        self,
+        header: Sequence[str],
+        rows: Sequence[Sequence[Any]],
+        widths_in: Sequence[float],
+        *,
+        size: float = 8.5,
+        align: Sequence[str] | None = None,
+    ) -> None:
+        """Rows of cells; text is cut with an ellipsis where it would overflow its column."""
+        step = size / _POINTS * 1.55
+        x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
+        total = sum(widths_in)
+        align = align or ["left"] * len(header)
+        self.rect(MARGIN_IN, self.y_in - 0.03, total, step, _HEAD)
+        for x, w, title, how in zip(x_positions, widths_in, header, align, strict=True):
+            self._cell(x, w, title, size, how, color="white", weight="bold")
+        self.y_in += step
+        for row in rows:
+            for x, w, value, how in zip(x_positions, widths_in, row, align, strict=False):
+                self._cell(x, w, _fmt(value), size, how)
+            self.y_in += step
+            self.line(MARGIN_IN, MARGIN_IN + total, self.y_in - 0.04)
+        self.y_in += step * 0.6
+
+    def _cell(self, x: float, w: float, text: str, size: float, how: str, **kw: Any) -> None:
+        fits = max(3, int(w / (size / _POINTS * 0.6)))  # DejaVu Sans is about 0.6 em wide
+        if len(text) > fits:
+            text = text[: fits - 1] + "…"
+        if how == "right":
+            self.text(x + w - 0.05, self.y_in, text, size=size, ha="right", **kw)
+        elif how == "center":
+            self.text(x + w / 2, self.y_in, text, size=size, ha="center", **kw)
+        else:
+            self.text(x + 0.05, self.y_in, text, size=size, **kw)
+
+
+def _line2d(xs: list[float], ys: list[float], colour: str, lw: float) -> Any:
+    from matplotlib.lines import Line2D
+
+    return Line2D(xs, ys, color=colour, lw=lw)
+
+
+def _va(value: float | None) -> str:
+    return "" if value is None else f"{value:,.0f}"
+
+
+def _amps(value: float | None) -> str:
+    return "" if value is None else f"{value:,.1f}"
+
+
+def _fmt(value: Any) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int):
+        return f"{value:,}"
+    if isinstance(value, float):
+        if math.isnan(value):
+            return ""
+        return f"{value:,.0f}" if abs(value) >= 100 else f"{value:,.1f}"
+    return str(value)
+
+
+def _new_page(paper: Paper, panel: Panel) -> _Page:
+    from matplotlib.figure import Figure
+
+    width, height = PAPER_IN[paper]
+    page = _Page(Figure(figsize=(width, height)), width, height)
+    page.text(
+        MARGIN_IN,
+        height - 0.45,
+        "Engineering aid: qualified persons only; de-energise and verify with a meter before work.",
+        size=7,
+        color=_GREY,
+    )
+    page.text(
+        width - MARGIN_IN, height - 0.45, f"Panel {panel.name}", size=7, color=_GREY, ha="right"
+    )
+    return page
+
+
+def _summary_page(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None) -> None:
+    page.heading(f"Panel {panel.name}", size=15)
+    facts = [
+        ("System", panel.system.label()),
+        ("Spaces", str(panel.spaces)),
+        ("Bus rating", f"{panel.bus_a:g} A" if panel.bus_a else "not given"),
+        (
+            "Main",
+            f"{panel.main_a:g} A"
+            if panel.main_a
+            else ("main lugs only" if getattr(panel, "main_lugs_only", False) else "not given"),
+        ),
+        ("Schedule", panel.source or "not given"),
+    ]
+    for label, value in facts:
+        page.text(MARGIN_IN, page.y_in, label, size=9, weight="bold")
+        page.text(MARGIN_IN + 1.3, page.y_in, value, size=9)
+        page.y_in += 0.19
+    for notice in panel.notices:
+        page.paragraph(f"Notice: {notice}")
+    page.y_in += 0.1
+
+    page.heading("Per-line figures", size=11)
+    lines = panel.lines
+    if result is not None:
+        header = ["Line", "Before VA", "After VA", "Before A", "After A"]
+        rows: list[list[Any]] = [
+            [
+                line,
+                _va(result.before.phase_va[line]),
+                _va(loads.phase_va[line]),
+                _amps(result.before.line_a[line]),
+                _amps(loads.line_a[line]),
+            ]
+            for line in lines
+        ]
+        if panel.system.neutral:
+            rows.append(
+                [
+                    "Neutral",
+                    None,
+                    None,
+                    _amps(result.before.neutral_a),
+                    _amps(loads.neutral_a),
+                ]
+            )
+        widths = [0.9, 1.2, 1.2, 1.1, 1.1]
+    else:
+        header = ["Line", "Load VA", "Current A", "Deviation from average"]
+        average = loads.total_va / len(lines)
+        rows = [
+            [
+                line,
+                _va(loads.phase_va[line]),
+                _amps(loads.line_a[line]),
+                f"{(loads.phase_va[line] - average) / average * 100 if average else 0.0:+.1f} %",
+            ]
+            for line in lines
+        ]
+        if panel.system.neutral:
+            rows.append(["Neutral", None, _amps(loads.neutral_a), ""])
+        widths = [0.9, 1.2, 1.1, 1.8]
+    page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
+
+    figures = [
+        ("Total load", f"{loads.total_va:,.0f} VA"),
+        ("Spread (heaviest − lightest line)", f"{loads.spread_va:,.0f} VA"),
+        ("Imbalance (NEMA MG 1 definition)", f"{loads.imbalance_pct:.1f} %"),
+    ]
+    if loads.unbalance_factor_pct is not None:
+        figures.append(("Current unbalance |I2|/|I1|", f"{loads.unbalance_factor_pct:.1f} %"))
+    rms = getattr(loads, "neutral_rms_a", None)
+    if panel.system.neutral and rms is not None and abs(rms - loads.neutral_a) > 0.05:
+        figures.append(("Neutral RMS with harmonics", f"{rms:,.1f} A"))
+    if result is not None:
+        figures += [
+            ("Result", STATUS_TEXT[result.status]),
+            (
+                "Lower bound on spread",
+                f"{result.lower_bound_spread_va:,.0f} VA "
+                f"(gap {result.gap_va:,.0f} VA, tolerance {result.tolerance_va:g} VA)",
+            ),
+            ("Breakers to move", str(len(result.moves))),
+        ]
+    for label, value in figures:
+        page.text(MARGIN_IN, page.y_in, label, size=9)
+        page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
+        page.y_in += 0.19
+    if loads.unplaced:
+        page.paragraph("Not placed, left out of the figures: " + ", ".join(loads.unplaced))
+    page.y_in += 0.35
+    _bar_chart(page, panel, loads, result)
+    page.y_in += 0.4
+    _cautions(page)
+
+
+def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None) -> None:
+    height_in = 2.3
+    width_in = page.width_in - 2 * MARGIN_IN
+    bottom = 1.0 - (page.y_in + height_in) / page.height_in
+    ax = page.fig.add_axes(
+        (
+            (MARGIN_IN + 0.6) / page.width_in,
+            bottom,
+            (width_in - 0.8) / page.width_in,
+            (height_in - 0.2) / page.height_in,
+        )
+    )
+    lines = list(panel.lines)
+    x = list(range(len(lines)))
+    after = [loads.phase_va[line] for line in lines]
+    if result is not None:
+        before = [result.before.phase_va[line] for line in lines]
+        ax.bar(
+            [i - 0.2 for i in x],
+            before,
+            0.4,
+            label="before",
+            color="white",
+            edgecolor="black",
+            hatch="//",
+        )
+        ax.bar([i + 0.2 for i in x], after, 0.4, label="after", color="#4A5A6A", edgecolor="black")
+    else:
+        ax.bar(x, after, 0.5, label="as placed", color="#4A5A6A", edgecolor="black")
+    average = loads.total_va / len(lines)
+    ax.axhline(average, color="black", ls="--", lw=1, label=f"average {average:,.0f} VA")
+    ax.set_xticks(x, [f"Line {line}" for line in lines])
+    ax.set_ylabel("VA", fontsize=8)
+    ax.tick_params(labelsize=8)
+    ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=3, frameon=False)
+    page.y_in += height_in
+
+
+def _cautions(page: _Page) -> None:
+    page.heading("Cautions", size=11)
+    for note in SAFETY_NOTES:
+        page.paragraph(f"• {note}")
+        page.y_in += 0.03
+
+
+def _directory_rows(panel: Panel) -> list[list[Any]]:
+    geometry = panel.geometry
+    by_space = {s: c for c in panel.circuits for s in c.spaces}
+    out: list[list[Any]] = []
+
+    def side(space: int) -> tuple[str, str, str]:
+        circuit = by_space.get(space)
+        if space > panel.spaces:
+            return "", "", ""
+        if circuit is None:
+            return "(space)", "", ""
+        share = _va(share_by_line(panel, circuit).get(geometry.line_of(space), 0.0))
+        if space != circuit.first_space:
+            return f"(pole of {circuit.first_space})", "", share
+        trip = f"{circuit.trip_a:g} A" if circuit.trip_a else ""
+        return circuit.description, f"{circuit.poles}P {trip}".strip(), share
+
+    for pair in range(geometry.rows()):
+        left, right = 2 * pair + 1, 2 * pair + 2
+        ld, lb, lva = side(left)
+        rd, rb, rva = side(right)
+        out.append(
+            [
+                ld,
+                lb,
+                lva,
+                left,
+                geometry.line_of(left),
+                right if right <= panel.spaces else "",
+                rva,
+                rb,
+                rd,
+            ]
+        )
+    return out
+
+
+def _directory_pages(pages: list[_Page], make: Any, panel: Panel) -> None:
+    rows = _directory_rows(panel)
+    header = [
+        "Description",
+        "Breaker",
+        "VA",
+        "Space",
+        "Line",
+        "Space",
+        "VA",
+        "Breaker",
+        "Description",
+    ]
+    width = pages[0].width_in - 2 * MARGIN_IN
+    fixed = [0.62, 0.55, 0.42, 0.42, 0.42, 0.55, 0.62]
+    description_in = (width - sum(fixed)) / 2
+    widths = [description_in, *fixed[:3], fixed[3], *fixed[4:], description_in]
+    align = ["left", "center", "right", "center", "center", "center", "right", "center", "left"]
+    chunks = [
+        rows[i : i + DIRECTORY_ROWS_PER_PAGE] for i in range(0, len(rows), DIRECTORY_ROWS_PER_PAGE)
+    ]
+    for number, chunk in enumerate(chunks, start=1):
+        page = make()
+        more = f" ({number} of {len(chunks)})" if len(chunks) > 1 else ""
+        page.heading(f"Circuit directory, panel {panel.name}{more}")
+        page.paragraph(
+            f"{panel.system.label()}. Laid out as the panel is built: odd spaces left, even right; "
+            "VA is the circuit's share on that row's line. Keep a legible copy at the panel "
+            "(NEC 408.4)."
+        )
+        page.y_in += 0.05
+        page.table(header, chunk, widths, size=8, align=align)
+        pages.append(page)
+
+
+def _work_order_pages(pages: list[_Page], make: Any, result: BalanceResult) -> None:
+    rows = _work_order_table(result)
+    header = ["Step", "Action", "Circuit", "Description", "From", "To", "Done"]
+    width = pages[0].width_in - 2 * MARGIN_IN
+    fixed = [0.45, 1.9, 0.6, 1.0, 1.0, 0.6]
+    widths = [fixed[0], fixed[1], fixed[2], width - sum(fixed), fixed[3], fixed[4], fixed[5]]
+    per_page = 34
+    for start in range(0, max(1, len(rows)), per_page):
+        page = make()
+        page.heading(f"Work order, panel {result.after_panel.name}")
+        page.paragraph(
+            "Do the steps in order. Before each: de-energise the panel or the circuit, lock out, "
+            "verify dead with a meter. After each: re-label the directory; initial the Done column."
+        )
+        page.y_in += 0.05
+        page.table(header, rows[start : start + per_page], widths, size=8)
+        pages.append(page)
+
+
+def _work_order_table(result: BalanceResult) -> list[list[Any]]:
+    """Steps from the work-order planner; straight moves from the result if it is unavailable."""
+    try:
+        from balancer.workorder import ACTION_TEXT, work_order_for
+    except ImportError:
+        work_order_for = None  # type: ignore[assignment]
+    rows: list[list[Any]] = []
+    if work_order_for is not None:
+        order = work_order_for(result)
+        for step in order.steps:
+            for item in step.items:
+                rows.append(
+                    [
+                        step.number,
+                        ACTION_TEXT[step.action],
+                        item.circuit_id,
+                        item.description,
+                        _place(item.from_spaces, item.from_lines),
+                        _place(item.to_spaces, item.to_lines),
+                        "____",
+                    ]
+                )
+        return rows
+    for number, move in enumerate(result.moves, start=1):
+        rows.append(
+            [
+                number,
+                "Move breaker",
+                move.circuit_id,
+                move.description,
+                _place(move.from_spaces, move.from_lines),
+                _place(move.to_spaces, move.to_lines),
+                "____",
+            ]
+        )
+    return rows
+
+
+def _place(spaces: Sequence[int], lines: Sequence[str]) -> str:
+    if not spaces:
+        return "not in panel"
+    return f"{', '.join(map(str, spaces))} ({'-'.join(lines)})"
+
+
+def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]) -> None:
+    for title, rows in sections:
+        if not rows:
+            continue
+        page = make()
+        page.heading(title)
+        header = [str(v) for v in rows[0]]
+        width = pages[0].width_in - 2 * MARGIN_IN
+        first = min(2.6, width * 0.4)
+        rest = (width - first) / max(1, len(header) - 1)
+        widths = [first] + [rest] * (len(header) - 1)
+        body = [list(r) + [None] * (len(header) - len(r)) for r in rows[1:]]
+        page.table(header, body, widths, size=8, align=["left"] + ["right"] * (len(header) - 1))
+        pages.append(page)
+
+
+def pdf_pages(
+    panel: Panel,
+    loads: Loads,
+    *,
+    result: BalanceResult | None = None,
+    paper: Paper = "letter",
+    sections: Sequence[ExtraSheet] = (),
+) -> list[Figure]:
+    """The PDF's pages as figures: summary, directory, work order (with moves), extra sections."""
+    pages: list[_Page] = []
+
+    def make() -> _Page:
+        return _new_page(paper, panel)
+
+    first = make()
+    _summary_page(first, panel, loads, result)
+    pages.append(first)
+    _directory_pages(pages, make, panel)
+    if result is not None and result.moves:
+        _work_order_pages(pages, make, result)
+    _section_pages(pages, make, sections)
+    for number, page in enumerate(pages, start=1):
+        page.text(
+            page.width_in - MARGIN_IN,
+            page.height_in - 0.3,
+            f"page {number} of {len(pages)}",
+            size=7,
+            color=_GREY,
+            ha="right",
+        )
+    return [page.fig for page in pages]
+
+
+def write_pdf(
+    path: Path | str,
+    panel: Panel,
+    loads: Loads,
+    *,
+    result: BalanceResult | None = None,
+    paper: Paper = "letter",
+    sections: Sequence[ExtraSheet] = (),
+    input_path: Path | str | None = None,
+) -> Path:
+    """Write the panel's PDF to ``path`` (atomically) and return the path.
+
+    Parameters
+    ----------
+    path
+        The PDF to write; refused when it is the input schedule.
+    panel, loads
+        The panel to describe and its figures: the revised panel after ``balance``, the panel
+        as read for ``check``.
+    result
+        The balancing result, for before/after figures, the proof status and the work order.
+    paper
+        ``"letter"`` (8.5 × 11 in) or ``"a4"`` (210 × 297 mm).
+    sections
+        Extra ``(title, rows)`` tables (demand loads, feeder check), first row the header.
+    input_path
+        The schedule that was read, when known.
+    """
+    from matplotlib import rc_context
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    if paper not in PAPER_IN:
+        raise ValueError(f"paper must be one of {', '.join(PAPER_IN)}, not {paper!r}")
+    path = Path(path)
+    refuse_input_path(path, input_path, panel.source or None)
+
+    def write(tmp: Path) -> None:
+        with rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
+            figures = pdf_pages(panel, loads, result=result, paper=paper, sections=sections)
+            with PdfPages(
+                tmp, metadata={"Title": f"Panel {panel.name}", "Creator": "balancer"}
+            ) as pdf:
+                for fig in figures:
+                    pdf.savefig(fig)
+
+    return _atomic(path, write)

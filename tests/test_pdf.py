@@ -1,0 +1,113 @@
+"""The PDF: pages, paper size, and searchable text with the panel, its circuits and figures.
+
+Text is read back with pypdf (a test-only dependency), so no poppler install is needed.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import pytest
+from writer_demo import demo_panel, demo_result
+
+pypdf = pytest.importorskip("pypdf")
+
+from balancer.analysis import analyze  # noqa: E402
+from balancer.errors import BalancerError  # noqa: E402
+from balancer.io.pdf import PAPER_IN, write_pdf  # noqa: E402
+from balancer.panel import Circuit  # noqa: E402
+
+POINTS_PER_IN = 72.0
+
+
+def _text(path: Path) -> list[str]:
+    return [page.extract_text() for page in pypdf.PdfReader(path).pages]
+
+
+def _flat(text: str) -> str:
+    return " ".join(text.split())
+
+
+def test_balance_pdf_pages_and_contents(tmp_path: Path) -> None:
+    result = demo_result()
+    out = write_pdf(tmp_path / "lp1.pdf", result.after_panel, result.after, result=result)
+    pages = _text(out)
+    assert len(pages) == 3  # summary, circuit directory, work order
+    summary, directory, work = (_flat(p) for p in pages)
+    assert "Panel DEMO-LP1" in summary
+    for line in "ABC":
+        assert f"{result.after.phase_va[line]:,.0f}" in summary
+        assert f"{result.before.phase_va[line]:,.0f}" in summary
+    assert f"{result.after.neutral_a:.1f}" in summary
+    assert "optimal" in summary
+    assert "qualified persons" in summary
+    assert "authority having jurisdiction" in summary
+    for circuit in result.after_panel.circuits:
+        assert circuit.description in directory
+    assert "408.4" in directory
+    assert "Work order" in work
+    assert "Demo lighting west" in work
+    assert "15 (B)" in work
+    assert "5 (C)" in work
+
+
+def test_check_pdf_has_no_work_order_and_is_a4(tmp_path: Path) -> None:
+    panel = demo_panel()
+    loads = analyze(panel)
+    out = write_pdf(tmp_path / "check.pdf", panel, loads, paper="a4")
+    reader = pypdf.PdfReader(out)
+    assert len(reader.pages) == 2
+    box = reader.pages[0].mediabox
+    width_in, height_in = PAPER_IN["a4"]
+    assert float(box.width) == pytest.approx(width_in * POINTS_PER_IN, abs=1)
+    assert float(box.height) == pytest.approx(height_in * POINTS_PER_IN, abs=1)
+    text = _flat(" ".join(_text(out)))
+    assert "Work order" not in text
+    assert f"{loads.phase_va['B']:,.0f}" in text
+
+
+def test_letter_page_size(tmp_path: Path) -> None:
+    panel = demo_panel()
+    out = write_pdf(tmp_path / "l.pdf", panel, analyze(panel))
+    box = pypdf.PdfReader(out).pages[0].mediabox
+    assert (float(box.width), float(box.height)) == pytest.approx((612.0, 792.0), abs=1)
+
+
+def test_long_panel_directory_continues_on_a_second_page(tmp_path: Path) -> None:
+    base = demo_panel()
+    circuits = tuple(
+        Circuit(id=str(s), description=f"Demo load {s}", poles=1, load_va=500.0, spaces=(s,))
+        for s in range(1, 85)
+    )
+    panel = dataclasses.replace(base, circuits=circuits, spaces=84)
+    out = write_pdf(tmp_path / "big.pdf", panel, analyze(panel))
+    pages = [_flat(t) for t in _text(out)]
+    assert len(pages) == 3  # summary + 42 rows of directory over two pages
+    assert "(1 of 2)" in pages[1]
+    assert "(2 of 2)" in pages[2]
+    joined = " ".join(pages[1:])
+    for s in range(1, 85):
+        assert f"Demo load {s} " in joined + " "
+
+
+def test_extra_sections_get_their_own_page(tmp_path: Path) -> None:
+    panel = demo_panel()
+    rows = [("Class", "Connected VA", "Demand VA"), ("Lighting", 4200.0, 4200.0)]
+    out = write_pdf(tmp_path / "d.pdf", panel, analyze(panel), sections=[("Demand load", rows)])
+    pages = [_flat(t) for t in _text(out)]
+    assert len(pages) == 3
+    assert "Demand load" in pages[2]
+    assert "4,200" in pages[2]
+
+
+def test_pdf_refuses_the_input_and_bad_paper(tmp_path: Path) -> None:
+    panel = demo_panel()
+    source = tmp_path / "s.xlsx"
+    source.write_bytes(b"keep")
+    with pytest.raises(BalancerError):
+        write_pdf(source, panel, analyze(panel), input_path=source)
+    assert source.read_bytes() == b"keep"
+    with pytest.raises(ValueError, match="paper"):
+        write_pdf(tmp_path / "x.pdf", panel, analyze(panel), paper="legal")  # type: ignore[arg-type]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["s.xlsx"]
