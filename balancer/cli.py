@@ -181,9 +181,6 @@ def balance_file(
     schedule: Path, output: Path | None, options: Any, overrides: PanelOverrides
 ) -> tuple[Any, Path]:
     """Read → balance → write; returns the result and the workbook written."""
-    from balancer.io.writer import write_workbook
-    from balancer.optimize import balance
-
     output = output or default_output(schedule)
     if _same_file(schedule, output):
         raise ScheduleError(
@@ -192,6 +189,10 @@ def balance_file(
             )
         )
     panel = read_schedule(schedule, overrides)
+    # the optimiser and writer load only once the schedule is known to be good
+    from balancer.io.writer import write_workbook
+    from balancer.optimize import balance
+
     result = balance(panel, options)
     written = write_workbook(result, output)
     return result, written
