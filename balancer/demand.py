@@ -531,12 +531,14 @@ def _per_line_voltage(system: System, poles: int, line: Line) -> float:
     return system.line_to_line_v / math.sqrt(3.0)
 
 
-def _circuit_current_a(system: System, circuit: Circuit, load_va: float) -> float:
+def _circuit_current_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
+    """Whole-circuit current at the schedule's voltage, else the one its poles imply."""
+    system = panel.system
     if circuit.voltage_v:
         factor = math.sqrt(3.0) if circuit.poles == 3 else 1.0
         return load_va / (factor * circuit.voltage_v)
     if circuit.poles == 1 and system.neutral:
-        placed = [system.lines[(s - 1) // 2 % len(system.lines)] for s in circuit.spaces[:1]]
+        placed = list(panel.lines_of(circuit))
         line = (placed or [ln for ln in system.lines if system.serves_line_to_neutral(ln)])[0]
         return load_va / _line_voltage(system, line)
     if circuit.poles == 3:
@@ -777,7 +779,7 @@ def _feeder(
             shares = {line: result.demand_va / len(lines) for line in lines}
         # Motors carry their 125% in the largest-motor adder (430.24), not the continuous factor.
         multiplier = rules.continuous_factor if continuous and not rule.largest_motor else 1.0
-        factor = result.demand_va / connected if connected else 1.0
+        circuit_factor = result.demand_va / connected if connected else 1.0
         for line, va in shares.items():
             volts = _per_line_voltage(system, circuit.poles, line)
             phase_va[line] += va
@@ -795,7 +797,7 @@ def _feeder(
             # Which line the 120 V part sits on is not known: count it on each (conservative).
             for line in shares:
                 target = neutral_fixed if wye else neutral_linear
-                target[line] += circuit.neutral_va * factor / (system.line_to_line_v / 2.0)
+                target[line] += circuit.neutral_va * circuit_factor / _line_voltage(system, line)
     if unplaced:
         warnings.append(
             f"circuits not placed ({', '.join(unplaced)}): "
@@ -907,7 +909,7 @@ def _branch_flags(
         if name == "spare" or connected <= 0:
             continue
         rule = rules.classes[name]
-        current = _circuit_current_a(panel.system, circuit, connected)
+        current = _circuit_current_a(panel, circuit, connected)
         if rule.largest_motor and sizing:
             required, clause = current * 1.25, "430.22, 440.32"
         elif continuous and sizing:
@@ -1082,7 +1084,8 @@ def loads_section_lines(result: DemandResult) -> list[str]:
         "  Demand by line: "
         + "  ".join(f"{k} {v:,.0f} VA" for k, v in result.phase_demand_va.items())
     )
-    adder = f" + {rules.largest_motor_extra:.0%} largest motor" if rules.largest_motor_extra else ""
+    has_adder = any(c.motor_adder_va for c in result.circuits)
+    adder = f" + {rules.largest_motor_extra:.0%} largest motor" if has_adder else ""
     cont = (
         f"{rules.continuous_factor:.0%} continuous"
         if rules.continuous_factor != 1

@@ -632,3 +632,14 @@ def test_sheet_rows_are_lists() -> None:
     assert rows[0][:2] == ["Rule set", "NEC 2023"]
     assert ["Class", "Circuits", "Connected VA", "Demand VA", "Rule"] in rows
     assert all(isinstance(r, list) for r in rows)
+
+
+def test_two_pole_neutral_part_reduced_only_off_a_wye() -> None:
+    # A 2-pole load whose 30,000 VA line-to-neutral part puts 250 A on the neutral.
+    item = {"load_class": "other", "load_va": 40000.0, "poles": 2, "neutral_va": 30000.0}
+    single_phase = run([item], system="120/240")
+    # 120/240 V: 200 + 0.7 × 50 = 235 A (220.61(B), F).
+    assert single_phase.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
+    # Two phases and neutral of a 4-wire wye: no reduction (220.61(C)(2), F).
+    wye = run([item], system="208Y/120")
+    assert wye.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
