@@ -21,6 +21,7 @@ import cmath
 import csv
 import difflib
 import math
+import textwrap
 import zipfile
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
@@ -932,3 +933,245 @@ def read_building(path: str | Path) -> Building:
     if problems:
         raise ScheduleError(problems, str(path))
     return make_building(path.stem, panels, feeds)
+
+
+# ---------------------------------------------------------------- reporting
+
+SAFETY = (
+    "An engineering aid, not a design approval: moving breakers or re-landing feeder conductors "
+    "is work for qualified persons with the equipment de-energised and absence of voltage "
+    "verified with a meter. The adopted code, local amendments and the authority having "
+    "jurisdiction govern."
+)
+
+
+def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
+    return " / ".join(f"{v:,.{digits}f}" for v in values.values())
+
+
+def panel_rows(
+    building: Building, before: RollUp, result: BuildingResult | None = None
+) -> list[dict[str, object]]:
+    """One row per panel, service first: figures before and (when balanced) after."""
+    rows: list[dict[str, object]] = []
+    for name in reversed(building.order()):
+        panel = building.panel(name)
+        feed = building.feed_of(name)
+        fig = before.panels[name]
+        row: dict[str, object] = {
+            "panel": name,
+            "system": panel.system.designation,
+            "fed_from": f"{feed.source} ckt {feed.circuit_id}" if feed else "service",
+            "total_va": fig.total_va,
+            "phase_va_before": _lines_text(fig.phase_va),
+            "imbalance_before_pct": fig.imbalance_pct,
+            "spread_before_va": fig.spread_va,
+            "line_a_before": _lines_text(fig.line_a, 1),
+            "neutral_before_a": fig.neutral_a,
+        }
+        if result is not None:
+            after = result.after_figures.panels[name]
+            outcome = result.outcomes[name]
+            row |= {
+                "phase_va_after": _lines_text(after.phase_va),
+                "imbalance_after_pct": after.imbalance_pct,
+                "spread_after_va": after.spread_va,
+                "line_a_after": _lines_text(after.line_a, 1),
+                "neutral_after_a": after.neutral_a,
+                "status": outcome.status.value,
+                "moves": len(outcome.moves),
+                "moved": ", ".join(outcome.moves),
+                "re_landed": ", ".join(outcome.swapped_feeds),
+            }
+        rows.append(row)
+    return rows
+
+
+def feeder_rows(
+    building: Building, before: RollUp, result: BuildingResult | None = None
+) -> list[dict[str, object]]:
+    """One row per feed: what the subpanel puts on its feeder circuit upstream."""
+    rows: list[dict[str, object]] = []
+    for name in reversed(building.order()):
+        feed = building.feed_of(name)
+        if feed is None:
+            continue
+        fig = before.feeders[name]
+        row: dict[str, object] = {
+            "panel": name,
+            "fed_from": feed.source,
+            "circuit": feed.circuit_id,
+            "transformer": (
+                f"{feed.transformer.name} {feed.transformer.kva:g} kVA "
+                f"{feed.transformer.connection}"
+            )
+            if feed.transformer
+            else "",
+            "lines_before": "-".join(fig.lines),
+            "upstream_va_before": _lines_text({k: fig.phase_va[k] for k in fig.lines}),
+            "upstream_a_before": _lines_text(fig.line_a, 1),
+            "transformer_loading_before_pct": fig.transformer_loading_pct,
+        }
+        if result is not None:
+            after = result.after_figures.feeders[name]
+            row |= {
+                "lines_after": "-".join(after.lines),
+                "upstream_va_after": _lines_text({k: after.phase_va[k] for k in after.lines}),
+                "upstream_a_after": _lines_text(after.line_a, 1),
+                "transformer_loading_after_pct": after.transformer_loading_pct,
+            }
+        rows.append(row)
+    return rows
+
+
+def summary_lines(
+    building: Building, before: RollUp, result: BuildingResult | None = None
+) -> list[str]:
+    out = []
+    figures = result.after_figures if result else before
+    for service in building.services():
+        fig = figures.panels[service]
+        out.append(
+            f"Service {service}: {fig.total_va / 1000:,.1f} kVA connected over "
+            f"{sum(1 for n in building.order() if _root_of(building, n) == service)} panels; "
+            f"lines {_lines_text(fig.line_a, 1)} A, neutral {fig.neutral_a:.1f} A"
+        )
+    worst_before = max(before.panels.values(), key=lambda f: f.imbalance_pct)
+    out.append(
+        f"Most unbalanced panel as found: {worst_before.name} at {worst_before.imbalance_pct:.1f} %"
+    )
+    if result is not None:
+        worst_after = max(result.after_figures.panels.values(), key=lambda f: f.imbalance_pct)
+        proven = sum(1 for o in result.outcomes.values() if o.status is SolveStatus.OPTIMAL)
+        moves = sum(len(o.moves) for o in result.outcomes.values())
+        relands = sum(len(o.swapped_feeds) for o in result.outcomes.values())
+        out.append(
+            f"Most unbalanced panel after balancing: {worst_after.name} at "
+            f"{worst_after.imbalance_pct:.1f} %"
+        )
+        out.append(
+            f"{proven} of {len(result.outcomes)} panels proven best within the tolerance; "
+            f"{moves} breaker moves, {relands} feeders re-landed"
+        )
+    for name, fig in figures.feeders.items():
+        if fig.transformer_loading_pct is not None and fig.transformer_loading_pct > 100.0:
+            out.append(
+                f"WARNING: the transformer feeding {name} is loaded to "
+                f"{fig.transformer_loading_pct:.0f} % of one winding's rating"
+            )
+    return out
+
+
+def _root_of(building: Building, name: str) -> str:
+    feed = building.feed_of(name)
+    while feed is not None:
+        name = feed.source
+        feed = building.feed_of(name)
+    return name
+
+
+def _table(rows: list[dict[str, object]], columns: Sequence[tuple[str, str]]) -> list[str]:
+    def text(value: object) -> str:
+        if value is None:
+            return "-"
+        if isinstance(value, float):
+            return f"{value:,.1f}"
+        return str(value)
+
+    cells = [[title for _, title in columns]] + [[text(r.get(k)) for k, _ in columns] for r in rows]
+    widths = [max(len(row[i]) for row in cells) for i in range(len(columns))]
+    return [
+        "  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip() for row in cells
+    ]
+
+
+def building_text(building: Building, before: RollUp, result: BuildingResult | None = None) -> str:
+    """The terminal report: panels, feeders, summary, caution."""
+    lines = [f"Building {building.name}: {len(building.panels)} panels (connected basis)", ""]
+    panel_cols = [
+        ("panel", "Panel"),
+        ("system", "System"),
+        ("fed_from", "Fed from"),
+        ("phase_va_before", "VA per line"),
+    ]
+    if result is None:
+        panel_cols += [
+            ("imbalance_before_pct", "Imbalance %"),
+            ("line_a_before", "Line A"),
+            ("neutral_before_a", "Neutral A"),
+        ]
+    else:
+        panel_cols += [
+            ("imbalance_before_pct", "Imb. % before"),
+            ("phase_va_after", "VA per line after"),
+            ("imbalance_after_pct", "Imb. % after"),
+            ("line_a_after", "Line A after"),
+            ("status", "Status"),
+            ("moves", "Moves"),
+        ]
+    lines += _table(panel_rows(building, before, result), panel_cols)
+    feeds = feeder_rows(building, before, result)
+    if feeds:
+        feeder_cols = [
+            ("panel", "Feeds"),
+            ("fed_from", "From"),
+            ("circuit", "Ckt"),
+            ("transformer", "Transformer"),
+            ("lines_before", "Lines"),
+            ("upstream_a_before", "Amps upstream"),
+            ("transformer_loading_before_pct", "Loading %"),
+        ]
+        if result is not None:
+            feeder_cols += [
+                ("lines_after", "Lines after"),
+                ("upstream_a_after", "Amps after"),
+                ("transformer_loading_after_pct", "Loading % after"),
+            ]
+        lines += ["", *_table(feeds, feeder_cols)]
+    lines += ["", *summary_lines(building, before, result)]
+    if result is not None:
+        for name, outcome in result.outcomes.items():
+            if outcome.swapped_feeds:
+                lines.append(
+                    f"{name}: re-land the feeder conductors of {', '.join(outcome.swapped_feeds)} "
+                    "(line A of the subpanel to the other pole)"
+                )
+            if not outcome.exact or outcome.status is SolveStatus.FEASIBLE:
+                lines += [f"{name}: {n}" for n in outcome.notes if "proven" in n or "exactly" in n]
+    lines += ["", textwrap.fill(SAFETY, 88)]
+    return "\n".join(lines)
+
+
+def write_building_workbook(
+    path: str | Path, building: Building, before: RollUp, result: BuildingResult | None = None
+) -> Path:
+    """The figures as a workbook (sheets Panels, Feeders, Summary), written atomically."""
+    from io import BytesIO
+
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    from balancer.io.writer import atomic_write_bytes
+
+    book = Workbook()
+    sheets = [
+        ("Panels", panel_rows(building, before, result)),
+        ("Feeders", feeder_rows(building, before, result)),
+    ]
+    first = True
+    for title, rows in sheets:
+        sheet = book.active if first else book.create_sheet(title)
+        sheet.title = title
+        first = False
+        header = list(rows[0]) if rows else ["panel"]
+        sheet.append(header)
+        for cell in sheet[1]:
+            cell.font = Font(bold=True)
+        for row in rows:
+            sheet.append([row.get(k) for k in header])
+    summary = book.create_sheet("Summary")
+    for line in [*summary_lines(building, before, result), "", SAFETY]:
+        summary.append([line])
+    buffer = BytesIO()
+    book.save(buffer)
+    return atomic_write_bytes(Path(path), buffer.getvalue())
