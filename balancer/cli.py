@@ -49,6 +49,52 @@ def _panel_options(parser: argparse.ArgumentParser) -> None:
     )
 
 
+def _demand_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("demand loads and feeder check (see docs/demand.md)")
+    group.add_argument(
+        "--rules",
+        metavar="SET|FILE",
+        help="nec2023, nec2020, connected, or a rule file "
+        "(default: nec2023 on 60 Hz systems, connected otherwise)",
+    )
+    group.add_argument(
+        "--occupancy",
+        default="other",
+        help="dwelling, hotel, warehouse or other (default: other)",
+    )
+    group.add_argument(
+        "--feeder-length", type=float, metavar="FT", help="one-way feeder length in feet"
+    )
+    group.add_argument(
+        "--feeder-conductor", metavar="SIZE", help="feeder size for the voltage drop, e.g. '3/0 Al'"
+    )
+    group.add_argument("--ambient", type=float, metavar="DEG_C", help="ambient temperature in °C")
+    group.add_argument(
+        "--conductors", type=int, metavar="N", help="current-carrying conductors together"
+    )
+
+
+def _demand(args: argparse.Namespace, panel: Panel) -> Any:
+    from balancer.demand import DemandOptions, compute_demand
+
+    if args.feeder_length is not None and args.feeder_length <= 0:
+        raise ScheduleError(Problem("--feeder-length", "must be more than 0 feet"))
+    try:
+        return compute_demand(
+            panel,
+            DemandOptions(
+                rules=args.rules,
+                occupancy=args.occupancy,
+                feeder_length_ft=args.feeder_length,
+                feeder_conductor=args.feeder_conductor,
+                ambient_c=args.ambient,
+                current_carrying=args.conductors,
+            ),
+        )
+    except ValueError as exc:  # ambient or conductor count out of the tables' range
+        raise ScheduleError(Problem("--ambient/--conductors", str(exc))) from exc
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="balancer",
@@ -68,6 +114,7 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
     check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     _panel_options(check)
+    _demand_options(check)
 
     balance = commands.add_parser(
         "balance",
@@ -152,17 +199,22 @@ def run_check(args: argparse.Namespace) -> int:
     panel = read_schedule(args.schedule, _overrides(args))
     loads = analyze(panel)
     warnings = _warnings(panel)
+    demand = _demand(args, panel)
+    from balancer.demand import demand_to_dict, loads_section_lines
+
     if args.json:
         _print_json(
             {
                 "panel": report.panel_to_dict(panel),
                 "loads": report.loads_to_dict(loads),
                 "circuits": report.circuits_to_list(panel),
+                "demand": demand_to_dict(demand),
                 "warnings": warnings,
             }
         )
     else:
         print(report.check_text(panel, loads, warnings))
+        print("\n".join(["", *loads_section_lines(demand)]))
     return EXIT_OK
 
 

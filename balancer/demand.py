@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 import re
+import textwrap
 import tomllib
 from collections import defaultdict
 from dataclasses import dataclass, field, replace
@@ -1129,7 +1130,8 @@ def loads_section_lines(result: DemandResult) -> list[str]:
             for b in result.branch_flags
         ]
     out += [f"  Warning: {w}" for w in result.warnings]
-    out += [f"  Caution: {c}" for c in result.cautions]
+    for caution in result.cautions:
+        out += textwrap.wrap(caution, 96, initial_indent="  Caution: ", subsequent_indent=" " * 11)
     return out
 
 
