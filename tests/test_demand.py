@@ -12,6 +12,8 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from balancer.demand import (
     OCCUPANCIES,
@@ -55,7 +57,7 @@ def make_panel(
     circuits = []
     space = 1
     for i, item in enumerate(loads):
-        spec = (
+        spec: dict[str, Any] = (
             dict(item)
             if isinstance(item, dict)
             else dict(zip(("load_class", "load_va", "poles"), item, strict=True))
@@ -643,3 +645,37 @@ def test_two_pole_neutral_part_reduced_only_off_a_wye() -> None:
     # Two phases and neutral of a 4-wire wye: no reduction (220.61(C)(2), F).
     wye = run([item], system="208Y/120")
     assert wye.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
+
+
+@given(
+    loads=st.lists(
+        st.tuples(
+            st.sampled_from(["ltg", "rcpt", "mtr", "htg", "ac", "kitchen", "wh", "ev", "x"]),
+            st.floats(min_value=0.0, max_value=50000.0, allow_nan=False),
+            st.sampled_from([1, 2, 3]),
+        ),
+        min_size=1,
+        max_size=12,
+    ),
+    occupancy=st.sampled_from(OCCUPANCIES),
+)
+@settings(max_examples=60, deadline=None)
+def test_demand_invariants(loads: list[tuple[str, float, int]], occupancy: str) -> None:
+    # The lines carry the whole demand; the demand never exceeds connected load plus the motor
+    # adder and the EV floor; the required current is never below the demand current.
+    result = run(loads, occupancy=occupancy)
+    assert math.fsum(result.phase_demand_va.values()) == pytest.approx(
+        result.total_demand_va, rel=1e-9, abs=1e-6
+    )
+    ev_floor = sum(7200.0 for cls, va, _ in loads if cls == "ev" and va > 0)
+    adder = sum(c.motor_adder_va for c in result.circuits)
+    assert result.total_demand_va <= result.total_connected_va + adder + ev_floor + 1e-6
+    assert result.feeder.required_a >= result.feeder.design_a - 1e-9
+
+
+@given(st.floats(min_value=0.0, max_value=1e6), st.floats(min_value=0.0, max_value=1e6))
+def test_tiers_monotone(first_va: float, second_va: float) -> None:
+    tiers = builtin_rule_set("nec2023").classes["general_lighting"].tiers["dwelling"]
+    low, high = sorted((first_va, second_va))
+    assert apply_tiers(low, tiers) <= apply_tiers(high, tiers) + 1e-9
+    assert apply_tiers(high, tiers) <= high + 1e-9
