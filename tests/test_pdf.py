@@ -111,3 +111,19 @@ def test_pdf_refuses_the_input_and_bad_paper(tmp_path: Path) -> None:
     with pytest.raises(ValueError, match="paper"):
         write_pdf(tmp_path / "x.pdf", panel, analyze(panel), paper="legal")  # type: ignore[arg-type]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["s.xlsx"]
+
+
+def test_demand_summary_and_page(tmp_path: Path) -> None:
+    from balancer.demand import compute_demand
+
+    result = demo_result()
+    demand = compute_demand(result.after_panel)
+    out = write_pdf(
+        tmp_path / "dm.pdf", result.after_panel, result.after, result=result, demand=demand
+    )
+    pages = [_flat(t) for t in _text(out)]
+    assert len(pages) == 4  # summary, directory, work order, demand and feeder check
+    assert f"{demand.total_demand_va:,.0f} VA" in pages[0]
+    assert "Demand load and feeder check" in pages[3]
+    assert demand.feeder.min_ocpd_a is not None
+    assert f"Minimum feeder OCPD {demand.feeder.min_ocpd_a} A" in pages[0]

@@ -12,7 +12,7 @@ from writer_demo import DEMO_NOTICE, demo_panel, demo_result
 from balancer.analysis import analyze
 from balancer.errors import BalancerError
 from balancer.io.reader import read_schedule
-from balancer.io.writer import SAFETY_NOTES, write_workbook
+from balancer.io.writer import SAFETY_NOTES, row_role, write_workbook
 
 ATOL_VA = 1e-6
 
@@ -40,6 +40,7 @@ def test_sheet_names_are_plain_english(written: Path) -> None:
         "Panel",
         "Trade-off",
         "Phasors",
+        "Work order",
         "Notes",
     ]
 
@@ -186,6 +187,37 @@ def test_extra_sheets_are_added_before_notes(tmp_path: Path) -> None:
     wb = load_workbook(out)
     assert wb.sheetnames[-2:] == ["Demand", "Notes"]
     assert [c.value for c in wb["Demand"][2]] == ["General lighting", 7500.0]
+
+
+def test_row_roles() -> None:
+    assert row_role([]) == "blank"
+    assert row_role([None, ""]) == "blank"
+    assert row_role(["Work order - panel X"]) == "title"
+    assert row_role(["Step", "Action", "Circuit", "Description"]) == "header"
+    assert row_role(["Caution", "Work only de-energised."]) == "data"
+    assert row_role(["Total", 3, 2400.0, 2400.0]) == "data"
+
+
+def test_work_order_sheet_follows_the_planner(written: Path) -> None:
+    ws = load_workbook(written)["Work order"]
+    rows = [r for r in ws.iter_rows(values_only=True)]
+    header = next(i for i, r in enumerate(rows) if r[0] == "Step")
+    steps = [r for r in rows[header + 1 :] if isinstance(r[0], int)]
+    assert {r[3] for r in steps} == {"Demo lighting west", "Demo receptacles office"}
+    assert ws.cell(header + 1, 1).fill.fgColor.rgb.endswith("33475B")  # styled as a header
+
+
+def test_demand_sheet_when_demand_is_given(tmp_path: Path) -> None:
+    from balancer.demand import compute_demand
+
+    result = demo_result()
+    demand = compute_demand(result.after_panel)
+    out = write_workbook(result, tmp_path / "d.xlsx", demand=demand)
+    wb = load_workbook(out)
+    assert wb.sheetnames[-3:] == ["Work order", "Demand", "Notes"]
+    values = [r for r in wb["Demand"].iter_rows(values_only=True)]
+    total = next(r for r in values if r[0] == "Total")
+    assert total[3] == pytest.approx(round(demand.total_demand_va))
 
 
 def test_extra_sheet_name_clash_is_refused(tmp_path: Path) -> None:

@@ -19,12 +19,15 @@ from balancer.io.writer import (
     ExtraSheet,
     _atomic,
     refuse_input_path,
+    row_role,
 )
 from balancer.panel import Panel
 from balancer.result import BalanceResult
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
+
+    from balancer.demand import DemandResult
 
 Paper = Literal["letter", "a4"]
 PAPER_IN: dict[Paper, tuple[float, float]] = {"letter": (8.5, 11.0), "a4": (8.27, 11.69)}
@@ -87,26 +90,49 @@ class _Page:
         align: Sequence[str] | None = None,
     ) -> None:
         """Rows of cells; text is cut with an ellipsis where it would overflow its column."""
+        align = align or ["left"] * len(header)
+        self.header_band(header, widths_in, size=size, align=align)
+        for row in rows:
+            self.data_row(row, widths_in, size=size, align=align)
+        self.y_in += size / _POINTS * 1.55 * 0.6
+
+    def header_band(
+        self,
+        header: Sequence[str],
+        widths_in: Sequence[float],
+        *,
+        size: float,
+        align: Sequence[str],
+    ) -> None:
         step = size / _POINTS * 1.55
         x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
-        total = sum(widths_in)
-        align = align or ["left"] * len(header)
-        self.rect(MARGIN_IN, self.y_in - 0.03, total, step, _HEAD)
-        for x, w, title, how in zip(x_positions, widths_in, header, align, strict=True):
+        self.rect(MARGIN_IN, self.y_in - 0.03, sum(widths_in), step, _HEAD)
+        for x, w, title, how in zip(x_positions, widths_in, header, align, strict=False):
             self._cell(x, w, title, size, how, color="white", weight="bold")
         self.y_in += step
-        for row in rows:
-            for x, w, value, how in zip(x_positions, widths_in, row, align, strict=False):
-                self._cell(x, w, _fmt(value), size, how)
-            self.y_in += step
-            self.line(MARGIN_IN, MARGIN_IN + total, self.y_in - 0.04)
-        self.y_in += step * 0.6
+
+    def data_row(
+        self, row: Sequence[Any], widths_in: Sequence[float], *, size: float, align: Sequence[str]
+    ) -> None:
+        step = size / _POINTS * 1.55
+        x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
+        for x, w, value, how in zip(x_positions, widths_in, row, align, strict=False):
+            if how == "auto":  # numbers right, text left
+                number = isinstance(value, (int, float)) and not isinstance(value, bool)
+                how = "right" if number else "left"
+            self._cell(x, w, _fmt(value), size, how)
+        self.y_in += step
+        self.line(MARGIN_IN, MARGIN_IN + sum(widths_in), self.y_in - 0.04)
+
+    @property
+    def full(self) -> bool:
+        return self.y_in > self.height_in - MARGIN_IN - 0.5
 
     def _cell(self, x: float, w: float, text: str, size: float, how: str, **kw: Any) -> None:
         fits = max(3, int(w / (size / _POINTS * 0.6)))  # DejaVu Sans is about 0.6 em wide
         if len(text) > fits:
             text = text[: fits - 1] + "…"
-        if how == "right":
+        if how in ("right", "auto"):
             self.text(x + w - 0.05, self.y_in, text, size=size, ha="right", **kw)
         elif how == "center":
             self.text(x + w / 2, self.y_in, text, size=size, ha="center", **kw)
@@ -160,7 +186,13 @@ def _new_page(paper: Paper, panel: Panel) -> _Page:
     return page
 
 
-def _summary_page(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None) -> None:
+def _summary_page(
+    page: _Page,
+    panel: Panel,
+    loads: Loads,
+    result: BalanceResult | None,
+    demand: DemandResult | None = None,
+) -> None:
     page.heading(f"Panel {panel.name}", size=15)
     facts = [
         ("System", panel.system.label()),
@@ -248,6 +280,20 @@ def _summary_page(page: _Page, panel: Panel, loads: Loads, result: BalanceResult
         page.text(MARGIN_IN, page.y_in, label, size=9)
         page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
         page.y_in += 0.19
+    if demand is not None:
+        feeder = demand.feeder
+        figures = [
+            ("Demand load", f"{demand.total_demand_va:,.0f} VA ({demand.rule_set.title})"),
+            ("Feeder sizing current", f"{feeder.required_a:,.1f} A on line {feeder.design_line}"),
+            (
+                "Minimum feeder OCPD",
+                f"{feeder.min_ocpd_a} A" if feeder.min_ocpd_a is not None else "not sized",
+            ),
+        ]
+        for label, value in figures:
+            page.text(MARGIN_IN, page.y_in, label, size=9)
+            page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
+            page.y_in += 0.19
     if loads.unplaced:
         page.paragraph("Not placed, left out of the figures: " + ", ".join(loads.unplaced))
     page.y_in += 0.35
@@ -437,18 +483,42 @@ def _place(spaces: Sequence[int], lines: Sequence[str]) -> str:
 
 
 def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]) -> None:
+    """Free-form rows, read as the workbook reads them (see :func:`row_role`): titles, table
+    headers, key/value pairs (long text wrapped) and table rows; a new page when one fills."""
+    size = 8.0
     for title, rows in sections:
         if not rows:
             continue
         page = make()
         page.heading(title)
-        header = [str(v) for v in rows[0]]
-        width = pages[0].width_in - 2 * MARGIN_IN
-        first = min(2.6, width * 0.4)
-        rest = (width - first) / max(1, len(header) - 1)
-        widths = [first] + [rest] * (len(header) - 1)
-        body = [list(r) + [None] * (len(header) - len(r)) for r in rows[1:]]
-        page.table(header, body, widths, size=8, align=["left"] + ["right"] * (len(header) - 1))
+        usable = page.width_in - 2 * MARGIN_IN
+        widths: list[float] = [usable]
+        align: list[str] = ["left"]
+        for values in rows:
+            if page.full:
+                pages.append(page)
+                page = make()
+                page.heading(f"{title} (continued)")
+            role = row_role(values)
+            if role == "blank":
+                page.y_in += 0.08
+            elif role == "title":
+                page.heading(str(values[0]), size=10.5)
+            elif role == "header":
+                first = min(2.4, usable * 0.35)
+                rest = (usable - first) / max(1, len(values) - 1)
+                widths = [first] + [rest] * (len(values) - 1)
+                align = ["left"] + ["auto"] * (len(values) - 1)
+                page.header_band([str(v) for v in values], widths, size=size, align=align)
+            elif len(values) == 2 and isinstance(values[1], str) and len(values[1]) > 60:
+                page.paragraph(f"{values[0]}: {values[1]}", size=size)
+            else:
+                if len(values) > len(widths):  # key/value rows before any header
+                    first = min(2.4, usable * 0.35)
+                    rest = (usable - first) / max(1, len(values) - 1)
+                    widths = [first] + [rest] * (len(values) - 1)
+                    align = ["left"] * len(values)
+                page.data_row(values, widths, size=size, align=align)
         pages.append(page)
 
 
@@ -459,20 +529,27 @@ def pdf_pages(
     result: BalanceResult | None = None,
     paper: Paper = "letter",
     sections: Sequence[ExtraSheet] = (),
+    demand: DemandResult | None = None,
 ) -> list[Figure]:
-    """The PDF's pages as figures: summary, directory, work order (with moves), extra sections."""
+    """The PDF's pages as figures: summary, directory, work order (with moves), demand and
+    feeder check (when given), extra sections."""
     pages: list[_Page] = []
 
     def make() -> _Page:
         return _new_page(paper, panel)
 
     first = make()
-    _summary_page(first, panel, loads, result)
+    _summary_page(first, panel, loads, result, demand)
     pages.append(first)
     _directory_pages(pages, make, panel)
     if result is not None and result.moves:
         _work_order_pages(pages, make, result)
-    _section_pages(pages, make, sections)
+    extra = list(sections)
+    if demand is not None:
+        from balancer.demand import demand_sheet_rows
+
+        extra.insert(0, ("Demand load and feeder check", demand_sheet_rows(demand)))
+    _section_pages(pages, make, extra)
     for number, page in enumerate(pages, start=1):
         page.text(
             page.width_in - MARGIN_IN,
@@ -493,6 +570,7 @@ def write_pdf(
     result: BalanceResult | None = None,
     paper: Paper = "letter",
     sections: Sequence[ExtraSheet] = (),
+    demand: DemandResult | None = None,
     input_path: Path | str | None = None,
 ) -> Path:
     """Write the panel's PDF to ``path`` (atomically) and return the path.
@@ -509,7 +587,10 @@ def write_pdf(
     paper
         ``"letter"`` (8.5 × 11 in) or ``"a4"`` (210 × 297 mm).
     sections
-        Extra ``(title, rows)`` tables (demand loads, feeder check), first row the header.
+        Extra ``(title, rows)`` tables, free-form rows as the workbook's extra sheets take them.
+    demand
+        Demand loads and feeder check (:func:`balancer.demand.compute_demand`): a few lines on
+        the summary and a page of their own.
     input_path
         The schedule that was read, when known.
     """
@@ -523,7 +604,9 @@ def write_pdf(
 
     def write(tmp: Path) -> None:
         with rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
-            figures = pdf_pages(panel, loads, result=result, paper=paper, sections=sections)
+            figures = pdf_pages(
+                panel, loads, result=result, paper=paper, sections=sections, demand=demand
+            )
             with PdfPages(
                 tmp, metadata={"Title": f"Panel {panel.name}", "Creator": "balancer"}
             ) as pdf:

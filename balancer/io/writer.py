@@ -14,7 +14,7 @@ import tempfile
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from openpyxl import Workbook
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
@@ -25,6 +25,9 @@ from balancer.analysis import Loads, share_by_line
 from balancer.errors import BalancerError
 from balancer.panel import Circuit, Panel
 from balancer.result import BalanceResult, SolveStatus
+
+if TYPE_CHECKING:
+    from balancer.demand import DemandResult
 
 ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
 """A sheet another part of balancer adds: its title and its rows (the first row is the header)."""
@@ -571,20 +574,48 @@ def _notes(ws: Worksheet) -> None:
     ws.print_options.horizontalCentered = False
 
 
+HEADER_MIN_CELLS = 4
+
+
+def row_role(values: Sequence[Any]) -> str:
+    """How an extra sheet's row reads: ``blank``, ``title`` (one cell), ``header`` (four or more
+    cells, all text) or ``data``. Other parts of balancer hand over free-form rows (a title, key
+    and value pairs, then tables), so the look is taken from the rows themselves."""
+    cells = [v for v in values if v is not None and v != ""]
+    if not cells:
+        return "blank"
+    if len(values) == 1:
+        return "title"
+    if len(cells) >= HEADER_MIN_CELLS and all(isinstance(v, str) for v in values):
+        return "header"
+    return "data"
+
+
 def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
     ws.title = title[:31]
-    if not rows:
-        return
-    _header(ws, 1, [str(v) for v in rows[0]])
-    widths = [max(10, min(50, len(str(v)) + 2)) for v in rows[0]]
-    for r, values in enumerate(rows[1:], start=2):
+    widths: list[float] = []
+    for r, values in enumerate(rows, start=1):
+        role = row_role(values)
+        if role == "header":
+            _header(ws, r, [str(v) for v in values])
         for c, value in enumerate(values, start=1):
-            fmt = "#,##0.##" if isinstance(value, float) else None
-            _put(ws, r, c, value, fmt)
-            if c <= len(widths):
-                widths[c - 1] = max(widths[c - 1], min(50, len(str(value)) + 2))
+            if role == "header":
+                continue
+            cell = ws.cell(row=r, column=c, value=value)
+            if isinstance(value, float):
+                cell.number_format = "#,##0.0" if abs(value) < 100 else VA
+            if role == "title":
+                cell.font = _SECTION_FONT
+            elif c == 1 and isinstance(value, str):
+                cell.font = Font(bold=True)
+        for c, value in enumerate(values, start=1):
+            if role == "title":
+                break
+            while len(widths) < c:
+                widths.append(10)
+            widths[c - 1] = max(widths[c - 1], min(60, len(str(value)) + 2))
     _widths(ws, widths)
-    _print_setup(ws, landscape=True, title_rows="1:1")
+    _print_setup(ws, landscape=True, title_rows=None)
 
 
 HARMONIC_MARGIN_A = 0.05  # below this the RMS and fundamental neutral currents count as equal
@@ -606,6 +637,8 @@ def write_workbook(
     *,
     input_path: Path | str | None = None,
     extra_sheets: Sequence[ExtraSheet] = (),
+    demand: DemandResult | None = None,
+    work_order: bool = True,
     phasor_diagram: bool = True,
     harmonic_neutral_rms_a: Sequence[float | None] | None = None,
 ) -> Path:
@@ -620,8 +653,13 @@ def write_workbook(
     input_path
         The schedule that was read, when known.
     extra_sheets
-        ``(title, rows)`` sheets from other parts of balancer (demand and feeder check, work
-        order); the first row of each is its header. Placed after the built-in sheets.
+        More ``(title, rows)`` sheets, placed after the built-in ones. Rows are free-form: a
+        one-cell row is a title, a row of four or more text cells a table header.
+    demand
+        Demand loads and feeder check (:func:`balancer.demand.compute_demand`), as a "Demand"
+        sheet.
+    work_order
+        Add the "Work order" sheet (steps through free spaces) when breakers move.
     phasor_diagram
         Add the "Phasors" sheet with the diagram image (needs matplotlib and Pillow).
     harmonic_neutral_rms_a
@@ -662,8 +700,17 @@ def write_workbook(
         if harmonic_neutral_rms_a is None:
             harmonic_neutral_rms_a = harmonic_neutral(result.before, result.after)
         _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
+    sheets = list(extra_sheets)
+    if demand is not None:
+        from balancer.demand import demand_sheet_rows
+
+        sheets.insert(0, ("Demand", demand_sheet_rows(demand)))
+    if work_order and result.moves:
+        from balancer.workorder import work_order_for, work_order_rows
+
+        sheets.insert(0, ("Work order", work_order_rows(work_order_for(result))))
     taken = set(wb.sheetnames)
-    for title, rows in extra_sheets:
+    for title, rows in sheets:
         name = title[:31]
         if name in taken:
             raise ValueError(f"extra sheet {title!r} would repeat a sheet name")
