@@ -822,12 +822,8 @@ def _feeder(
     min_ocpd = cu = al = None
     if rules.feeder_sizing:
         min_ocpd = next_standard_rating(required_a)
-        cu = select_conductor(
-            required_a / factor, "cu", (min_ocpd or 0) / factor if min_ocpd else None
-        )
-        al = select_conductor(
-            required_a / factor, "al", (min_ocpd or 0) / factor if min_ocpd else None
-        )
+        cu = select_conductor(required_a, "cu", min_ocpd, factor=factor)
+        al = select_conductor(required_a, "al", min_ocpd, factor=factor)
         if cu is None or al is None:
             notes.append(
                 "no single conductor up to 500 kcmil carries the load: "

@@ -199,3 +199,11 @@ def test_parse_conductor(text: str, expected: Conductor | None) -> None:
 def test_conductor_text() -> None:
     assert str(Conductor("250", "al")) == "250 kcmil Al"
     assert str(Conductor("1/0", "cu")) == "1/0 AWG Cu"
+
+
+def test_240_4_b_applies_to_the_adjusted_ampacity() -> None:
+    # 3 AWG Cu: 100 A × 0.8 = 80 A adjusted. A 90 A device: next rating above 80 A is 80 A
+    # itself, below 90, so 3 AWG is not protected; 2 AWG (115 × 0.8 = 92 A) is (240.4(B), C).
+    assert select_conductor(75.0, "cu", ocpd_a=90, factor=0.8) == "2"
+    # 4 AWG Cu: 85 × 0.94 = 79.9 A; the next rating above is 80 A: an 80 A device protects it.
+    assert select_conductor(75.0, "cu", ocpd_a=80, factor=0.94) == "4"
