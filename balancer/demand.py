@@ -36,7 +36,7 @@ from balancer.feeder import (
     voltage_drop_pct,
 )
 from balancer.panel import Circuit, Panel
-from balancer.systems import Line, System
+from balancer.systems import Line, System, get_system
 
 Method = Literal["factor", "tiers", "units"]
 BUILTIN_RULE_SETS = ("nec2023", "nec2020", "connected")
@@ -348,6 +348,15 @@ def resolve_rule_set(rules: str | Path | RuleSet | None, system: System) -> Rule
             )
         )
     return load_rule_set(path)
+
+
+def check_choices(rules: str | Path | None, occupancy: str) -> None:
+    """Raise the error a bad rule set or occupancy would give, before any long computation."""
+    normalise_occupancy(occupancy)
+    if rules is not None and isinstance(rules, str | Path):
+        key = str(rules).strip().lower().replace(" ", "").replace("-", "")
+        if key not in BUILTIN_RULE_SETS:
+            resolve_rule_set(rules, get_system("208Y/120"))
 
 
 def normalise_occupancy(text: str) -> str:

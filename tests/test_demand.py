@@ -23,6 +23,7 @@ from balancer.demand import (
     Tier,
     apply_tiers,
     builtin_rule_set,
+    check_choices,
     classify,
     compute_demand,
     default_rule_set_name,
@@ -679,3 +680,12 @@ def test_tiers_monotone(first_va: float, second_va: float) -> None:
     low, high = sorted((first_va, second_va))
     assert apply_tiers(low, tiers) <= apply_tiers(high, tiers) + 1e-9
     assert apply_tiers(high, tiers) <= high + 1e-9
+
+
+def test_check_choices_fails_early_on_bad_input(tmp_path: Path) -> None:
+    check_choices("nec2023", "dwelling")
+    check_choices(None, "other")
+    with pytest.raises(ScheduleError, match="--occupancy"):
+        check_choices(None, "spaceport")
+    with pytest.raises(ScheduleError, match="--rules"):
+        check_choices(str(tmp_path / "missing.toml"), "other")
