@@ -351,3 +351,93 @@ def test_analysis_reports_both_unbalance_figures() -> None:
     ia, ib, ic = currents
     closed = math.sqrt(ia * ia + ib * ib + ic * ic - ia * ib - ib * ic - ic * ia)
     assert loads.neutral_a == pytest.approx(closed)
+
+
+def wave_angle(wave: np.ndarray, x: np.ndarray) -> float:
+    """Angle of the fundamental of a sampled wave (its first Fourier coefficient)."""
+    return cmath.phase(np.sum(wave * np.exp(-1j * x)))
+
+
+@pytest.mark.parametrize(
+    ("designation", "circuit", "elements"),
+    [
+        # 3-pole load: three equal delta elements.
+        (
+            "480Y/277",
+            Circuit("m", "demo", 3, 30000.0, spaces=(1, 3, 5), power_factor=0.8),
+            [("A", "B", 10000.0), ("B", "C", 10000.0), ("C", "A", 10000.0)],
+        ),
+        # 3-pole multiwire circuit at 277 V: one line-to-neutral element per pole.
+        (
+            "480Y/277",
+            Circuit("l", "demo", 3, 8310.0, spaces=(1, 3, 5), voltage_v=277.0, power_factor=0.95),
+            [("A", None, 2770.0), ("B", None, 2770.0), ("C", None, 2770.0)],
+        ),
+        # Range with a 120 V part on its first line (B here) and the rest between B and A.
+        (
+            "120/240",
+            Circuit(
+                "r",
+                "demo",
+                2,
+                9000.0,
+                spaces=(3, 5),
+                voltage_v=240.0,
+                neutral_va=1200.0,
+                power_factor=0.98,
+            ),
+            [("B", None, 1200.0), ("B", "A", 7800.0)],
+        ),
+        # 3-wire delta, 2-pole and 3-pole loads only.
+        (
+            "240 delta",
+            Circuit("p", "demo", 2, 4800.0, spaces=(4, 6), power_factor=0.7),
+            [("B", "C", 4800.0)],
+        ),
+    ],
+)
+def test_time_domain_matches_other_connections(
+    designation: str, circuit: Circuit, elements: list[tuple[str, str | None, float]]
+) -> None:
+    """Multi-pole, multiwire and neutral-share circuits with harmonics: sampled RMS line and
+    neutral currents equal the phasor figures (C, Parseval)."""
+    system = get_system(designation)
+    spectrum = {3: 0.5, 5: 0.3, 7: 0.1}
+    profiles = {"demo": Profile("demo", "invented", tuple(spectrum.items()))}
+    tagged = Circuit(
+        circuit.id,
+        circuit.description,
+        circuit.poles,
+        circuit.load_va,
+        spaces=circuit.spaces,
+        power_factor=circuit.power_factor,
+        voltage_v=circuit.voltage_v,
+        neutral_va=circuit.neutral_va,
+        extra=(("Harmonics", "demo"),),
+    )
+    panel = panel_of(system, [tagged])
+    loads = analyze(panel, profiles)
+    t = time_axis(system)
+    x = 2 * math.pi * system.frequency_hz * t
+    theta = math.acos(abs(circuit.power_factor)) * np.sign(circuit.power_factor)
+    line_waves = {line: np.zeros_like(t) for line in system.lines}
+    for source, sink, load_va in elements:
+        v = voltage_wave(system, source, t)
+        if sink is None:
+            rms_a = load_va / system.line_to_neutral_v[system.lines.index(source)]
+        else:
+            v = v - voltage_wave(system, sink, t)
+            rms_a = load_va / system.line_to_line_v
+        current = load_wave(rms_a, wave_angle(v, x), theta, spectrum, x)
+        line_waves[source] += current
+        if sink is not None:
+            line_waves[sink] -= current
+    for line in system.lines:
+        expected = sampled_rms(line_waves[line])
+        assert loads.line_rms_a[line] == pytest.approx(expected, rel=RTOL_TIME, abs=1e-9)
+    neutral = sampled_rms(sum(line_waves.values()))
+    if system.neutral:
+        assert loads.neutral_rms_a == pytest.approx(neutral, rel=RTOL_TIME, abs=1e-9)
+    else:
+        assert neutral == pytest.approx(0.0, abs=1e-9)
+        assert loads.neutral_rms_a == 0.0
