@@ -74,6 +74,42 @@ def _demand_options(parser: argparse.ArgumentParser) -> None:
     )
 
 
+def _output_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("printout and terminal")
+    group.add_argument(
+        "--pdf",
+        nargs="?",
+        const=True,
+        default=None,
+        metavar="PATH",
+        help="also write a PDF (summary, circuit directory, work order, cautions); "
+        "default name beside the schedule",
+    )
+    group.add_argument(
+        "--paper", choices=("letter", "a4"), default="letter", help="PDF page size (default letter)"
+    )
+    group.add_argument(
+        "--no-color", action="store_true", help="plain text only, even on a colour terminal"
+    )
+
+
+def _pdf_path(args: argparse.Namespace, suffix: str) -> Path | None:
+    if args.pdf is None:
+        return None
+    if args.pdf is True:
+        return args.schedule.with_name(f"{args.schedule.stem}{suffix}.pdf")
+    return Path(args.pdf)
+
+
+def _bars(args: argparse.Namespace, before: Any, after: Any = None, neutral: bool = True) -> str:
+    from balancer.textbars import before_after_bars, phase_bars, use_color
+
+    color = use_color(sys.stdout, args.no_color)
+    if after is None:
+        return "\n".join(phase_bars(before, color=color, show_neutral=neutral))
+    return "\n".join(before_after_bars(before, after, color=color, show_neutral=neutral))
+
+
 def _demand(args: argparse.Namespace, panel: Panel) -> Any:
     from balancer.demand import DemandOptions, compute_demand
 
@@ -109,12 +145,13 @@ def build_parser() -> argparse.ArgumentParser:
         "check",
         help="report per-line loads, imbalance and currents of a schedule",
         description="Read a schedule (.xlsx or .csv) and report per-line loads, imbalance, "
-        "line and neutral currents. Nothing is written.",
+        "line and neutral currents. Nothing is written unless --pdf is given.",
     )
     check.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
     check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     _panel_options(check)
     _demand_options(check)
+    _output_options(check)
 
     balance = commands.add_parser(
         "balance",
@@ -165,6 +202,7 @@ def build_parser() -> argparse.ArgumentParser:
         help="absolute tolerance on the phase spread in VA (default 1)",
     )
     _panel_options(balance)
+    _output_options(balance)
 
     demo = commands.add_parser(
         "demo",
@@ -215,6 +253,17 @@ def run_check(args: argparse.Namespace) -> int:
     else:
         print(report.check_text(panel, loads, warnings))
         print("\n".join(["", *loads_section_lines(demand)]))
+        print("\n" + _bars(args, loads, neutral=panel.system.neutral))
+    pdf = _pdf_path(args, "")
+    if pdf is not None:
+        from balancer.io.pdf import write_pdf
+
+        if _same_file(args.schedule, pdf):
+            raise ScheduleError(Problem("--pdf", f"{pdf} is the input schedule"))
+        written = write_pdf(
+            pdf, panel, loads, paper=args.paper, demand=demand, input_path=args.schedule
+        )
+        print(f"Wrote {written}", file=sys.stderr if args.json else sys.stdout)
     return EXIT_OK
 
 
@@ -327,10 +376,31 @@ def _options(args: argparse.Namespace) -> Any:
 
 def run_balance(args: argparse.Namespace) -> int:
     result, written = balance_file(args.schedule, args.output, _options(args), _overrides(args))
+    pdf = _pdf_path(args, "-balanced")
+    if pdf is not None:
+        from balancer.io.pdf import write_pdf
+
+        if _same_file(args.schedule, pdf) or _same_file(written, pdf):
+            raise ScheduleError(Problem("--pdf", f"{pdf} is the input schedule or the workbook"))
+        pdf = write_pdf(
+            pdf,
+            result.after_panel,
+            result.after,
+            result=result,
+            paper=args.paper,
+            input_path=args.schedule,
+        )
     if args.json:
-        _print_json(balance_json(result, written))
+        data = balance_json(result, written)
+        if pdf is not None:
+            data["pdf"] = str(pdf)
+        _print_json(data)
     else:
         print(balance_text(result, written))
+        neutral = result.after_panel.system.neutral
+        print("\n" + _bars(args, result.before, result.after, neutral=neutral))
+        if pdf is not None:
+            print(f"Wrote {pdf}")
     return EXIT_OK
 
 
