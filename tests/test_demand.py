@@ -254,6 +254,7 @@ def test_ev_floor_and_continuous_default() -> None:
     result = run([("ev", 6000.0, 2), ("ev", 9600.0, 2)])
     assert demand_of(result, "ev") == pytest.approx(7200.0 + 9600.0, abs=ATOL_VA)
     assert all(c.continuous for c in result.circuits)
+    assert "each at least 7,200 VA" in next(c.rule for c in result.by_class if c.name == "ev")
 
 
 def test_spares_count_nothing() -> None:
