@@ -723,6 +723,8 @@ def _by_class(
             text = f"{rule.pool_clause or rule.clause}; counted with {target} ({occupancy})"
         elif rule.method == "tiers":
             text += f"; {_tiers_text(rule.tiers_for(occupancy))}"
+        elif rule.method == "factor" and rule.min_each_va:
+            text += f"; each at least {rule.min_each_va:,.0f} VA"
         elif rule.method == "units":
             text += f"; {sum(1 for c in members if c.connected_va > 0)} units"
         if any(c.motor_adder_va for c in members):
