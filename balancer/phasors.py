@@ -48,7 +48,9 @@ def circuit_line_currents(
 
     A 1-pole circuit is a line-to-neutral load; a 2-pole circuit a line-to-line load between its
     two lines (I_pq leaves on p, returns on q); a 3-pole circuit a balanced load, taken as three
-    equal delta branches so the result holds on wye and delta supplies alike.
+    equal delta branches so the result holds on wye and delta supplies alike. The fundamental
+    of a sinusoidal load only, and no check of the connection: see
+    :func:`~balancer.systems.check_connection` and :func:`circuit_harmonic_currents`.
     """
     if len(lines) == 1:
         (line,) = lines
