@@ -1,0 +1,151 @@
+"""Batch runs: many schedules in parallel, one bad file reported without stopping the rest.
+
+Schedules are the bundled demo samples (invented data) copied into a temporary folder.
+"""
+
+from __future__ import annotations
+
+import io
+import shutil
+from pathlib import Path
+
+import pytest
+from openpyxl import load_workbook
+
+from balancer.batch import (
+    SUMMARY_NAME,
+    Progress,
+    Row,
+    Task,
+    exit_status,
+    find_schedules,
+    make_tasks,
+    run_batch,
+    summary_text,
+    write_summary,
+)
+from balancer.io.reader import PanelOverrides
+from balancer.result import BalanceOptions
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
+GOOD = ["office-208y120.xlsx", "salon-208y120.csv", "bakery-120-240.xlsx"]
+
+
+@pytest.fixture
+def folder(tmp_path: Path) -> Path:
+    for name in GOOD:
+        shutil.copy(SAMPLES / name, tmp_path / name)
+    # a workbook that is not a zip file at all: the reader must name it and say why
+    (tmp_path / "corrupt.xlsx").write_bytes(b"PK\x03\x04 this is not really a workbook" * 20)
+    # what balancer writes itself, and a spreadsheet lock file: never read as inputs
+    (tmp_path / "office-208y120-balanced.xlsx").write_bytes(b"")
+    (tmp_path / "~$office-208y120.xlsx").write_bytes(b"")
+    (tmp_path / SUMMARY_NAME).write_bytes(b"")
+    return tmp_path
+
+
+def test_find_schedules_skips_outputs_and_lock_files(folder: Path) -> None:
+    names = [p.name for p in find_schedules([folder])]
+    assert names == sorted([*GOOD, "corrupt.xlsx"])
+
+
+def _tasks(folder: Path, mode: str, out: Path | None = None) -> list[Task]:
+    return make_tasks(
+        [folder],
+        mode,  # type: ignore[arg-type]
+        BalanceOptions(time_limit_s=5),
+        PanelOverrides(),
+        out,
+    )
+
+
+def test_check_batch_finishes_the_good_files_and_names_the_corrupt_one(folder: Path) -> None:
+    rows = run_batch(_tasks(folder, "check"), jobs=2)
+    by_name = {Path(r.file).name: r for r in rows}
+    assert set(by_name) == {*GOOD, "corrupt.xlsx"}
+    for name in GOOD:
+        assert by_name[name].status == "checked", by_name[name].error
+        assert by_name[name].imbalance_before_pct is not None
+    bad = by_name["corrupt.xlsx"]
+    assert bad.failed
+    assert "corrupt.xlsx" in bad.error
+    assert "not a readable Excel workbook" in bad.error
+    assert exit_status(rows) == 2  # every failure was bad input
+    text = summary_text(rows, "check")
+    assert "3 of 4 files done, 1 failed" in text
+    assert "corrupt.xlsx" in text
+
+
+@pytest.mark.slow
+def test_balance_batch_writes_revised_workbooks_and_a_summary(folder: Path, tmp_path: Path) -> None:
+    out = tmp_path / "revised"
+    out.mkdir()
+    rows = run_batch(_tasks(folder, "balance", out), jobs=2)
+    done = [r for r in rows if not r.failed]
+    assert len(done) == len(GOOD)
+    for r in done:
+        # proven or not depends on the time limit; either way a checked arrangement is written
+        assert r.status in ("optimal", "feasible"), r.error
+        assert Path(r.output).is_file()
+        assert Path(r.output).parent == out
+        assert r.imbalance_after_pct is not None
+        assert r.imbalance_before_pct is not None
+        assert r.spread_after_va is not None
+        assert r.spread_before_va is not None
+        assert r.spread_after_va <= r.spread_before_va + 1.0
+    summary = write_summary(tmp_path / "summary.xlsx", rows, "balance")
+    sheet = load_workbook(summary)["Summary"]
+    values = list(sheet.iter_rows(values_only=True))
+    assert values[0][:3] == ("File", "Panel", "Status")
+    statuses = {Path(str(v[0])).name: v[2] for v in values[1 : 1 + len(rows)]}
+    assert statuses["corrupt.xlsx"] == "error"
+    assert statuses["office-208y120.xlsx"] in ("optimal", "feasible")
+    assert not list(tmp_path.glob(".summary-*"))  # no temporary file left behind
+    assert exit_status(rows) != 0
+
+
+def test_one_job_runs_in_process_and_keeps_order(folder: Path) -> None:
+    tasks = _tasks(folder, "check")
+    rows = run_batch(tasks, jobs=1)
+    assert [r.file for r in rows] == [str(t.path) for t in tasks]
+
+
+def test_an_unexpected_exception_becomes_a_row() -> None:
+    def explode(task: Task) -> Row:
+        raise RuntimeError("boom")
+
+    task = Task(Path("x.csv"), "check", BalanceOptions(), PanelOverrides())
+    with pytest.raises(RuntimeError):
+        run_batch([task], jobs=1, runner=explode)  # the runner's own contract: never raise
+    from balancer.batch import run_task
+
+    row = run_task(Task(Path("/nonexistent/x.csv"), "check", BalanceOptions(), PanelOverrides()))
+    assert row.failed
+    assert "no such file" in row.error
+
+
+def test_mixed_failures_give_exit_status_one() -> None:
+    rows = [Row("a", status="error", exit_status=2), Row("b", status="error", exit_status=3)]
+    assert exit_status(rows) == 1
+    assert exit_status([Row("a", status="checked")]) == 0
+
+
+class _Terminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_progress_bar_only_on_a_terminal() -> None:
+    quiet = io.StringIO()
+    bar = Progress(3, quiet)
+    for _ in range(3):
+        bar.step("file.csv")
+    assert quiet.getvalue() == ""
+    terminal = _Terminal()
+    bar = Progress(2, terminal, width=10)
+    bar.step("a.csv")
+    bar.step("b.csv")
+    text = terminal.getvalue()
+    assert "[#####.....] 1/2 a.csv" in text
+    assert "[##########] 2/2 b.csv" in text
+    assert text.endswith("\n")
