@@ -238,3 +238,32 @@ def test_every_bundled_profile_names_its_source() -> None:
     for profile in builtin_profiles().values():
         assert profile.source, profile.name
         assert all(2 <= h <= 99 and m >= 0 for h, m in profile.spectrum)
+
+
+def test_non_overlapping_pulses_give_neutral_root_three_times_phase() -> None:
+    """Balanced loads drawing narrow current pulses that do not overlap between phases: the
+    neutral RMS is √3 × the phase RMS (M: Gruzs, IEEE Trans. Industry Applications 26(4), 1990;
+    C: the six pulses per cycle in the neutral do not overlap, so its mean square is the sum of
+    the three phases'). The spectrum is taken by FFT from a sampled 50° raised-cosine pulse."""
+    samples = 7200
+    x = np.arange(samples) * 2 * math.pi / samples
+    width = math.radians(50.0)
+
+    def pulse(at: np.ndarray) -> np.ndarray:
+        offset = (at + math.pi) % (2 * math.pi) - math.pi
+        return np.where(np.abs(offset) < width / 2, np.cos(math.pi * offset / width) ** 2, 0.0)
+
+    wave = pulse(x) - pulse(x - math.pi)
+    coefficients = np.abs(np.fft.rfft(wave))
+    spectrum = tuple(
+        (h, float(coefficients[h] / coefficients[1]))
+        for h in range(2, 100)
+        if coefficients[h] / coefficients[1] > 1e-12
+    )
+    profiles = {"pulses": Profile("pulses", "invented: narrow rectifier pulses", spectrum)}
+    system = get_system("480Y/277")
+    circuits = [with_profile(f"c{i}", s, 2770.0, "pulses") for i, s in enumerate((1, 3, 5))]
+    loads = analyze(panel_of(system, circuits), profiles)
+    assert loads.line_rms_a["A"] == pytest.approx(10.0)
+    assert loads.neutral_rms_a == pytest.approx(math.sqrt(3) * 10.0, rel=1e-6)
+    assert loads.neutral_exceeds_phase
