@@ -121,8 +121,12 @@ def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Load
             parts = circuit_harmonic_currents(
                 system, circuit_lines, load_va, pf, spectrum, volts, neutral_va
             )
-            sinusoidal = circuit_harmonic_currents(
-                system, circuit_lines, load_va, pf, None, volts, neutral_va
+            sinusoidal = (
+                circuit_harmonic_currents(
+                    system, circuit_lines, load_va, pf, None, volts, neutral_va
+                )
+                if spectrum
+                else parts
             )
             circuit_kva = circuit_power(
                 system, circuit_lines, load_va, pf, spectrum, volts, neutral_va

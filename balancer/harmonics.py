@@ -13,7 +13,7 @@ import re
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass
-from functools import cache
+from functools import cache, lru_cache
 from importlib import resources
 from pathlib import Path
 
@@ -51,6 +51,7 @@ class Profile:
         return tuple(h for h, _ in self.spectrum if h % 3 == 0 and h % 2 == 1)
 
 
+@lru_cache(maxsize=4096)  # analysis looks classes up once per circuit per arrangement
 def _key(text: str) -> str:
     return re.sub(r"[^a-z0-9]", "", text.lower())
 
