@@ -1,0 +1,275 @@
+"""How much balance each extra move buys on a placed panel: the best spread reachable with at most
+0, 1, 2, … moves, each row as proven as the optimiser could make it, and the fewest moves that
+reach a target imbalance.
+
+Every re-landed breaker on a live building is an outage, labour and risk, so the table lets the
+person paying for the work choose where to stop.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, replace
+from typing import Any
+
+from balancer.errors import SolverError
+from balancer.panel import Panel
+from balancer.result import BalanceOptions, BalanceResult, SolveStatus, TradeoffRow
+
+BalanceFn = Callable[[Panel, BalanceOptions], BalanceResult]
+
+
+@dataclass(frozen=True, slots=True)
+class Tradeoff:
+    """Rows by move budget, the arrangement behind each, and what the table leaves out."""
+
+    rows: tuple[TradeoffRow, ...]
+    results: tuple[BalanceResult, ...]
+    full_moves: int  # moves of the best arrangement found with no move limit
+    capped: bool  # True when the table stops before ``full_moves``
+    notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class TargetAnswer:
+    """Fewest moves that reach a target imbalance, or why none is given."""
+
+    target_pct: float
+    moves: int | None
+    proven: bool
+    message: str
+
+
+def count_moves(before: Panel, after: Panel) -> int:
+    """Circuits that were placed before and sit in other spaces after (new breakers excluded)."""
+    where = {c.id: c.spaces for c in after.circuits}
+    return sum(1 for c in before.circuits if c.spaces and where.get(c.id) != c.spaces)
+
+
+def _default_balance() -> BalanceFn:
+    from balancer.optimize import balance  # type: ignore[attr-defined,unused-ignore]
+
+    return balance  # type: ignore[no-any-return,unused-ignore]
+
+
+def tradeoff(
+    panel: Panel,
+    options: BalanceOptions | None = None,
+    *,
+    max_moves: int | None = None,
+    balance_fn: BalanceFn | None = None,
+) -> Tradeoff:
+    """The best balance for each move budget from 0 up to the unlimited optimum's move count.
+
+    Parameters
+    ----------
+    panel
+        A placed panel (its current layout is the starting point).
+    options
+        Engine, time limit, tolerance and the rest; ``max_moves``, ``target_imbalance_pct`` and
+        ``fresh`` are set here per row.
+    max_moves
+        Stop the table at this many moves even when the unlimited optimum needs more.
+    balance_fn
+        The optimiser; ``balancer.optimize.balance`` when None.
+
+    Raises
+    ------
+    SolverError
+        When two rows proven optimal contradict each other (a larger budget proven worse).
+    """
+    options = options or BalanceOptions()
+    solve = balance_fn or _default_balance()
+    base = replace(options, fresh=False, target_imbalance_pct=None)
+    full = solve(panel, replace(base, max_moves=None))
+    full_moves = count_moves(panel, full.after_panel)
+    last = full_moves if max_moves is None else min(full_moves, max_moves)
+    results: list[BalanceResult] = []
+    rows: list[TradeoffRow] = []
+    notes: list[str] = []
+    tolerance = options.tolerance_va
+    for k in range(last + 1):
+        result = full if k == full_moves else solve(panel, replace(base, max_moves=k))
+        used = count_moves(panel, result.after_panel)
+        if used > k:
+            raise SolverError(f"asked for at most {k} moves, the optimiser returned {used}")
+        status = result.status
+        if results and result.after.spread_va > results[-1].after.spread_va + tolerance:
+            # At most k−1 moves is also at most k moves: a worse answer here was not proven.
+            if status is SolveStatus.OPTIMAL and rows[-1].status is SolveStatus.OPTIMAL:
+                raise SolverError(
+                    f"{k} moves proven at {result.after.spread_va:.1f} VA but {k - 1} moves "
+                    f"reach {results[-1].after.spread_va:.1f} VA"
+                )
+            notes.append(f"{k} moves: kept the {k - 1}-move arrangement, which was better")
+            result, status = results[-1], SolveStatus.FEASIBLE
+        results.append(result)
+        rows.append(
+            TradeoffRow(
+                moves=k,
+                spread_va=result.after.spread_va,
+                imbalance_pct=result.after.imbalance_pct,
+                neutral_a=result.after.neutral_a,
+                status=status,
+            )
+        )
+    capped = last < full_moves
+    if capped:
+        notes.append(
+            f"table stops at {last} moves; the best arrangement found needs {full_moves} "
+            f"moves for {full.after.spread_va:,.0f} VA spread ({full.status.value})"
+        )
+    return Tradeoff(tuple(rows), tuple(results), full_moves, capped, tuple(notes))
+
+
+def imbalance_floor_pct(spread_va: float, total_va: float, line_count: int) -> float:
+    """Smallest NEMA imbalance any arrangement with phase spread ≥ ``spread_va`` can have.
+
+    With p the largest line's excess over the average and q the smallest line's shortfall, the
+    imbalance is max(p, q) / average and the spread p + q, so imbalance ≥ spread / 2 / average
+    (equal for two lines). Minimising the spread therefore does not always minimise the NEMA
+    figure on three lines, but this bound holds for every arrangement.
+    """
+    average = total_va / line_count
+    return 0.0 if average <= 0 else max(0.0, spread_va) / 2.0 / average * 100.0
+
+
+def fewest_moves_to(
+    table: Tradeoff,
+    target_pct: float,
+    panel: Panel,
+    *,
+    tolerance_va: float = 1.0,
+    balance_fn: BalanceFn | None = None,
+    options: BalanceOptions | None = None,
+) -> TargetAnswer:
+    """Fewest moves whose best arrangement reaches ``target_pct`` NEMA imbalance.
+
+    The table gives an upper bound (the first row that reaches the target); a row proven
+    optimal whose spread floor (:func:`imbalance_floor_pct`) is above the target proves that
+    budget too small. The answer is ``proven`` when those two meet. When the table cannot
+    settle it and an optimiser is given, it is asked for the target directly.
+    """
+    lines = len(panel.lines)
+    total = table.results[0].after.total_va if table.results else 0.0
+    too_few = -1  # largest budget proven unable to reach the target
+    for row in table.rows:
+        floor = imbalance_floor_pct(row.spread_va - tolerance_va, total, lines)
+        if row.status is SolveStatus.OPTIMAL and floor > target_pct:
+            too_few = row.moves
+    reached = next((row for row in table.rows if row.imbalance_pct <= target_pct), None)
+    if reached is not None and reached.moves == too_few + 1:
+        return TargetAnswer(
+            target_pct,
+            reached.moves,
+            True,
+            f"{reached.moves} move(s) reach {reached.imbalance_pct:.2f} % (target "
+            f"{target_pct:g} %); fewer moves cannot (proven)",
+        )
+    last = table.rows[-1] if table.rows else None
+    if (
+        reached is None
+        and last is not None
+        and not table.capped
+        and too_few == last.moves
+        and table.results[-1].status is SolveStatus.OPTIMAL
+    ):
+        best_floor = imbalance_floor_pct(last.spread_va - tolerance_va, total, lines)
+        return TargetAnswer(
+            target_pct,
+            None,
+            True,
+            f"no number of moves reaches {target_pct:g} %: even the best arrangement "
+            f"({last.spread_va:,.0f} VA spread, proven) cannot go below {best_floor:.2f} %",
+        )
+    if balance_fn is not None:
+        asked = balance_fn(
+            panel,
+            replace(options or BalanceOptions(), fresh=False, target_imbalance_pct=target_pct),
+        )
+        if asked.after.imbalance_pct <= target_pct:
+            moves = count_moves(panel, asked.after_panel)
+            if reached is None or moves < reached.moves:
+                proven = moves == too_few + 1
+                return TargetAnswer(
+                    target_pct,
+                    moves,
+                    proven,
+                    f"{moves} move(s) reach {asked.after.imbalance_pct:.2f} % (target "
+                    f"{target_pct:g} %)" + ("; fewer cannot (proven)" if proven else ""),
+                )
+    if reached is not None:
+        return TargetAnswer(
+            target_pct,
+            reached.moves,
+            False,
+            f"{reached.moves} move(s) reach {reached.imbalance_pct:.2f} % (target "
+            f"{target_pct:g} %); not proven that fewer cannot",
+        )
+    return TargetAnswer(
+        target_pct,
+        None,
+        False,
+        f"no arrangement found reaches {target_pct:g} %; not proven impossible",
+    )
+
+
+def tradeoff_lines(table: Tradeoff) -> list[str]:
+    """Terminal lines: one per move budget."""
+    out = ["Moves  Spread (VA)  Imbalance (%)  Neutral (A)  Status"]
+    for row in table.rows:
+        out.append(
+            f"{row.moves:>5}  {row.spread_va:>11,.0f}  {row.imbalance_pct:>13.2f}  "
+            f"{row.neutral_a:>11.1f}  {_status_text(row.status)}"
+        )
+    out += [f"  note: {n}" for n in table.notes]
+    return out
+
+
+def tradeoff_json(table: Tradeoff) -> list[dict[str, Any]]:
+    """The ``"tradeoff"`` field of the JSON report."""
+    return [
+        {
+            "moves": row.moves,
+            "spread_va": _finite(row.spread_va),
+            "imbalance_pct": _finite(row.imbalance_pct),
+            "neutral_a": _finite(row.neutral_a),
+            "status": row.status.value,
+        }
+        for row in table.rows
+    ]
+
+
+TRADEOFF_HEADER = ("Moves (at most)", "Spread (VA)", "Imbalance (%)", "Neutral (A)", "Status")
+
+
+def tradeoff_rows(table: Tradeoff) -> list[list[Any]]:
+    """Rows for a workbook sheet: a header, one row per move budget, then the notes."""
+    rows: list[list[Any]] = [list(TRADEOFF_HEADER)]
+    rows += [
+        [
+            row.moves,
+            round(row.spread_va, 1),
+            round(row.imbalance_pct, 3),
+            round(row.neutral_a, 2),
+            _status_text(row.status),
+        ]
+        for row in table.rows
+    ]
+    if table.notes:
+        rows.append([])
+        rows += [["Note", n] for n in table.notes]
+    return rows
+
+
+def _status_text(status: SolveStatus) -> str:
+    return {
+        SolveStatus.OPTIMAL: "optimal (proven)",
+        SolveStatus.FEASIBLE: "best found, not proven",
+        SolveStatus.UNCHANGED: "nothing to move",
+    }[status]
+
+
+def _finite(value: float) -> float | None:
+    return value if math.isfinite(value) else None

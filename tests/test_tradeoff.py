@@ -1,0 +1,454 @@
+"""Trade-off table: best spread per move budget against an exhaustive search over layouts,
+monotone in the budget, and the fewest-moves answer for a target imbalance."""
+
+from __future__ import annotations
+
+import importlib
+import itertools
+import math
+import random
+from collections.abc import Iterator
+from dataclasses import replace
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from balancer.analysis import analyze
+from balancer.errors import SolverError
+from balancer.panel import Circuit, Panel
+from balancer.phasors import nema_unbalance_pct
+from balancer.result import BalanceOptions, BalanceResult, SolveStatus
+from balancer.systems import get_system
+from balancer.tradeoff import (
+    count_moves,
+    fewest_moves_to,
+    imbalance_floor_pct,
+    tradeoff,
+    tradeoff_json,
+    tradeoff_lines,
+    tradeoff_rows,
+)
+
+TOL_VA = 1.0  # the optimiser's default absolute tolerance on the spread
+ATOL_VA = 1e-6
+
+
+# --- exhaustive reference --------------------------------------------------------------------
+
+
+def _legal_spans(panel: Panel, circuit: Circuit) -> Iterator[tuple[int, ...]]:
+    if circuit.locked or (circuit.is_spare and circuit.spaces):
+        yield circuit.spaces
+        return
+    geometry = panel.geometry
+    for first in range(1, panel.spaces + 1):
+        if not geometry.fits(first, circuit.poles):
+            continue
+        span = geometry.span(first, circuit.poles)
+        lines = geometry.lines_of(first, circuit.poles)
+        if circuit.poles == 1 and not panel.system.serves_line_to_neutral(lines[0]):
+            continue
+        yield span
+
+
+def _group_ok(panel: Panel, layout: dict[str, tuple[int, ...]]) -> bool:
+    """Members of a multiwire group: distinct lines, consecutive spaces of one side."""
+    groups: dict[str, list[int]] = {}
+    for c in panel.circuits:
+        if c.group:
+            groups.setdefault(c.group, []).extend(layout[c.id])
+    for spaces in groups.values():
+        spaces.sort()
+        lines = [panel.geometry.line_of(s) for s in spaces]
+        if len(set(lines)) != len(lines):
+            return False
+        if any(b - a != 2 for a, b in itertools.pairwise(spaces)):
+            return False
+    return True
+
+
+def all_layouts(panel: Panel) -> Iterator[dict[str, tuple[int, ...]]]:
+    """Every legal layout of the panel's circuits (small panels only)."""
+    circuits = list(panel.circuits)
+    layout: dict[str, tuple[int, ...]] = {}
+    taken: set[int] = set()
+
+    def place(index: int) -> Iterator[dict[str, tuple[int, ...]]]:
+        if index == len(circuits):
+            if _group_ok(panel, layout):
+                yield dict(layout)
+            return
+        circuit = circuits[index]
+        for span in _legal_spans(panel, circuit):
+            if taken & set(span):
+                continue
+            layout[circuit.id] = span
+            taken.update(span)
+            yield from place(index + 1)
+            taken.difference_update(span)
+            del layout[circuit.id]
+
+    yield from place(0)
+
+
+def _spread(panel: Panel, layout: dict[str, tuple[int, ...]]) -> float:
+    phase = dict.fromkeys(panel.lines, 0.0)
+    for c in panel.circuits:
+        lines = [panel.geometry.line_of(s) for s in layout[c.id]]
+        for line in lines:
+            phase[line] += c.load_va / len(lines)
+    return max(phase.values()) - min(phase.values())
+
+
+def brute_best_by_budget(panel: Panel) -> dict[int, tuple[float, dict[str, tuple[int, ...]]]]:
+    """For each move count m, the smallest spread of a layout with exactly m moves."""
+    best: dict[int, tuple[float, dict[str, tuple[int, ...]]]] = {}
+    for layout in all_layouts(panel):
+        moves = sum(1 for c in panel.circuits if c.spaces and layout[c.id] != c.spaces)
+        spread = _spread(panel, layout)
+        if moves not in best or spread < best[moves][0] - ATOL_VA:
+            best[moves] = (spread, layout)
+    return best
+
+
+def brute_at_most(
+    best: dict[int, tuple[float, dict[str, tuple[int, ...]]]], k: int | None
+) -> tuple[float, dict[str, tuple[int, ...]]]:
+    """Best spread with at most k moves, ties to fewer moves."""
+    candidates = [best[m] for m in sorted(best) if k is None or m <= k]
+    return min(candidates, key=lambda pair: pair[0])  # min keeps the first (fewest-moves) tie
+
+
+def _result(panel: Panel, layout: dict[str, tuple[int, ...]], status: SolveStatus) -> BalanceResult:
+    after = panel.with_circuits([c.moved_to(layout[c.id]) for c in panel.circuits])
+    loads = analyze(after)
+    return BalanceResult(
+        before_panel=panel,
+        after_panel=after,
+        before=analyze(panel),
+        after=loads,
+        status=status,
+        engine="exhaustive",
+        tolerance_va=TOL_VA,
+        lower_bound_spread_va=loads.spread_va,
+        moves=(),
+    )
+
+
+def exhaustive_balance(panel: Panel, options: BalanceOptions) -> BalanceResult:
+    """A stand-in optimiser built on the exhaustive search (proven by enumeration)."""
+    best = brute_best_by_budget(panel)
+    if options.target_imbalance_pct is not None:
+        for m in sorted(best):
+            layouts = [
+                lay
+                for lay in all_layouts(panel)
+                if sum(1 for c in panel.circuits if c.spaces and lay[c.id] != c.spaces) == m
+            ]
+            for lay in layouts:
+                result = _result(panel, lay, SolveStatus.OPTIMAL)
+                if result.after.imbalance_pct <= options.target_imbalance_pct:
+                    return result
+    _, layout = brute_at_most(best, options.max_moves)
+    return _result(panel, layout, SolveStatus.OPTIMAL)
+
+
+def _random_panel(
+    rng: random.Random, spaces: int = 8, count: int = 5, multiwire: bool = False
+) -> Panel:
+    system = get_system(rng.choice(["208Y/120", "208Y/120", "120/240"]))
+    panel = Panel("T", system, spaces, ())
+    circuits: list[Circuit] = []
+    taken: set[int] = set()
+    if multiwire:
+        # A multiwire pair on two lines: adjacent spaces of one side (NEC 210.4 handle tie).
+        first = rng.choice([s for s in range(1, spaces - 1)])
+        circuits += [
+            Circuit("m1", "mwbc 1", 1, 700.0, (first,), group="G"),
+            Circuit("m2", "mwbc 2", 1, 400.0, (first + 2,), group="G"),
+        ]
+        taken |= {first, first + 2}
+    for i in range(count):
+        poles = rng.choice([1, 1, 1, 2]) if system.phase_count == 3 else rng.choice([1, 1, 2])
+        starts = [
+            s
+            for s in range(1, spaces + 1)
+            if panel.geometry.fits(s, poles) and not taken & set(panel.geometry.span(s, poles))
+        ]
+        if not starts:
+            break
+        span = panel.geometry.span(rng.choice(starts), poles)
+        taken |= set(span)
+        load = rng.choice([180, 360, 500, 720, 900, 1200, 1440, 1800, 2400, 3000])
+        locked = rng.random() < 0.1
+        circuits.append(Circuit(str(i), f"load {i}", poles, float(load), span, locked=locked))
+    return panel.with_circuits(circuits)
+
+
+# --- the exhaustive reference checks itself on a hand case ----------------------------------
+
+
+def test_exhaustive_reference_on_a_hand_panel() -> None:
+    # Three 1-pole loads all on line A (spaces 1, 2 and 7 of a 208Y/120 panel: rows 1 and 4
+    # are line A by the common-practice numbering). Two moves put one load on each line.
+    panel = Panel(
+        "H",
+        get_system("208Y/120"),
+        8,
+        (
+            Circuit("a", "x", 1, 1000.0, (1,)),
+            Circuit("b", "y", 1, 1000.0, (2,)),
+            Circuit("c", "z", 1, 1000.0, (7,)),
+        ),
+    )
+    best = brute_best_by_budget(panel)
+    assert brute_at_most(best, 0)[0] == pytest.approx(3000.0)
+    assert brute_at_most(best, 1)[0] == pytest.approx(2000.0)  # 2000 / 1000 / 0
+    assert brute_at_most(best, 2)[0] == pytest.approx(0.0)
+
+
+# --- the table against the exhaustive search -------------------------------------------------
+
+
+@settings(max_examples=25, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_rows_match_exhaustive_search(seed: int) -> None:
+    panel = _random_panel(random.Random(seed))
+    best = brute_best_by_budget(panel)
+    table = tradeoff(panel, balance_fn=exhaustive_balance)
+    global_best = brute_at_most(best, None)[0]
+    fewest_for_best = min(m for m in best if best[m][0] <= global_best + ATOL_VA)
+    assert table.full_moves == fewest_for_best
+    assert [r.moves for r in table.rows] == list(range(fewest_for_best + 1))
+    for row in table.rows:
+        assert row.spread_va == pytest.approx(brute_at_most(best, row.moves)[0], abs=ATOL_VA)
+        assert row.status is SolveStatus.OPTIMAL
+    spreads = [r.spread_va for r in table.rows]
+    assert all(b <= a + ATOL_VA for a, b in itertools.pairwise(spreads))
+    assert spreads[-1] == pytest.approx(global_best, abs=ATOL_VA)
+    # Locked circuits never move in any row's arrangement.
+    for result in table.results:
+        for c in panel.circuits:
+            if c.locked:
+                assert result.after_panel.circuit(c.id).spaces == c.spaces
+
+
+def _engine_balance() -> object | None:
+    try:
+        module = importlib.import_module("balancer.optimize")
+    except ImportError:  # pragma: no cover - the package exists; its solver may not yet
+        return None
+    return getattr(module, "balance", None)
+
+
+@settings(max_examples=20, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1))
+def test_engine_rows_match_exhaustive_search(seed: int) -> None:
+    balance = _engine_balance()
+    if balance is None:
+        pytest.skip("balancer.optimize.balance is not available")
+    rng = random.Random(seed)
+    if rng.random() < 0.5:
+        panel = _random_panel(rng, spaces=10, count=3, multiwire=True)
+    else:
+        panel = _random_panel(rng)
+    best = brute_best_by_budget(panel)
+    table = tradeoff(panel, BalanceOptions(time_limit_s=20.0), balance_fn=balance)  # type: ignore[arg-type]
+    for row, result in zip(table.rows, table.results, strict=True):
+        exact = brute_at_most(best, row.moves)[0]
+        assert row.spread_va >= exact - ATOL_VA  # nothing beats the exhaustive minimum
+        # Panels this small are proven well inside the time limit.
+        assert row.status is SolveStatus.OPTIMAL
+        assert row.spread_va <= exact + TOL_VA + ATOL_VA
+        after = result.after_panel
+        assert count_moves(panel, after) <= row.moves
+        for c in panel.circuits:
+            new = after.circuit(c.id)
+            assert len(new.spaces) == c.poles  # a multi-pole breaker moves whole
+            if c.locked:
+                assert new.spaces == c.spaces
+        assert _group_ok(panel, {c.id: c.spaces for c in after.circuits})
+    assert not table.capped
+    assert table.rows[-1].spread_va <= brute_at_most(best, None)[0] + TOL_VA + ATOL_VA
+
+
+# --- monotone repair, caps and contradictions ------------------------------------------------
+
+
+def _scripted(
+    panel: Panel, by_budget: dict[int | None, tuple[dict[str, tuple[int, ...]], SolveStatus]]
+):  # type: ignore[no-untyped-def]
+    def run(p: Panel, options: BalanceOptions) -> BalanceResult:
+        layout, status = by_budget[options.max_moves]
+        return _result(p, layout, status)
+
+    return run
+
+
+def _three_on_a() -> Panel:
+    return Panel(
+        "H",
+        get_system("208Y/120"),
+        8,
+        (
+            Circuit("a", "x", 1, 1000.0, (1,)),
+            Circuit("b", "y", 1, 1000.0, (2,)),
+            Circuit("c", "z", 1, 1000.0, (7,)),
+        ),
+    )
+
+
+def test_an_unproven_worse_row_keeps_the_smaller_budget_arrangement() -> None:
+    panel = _three_on_a()
+    start = {"a": (1,), "b": (2,), "c": (7,)}
+    one = {"a": (1,), "b": (3,), "c": (7,)}
+    best = {"a": (1,), "b": (3,), "c": (5,)}
+    run = _scripted(
+        panel,
+        {
+            None: (best, SolveStatus.OPTIMAL),
+            0: (start, SolveStatus.OPTIMAL),
+            1: (one, SolveStatus.OPTIMAL),
+        },
+    )
+    table = tradeoff(panel, balance_fn=run)
+    assert [r.spread_va for r in table.rows] == pytest.approx([3000.0, 2000.0, 0.0])
+    assert table.notes == ()
+    # An unproven one-move answer worse than staying put: at most one move also allows none.
+    lean = {"a": (1,), "b": (3,), "c": (7,)}  # A 2000, B 1000, C 0 VA
+    two_moves = {"a": (2,), "b": (3,), "c": (5,)}  # a stays on line A, c goes to C
+    bad_middle = _scripted(
+        panel.with_circuits([c.moved_to(lean[c.id]) for c in panel.circuits]),
+        {
+            None: (two_moves, SolveStatus.OPTIMAL),
+            0: (lean, SolveStatus.OPTIMAL),
+            1: ({"a": (1,), "b": (2,), "c": (7,)}, SolveStatus.FEASIBLE),  # A 3000 VA
+        },
+    )
+    lean_panel = panel.with_circuits([c.moved_to(lean[c.id]) for c in panel.circuits])
+    table = tradeoff(lean_panel, balance_fn=bad_middle)
+    assert [r.spread_va for r in table.rows] == pytest.approx([2000.0, 2000.0, 0.0])
+    assert table.rows[1].status is SolveStatus.FEASIBLE
+    assert table.results[1].after_panel.circuit("b").spaces == (3,)
+    assert "kept the 0-move arrangement" in table.notes[0]
+    too_many = _scripted(
+        panel,
+        {
+            None: (best, SolveStatus.OPTIMAL),
+            0: (one, SolveStatus.FEASIBLE),  # claims a move inside a zero budget
+        },
+    )
+    with pytest.raises(SolverError, match="at most 0 moves"):
+        tradeoff(panel, balance_fn=too_many)
+
+
+def test_proven_rows_that_contradict_are_an_error() -> None:
+    balanced = {"a": (1,), "b": (3,), "c": (5,)}
+    panel = _three_on_a().with_circuits(
+        [c.moved_to(balanced[c.id]) for c in _three_on_a().circuits]
+    )
+    # Zero moves proven at 0 VA spread and one move "proven" at 2000 VA cannot both hold.
+    run = _scripted(
+        panel,
+        {
+            None: ({"a": (2,), "b": (4,), "c": (5,)}, SolveStatus.OPTIMAL),
+            0: (balanced, SolveStatus.OPTIMAL),
+            1: ({"a": (1,), "b": (3,), "c": (7,)}, SolveStatus.OPTIMAL),
+        },
+    )
+    with pytest.raises(SolverError, match=r"1 moves proven at 2000\.0 VA but 0 moves reach 0\.0"):
+        tradeoff(panel, balance_fn=run)
+
+
+def test_cap_stops_the_table_and_says_so() -> None:
+    panel = _three_on_a()
+    table = tradeoff(panel, balance_fn=exhaustive_balance, max_moves=1)
+    assert [r.moves for r in table.rows] == [0, 1]
+    assert table.capped
+    assert table.full_moves == 2
+    assert "needs 2 moves" in table.notes[0]
+    assert any("note:" in line for line in tradeoff_lines(table))
+
+
+# --- imbalance floor and target --------------------------------------------------------------
+
+
+def test_floor_against_the_nema_example() -> None:
+    # 462 / 463 / 455 V: NEMA MG 1 unbalance 1.087 % (REFERENCE.md, F). The floor from the
+    # spread (8 / 2 / 460 = 0.870 %) is below it, as it must be.
+    assert nema_unbalance_pct([462, 463, 455]) == pytest.approx(1.087, abs=0.001)
+    assert imbalance_floor_pct(8.0, 462 + 463 + 455, 3) == pytest.approx(0.8696, abs=1e-4)
+
+
+@given(st.lists(st.floats(0.0, 1e5), min_size=2, max_size=3))
+def test_floor_never_exceeds_the_nema_figure(values: list[float]) -> None:
+    total = math.fsum(values)
+    floor = imbalance_floor_pct(max(values) - min(values), total, len(values))
+    actual = nema_unbalance_pct(values)
+    assert floor <= actual + 1e-9 * max(1.0, actual)
+    if len(values) == 2:
+        assert floor == pytest.approx(actual, rel=1e-9, abs=1e-9)
+
+
+def test_fewest_moves_to_a_target_is_proven_from_the_table() -> None:
+    panel = _three_on_a()
+    table = tradeoff(panel, balance_fn=exhaustive_balance)
+    # Rows: 3000 VA (200 %), 2000 VA (100 %), 0 VA (0 %): average 1000 VA per line.
+    answer = fewest_moves_to(table, 50.0, panel)
+    assert (answer.moves, answer.proven) == (2, True)
+    assert "fewer moves cannot (proven)" in answer.message
+    answer = fewest_moves_to(table, 100.0, panel)
+    assert (answer.moves, answer.proven) == (1, True)
+
+
+def test_target_no_number_of_moves_can_reach() -> None:
+    # Two 1-pole loads of 1000 VA and 200 VA on a 208Y/120 panel: some line is always empty, so
+    # the imbalance is at least (1000 − 0) / 2 / 400 = 125 %.
+    panel = Panel(
+        "Q",
+        get_system("208Y/120"),
+        6,
+        (Circuit("a", "x", 1, 1000.0, (1,)), Circuit("b", "y", 1, 200.0, (2,))),
+    )
+    table = tradeoff(panel, balance_fn=exhaustive_balance)
+    answer = fewest_moves_to(table, 10.0, panel)
+    assert answer.moves is None
+    assert answer.proven
+    assert answer.message.startswith("no number of moves reaches 10 %")
+
+
+def test_target_falls_back_to_the_optimiser_when_the_table_cannot_settle_it() -> None:
+    panel = _three_on_a()
+    table = tradeoff(panel, balance_fn=exhaustive_balance)
+    unproven = replace(
+        table, rows=tuple(replace(r, status=SolveStatus.FEASIBLE) for r in table.rows)
+    )
+    answer = fewest_moves_to(unproven, 100.0, panel)
+    assert (answer.moves, answer.proven) == (1, False)
+    assert "not proven" in answer.message
+
+
+# --- renderings ------------------------------------------------------------------------------
+
+
+def test_renderings_carry_every_row() -> None:
+    panel = _three_on_a()
+    table = tradeoff(panel, balance_fn=exhaustive_balance)
+    data = tradeoff_json(table)
+    assert [d["moves"] for d in data] == [0, 1, 2]
+    assert set(data[0]) == {"moves", "spread_va", "imbalance_pct", "neutral_a", "status"}
+    assert data[2]["status"] == "optimal"
+    assert data[0]["spread_va"] == pytest.approx(3000.0)
+    rows = tradeoff_rows(table)
+    assert rows[0][0] == "Moves (at most)"
+    assert [r[0] for r in rows[1:4]] == [0, 1, 2]
+    lines = tradeoff_lines(table)
+    assert len(lines) == 4
+    assert "optimal (proven)" in lines[-1]
+
+
+def test_count_moves_ignores_new_breakers() -> None:
+    panel = _three_on_a().with_circuits([*_three_on_a().circuits, Circuit("n", "new", 1, 10.0, ())])
+    after = panel.with_circuits([c.moved_to((8,)) if c.id == "n" else c for c in panel.circuits])
+    assert count_moves(panel, after) == 0
