@@ -9,7 +9,7 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-from balancer import report
+from balancer import batch, building, report
 from balancer.analysis import analyze
 from balancer.errors import BalancerError, Problem, ScheduleError
 from balancer.io.reader import PanelOverrides, read_schedule
@@ -23,6 +23,10 @@ Spread a panelboard's branch circuits across its phases.
   check    read a panel schedule and report per-line loads, imbalance and currents
   balance  find the best arrangement of circuits in spaces and write a revised schedule
   demo     run balance on a bundled sample schedule (demo data)
+  building roll up and balance a whole building of panels feeding panels
+
+check and balance take a folder or several schedules too: a batch run in parallel
+with a summary table and workbook.
 """
 EPILOG = """\
 exit status: 0 done, 2 bad input (every problem is listed with its cell),
@@ -148,6 +152,7 @@ def build_parser() -> argparse.ArgumentParser:
         "line and neutral currents. Nothing is written unless --pdf is given.",
     )
     check.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
+    batch.add_arguments(check)
     check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     _panel_options(check)
     _demand_options(check)
@@ -161,11 +166,13 @@ def build_parser() -> argparse.ArgumentParser:
         "write a revised schedule workbook. The input file is never changed.",
     )
     balance.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
+    batch.add_arguments(balance)
     balance.add_argument(
         "-o",
         "--output",
         type=Path,
-        help="workbook to write (default: <schedule>-balanced.xlsx beside it)",
+        help="workbook to write (default: <schedule>-balanced.xlsx beside it); "
+        "for many files, the folder to write them to",
     )
     balance.add_argument(
         "--json", action="store_true", help="print one JSON object instead of text"
@@ -204,6 +211,8 @@ def build_parser() -> argparse.ArgumentParser:
     _panel_options(balance)
     _output_options(balance)
 
+    building.add_command(commands)
+
     demo = commands.add_parser(
         "demo",
         help="balance a bundled sample schedule (demo data)",
@@ -234,6 +243,13 @@ def _print_json(data: dict[str, Any]) -> None:
 
 
 def run_check(args: argparse.Namespace) -> int:
+    if batch.wanted(args):
+        from balancer.result import BalanceOptions
+
+        files = [args.schedule, *args.more]
+        return batch.command(
+            files, "check", BalanceOptions(), _overrides(args), args.jobs, args.summary
+        )
     panel = read_schedule(args.schedule, _overrides(args))
     loads = analyze(panel)
     warnings = _warnings(panel)
@@ -375,6 +391,11 @@ def _options(args: argparse.Namespace) -> Any:
 
 
 def run_balance(args: argparse.Namespace) -> int:
+    if batch.wanted(args):
+        files = [args.schedule, *args.more]
+        return batch.command(
+            files, "balance", _options(args), _overrides(args), args.jobs, args.summary, args.output
+        )
     result, written = balance_file(args.schedule, args.output, _options(args), _overrides(args))
     pdf = _pdf_path(args, "-balanced")
     if pdf is not None:
@@ -439,7 +460,12 @@ def run_demo(args: argparse.Namespace) -> int:
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
-    handlers = {"check": run_check, "balance": run_balance, "demo": run_demo}
+    handlers = {
+        "check": run_check,
+        "balance": run_balance,
+        "demo": run_demo,
+        "building": building.run_command,
+    }
     try:
         return handlers[args.command](args)
     except BalancerError as exc:

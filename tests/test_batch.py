@@ -149,3 +149,32 @@ def test_progress_bar_only_on_a_terminal() -> None:
     assert "[#####.....] 1/2 a.csv" in text
     assert "[##########] 2/2 b.csv" in text
     assert text.endswith("\n")
+
+
+def test_cli_check_over_a_folder_reports_the_corrupt_file_and_fails(
+    folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from balancer.cli import main
+
+    summary = tmp_path / "out" / "summary.xlsx"
+    summary.parent.mkdir()
+    status = main(["check", str(folder), "--jobs", "2", "--summary", str(summary)])
+    out = capsys.readouterr().out
+    assert status == 2
+    assert "3 of 4 files done, 1 failed" in out
+    assert "corrupt.xlsx" in out
+    rows = list(load_workbook(summary)["Summary"].iter_rows(values_only=True))
+    assert sum(1 for r in rows[1:] if r[2] == "error") == 1
+
+
+def test_cli_batch_never_writes_the_summary_over_an_input(
+    folder: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from balancer.cli import main
+
+    target = folder / "salon-208y120.csv"
+    before = target.read_bytes()
+    status = main(["check", str(folder), "--summary", str(target)])
+    assert status == 2
+    assert "never writes its input" in capsys.readouterr().err
+    assert target.read_bytes() == before
