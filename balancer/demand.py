@@ -998,9 +998,15 @@ def cautions(rules: RuleSet) -> tuple[str, ...]:
     lines = [
         "This calculation is an aid to estimating and design review, not a substitute for a "
         "load calculation by a qualified person.",
-        f"Rules used: {rules.title} ({rules.edition}). The edition adopted where the installation "
-        "is, its local amendments and the authority having jurisdiction govern; check every "
-        "figure against them and against licensed practice.",
+        (
+            f"Rules used: {rules.title} ({rules.edition}). The edition adopted where the "
+            "installation is, its local amendments and the authority having jurisdiction govern; "
+            "check every figure against them and against licensed practice."
+            if rules.feeder_sizing
+            else f"Rules used: {rules.title}, no code edition. The code in force where the "
+            "installation is, its local amendments and the authority having jurisdiction govern; "
+            "check every figure against them and against licensed practice."
+        ),
         "Work on panelboards and feeders only by qualified persons: de-energise, lock out, and "
         "verify the absence of voltage with a meter before touching conductors.",
     ]
@@ -1094,14 +1100,12 @@ def loads_section_lines(result: DemandResult) -> list[str]:
     )
     has_adder = any(c.motor_adder_va for c in result.circuits)
     adder = f" + {rules.largest_motor_extra:.0%} largest motor" if has_adder else ""
-    cont = (
-        f"{rules.continuous_factor:.0%} continuous"
-        if rules.continuous_factor != 1
-        else "continuous"
-    )
+    basis = f"noncontinuous + {rules.continuous_factor:.0%} continuous{adder}"
+    if rules.continuous_factor == 1 and not has_adder:
+        basis = "connected load, no multipliers"
     out.append(
         f"  Feeder: demand {f.design_a:.1f} A on line {f.design_line}; required "
-        f"{f.required_a:.1f} A (noncontinuous + {cont}{adder})"
+        f"{f.required_a:.1f} A ({basis})"
     )
     if rules.feeder_sizing:
         out.append(
@@ -1115,7 +1119,10 @@ def loads_section_lines(result: DemandResult) -> list[str]:
             if f.neutral_unreduced_a and f.neutral_a < f.neutral_unreduced_a - 1e-9
             else ""
         )
-        out.append(f"  Neutral {f.neutral_a:.1f} A{reduced} (220.61)")
+        source = (
+            "(220.61)" if rules.feeder_sizing else "(largest line-to-neutral load, not reduced)"
+        )
+        out.append(f"  Neutral {f.neutral_a:.1f} A{reduced} {source}")
     if f.rating_a is not None and f.spare_a is not None and f.spare_pct is not None:
         state = "spare" if f.spare_a >= 0 else "over by"
         out.append(
