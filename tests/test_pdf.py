@@ -127,3 +127,19 @@ def test_demand_summary_and_page(tmp_path: Path) -> None:
     assert "Demand load and feeder check" in pages[3]
     assert demand.feeder.min_ocpd_a is not None
     assert f"Minimum feeder OCPD {demand.feeder.min_ocpd_a} A" in pages[0]
+
+
+def test_long_descriptions_shrink_before_they_are_cut(tmp_path: Path) -> None:
+    """The directory must stay legible and complete (NEC 408.4): a 36-character description is
+    set in smaller type rather than cut."""
+    base = demo_panel()
+    long_name = "Demo receptacles, north open office"
+    assert len(long_name) >= 35
+    circuits = (
+        *base.circuits,
+        Circuit(id="17", description=long_name, poles=1, load_va=720.0, spaces=(17,)),
+    )
+    panel = dataclasses.replace(base, circuits=circuits)
+    for paper in ("letter", "a4"):
+        out = write_pdf(tmp_path / f"{paper}.pdf", panel, analyze(panel), paper=paper)  # type: ignore[arg-type]
+        assert long_name in _flat(_text(out)[1])

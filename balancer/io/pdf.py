@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cache
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
@@ -33,6 +34,7 @@ Paper = Literal["letter", "a4"]
 PAPER_IN: dict[Paper, tuple[float, float]] = {"letter": (8.5, 11.0), "a4": (8.27, 11.69)}
 MARGIN_IN = 0.6
 DIRECTORY_ROWS_PER_PAGE = 30
+DIRECTORY_MIN_PT = 6.5
 _POINTS = 72.0
 _GREY = "#5A6570"
 _RULE = "#9AA5B1"
@@ -129,9 +131,11 @@ class _Page:
         return self.y_in > self.height_in - MARGIN_IN - 0.5
 
     def _cell(self, x: float, w: float, text: str, size: float, how: str, **kw: Any) -> None:
-        fits = max(3, int(w / (size / _POINTS * 0.6)))  # DejaVu Sans is about 0.6 em wide
-        if len(text) > fits:
-            text = text[: fits - 1] + "…"
+        room_in = w - 0.1
+        if text_width_in(text, size) > room_in:
+            while text and text_width_in(text + "…", size) > room_in:
+                text = text[:-1]
+            text += "…"
         if how in ("right", "auto"):
             self.text(x + w - 0.05, self.y_in, text, size=size, ha="right", **kw)
         elif how == "center":
@@ -144,6 +148,18 @@ def _line2d(xs: list[float], ys: list[float], colour: str, lw: float) -> Any:
     from matplotlib.lines import Line2D
 
     return Line2D(xs, ys, color=colour, lw=lw)
+
+
+@cache
+def text_width_in(text: str, size: float) -> float:
+    """Width of ``text`` in DejaVu Sans at ``size`` points, in inches (measured, not guessed)."""
+    from matplotlib.font_manager import FontProperties
+    from matplotlib.textpath import TextToPath
+
+    width_pt, _, _ = TextToPath().get_text_width_height_descent(
+        text, FontProperties(family="DejaVu Sans", size=size), ismath=False
+    )
+    return float(width_pt) / _POINTS
 
 
 def _va(value: float | None) -> str:
@@ -164,7 +180,7 @@ def _fmt(value: Any) -> str:
     if isinstance(value, float):
         if math.isnan(value):
             return ""
-        return f"{value:,.0f}" if abs(value) >= 100 else f"{value:,.1f}"
+        return f"{value:,.0f}" if value.is_integer() else f"{value:,.1f}"
     return str(value)
 
 
@@ -398,9 +414,14 @@ def _directory_pages(pages: list[_Page], make: Any, panel: Panel) -> None:
         "Description",
     ]
     width = pages[0].width_in - 2 * MARGIN_IN
-    fixed = [0.62, 0.55, 0.42, 0.42, 0.42, 0.55, 0.62]
+    fixed = [0.58, 0.5, 0.48, 0.4, 0.48, 0.5, 0.58]
     description_in = (width - sum(fixed)) / 2
     widths = [description_in, *fixed[:3], fixed[3], *fixed[4:], description_in]
+    # The directory must stay legible (NEC 408.4): a smaller type before any description is cut.
+    longest = max((str(r[i]) for r in rows for i in (0, 8)), key=len, default="")
+    size = 8.0
+    while size > DIRECTORY_MIN_PT and text_width_in(longest, size) > description_in - 0.1:
+        size -= 0.5
     align = ["left", "center", "right", "center", "center", "center", "right", "center", "left"]
     chunks = [
         rows[i : i + DIRECTORY_ROWS_PER_PAGE] for i in range(0, len(rows), DIRECTORY_ROWS_PER_PAGE)
@@ -415,7 +436,7 @@ def _directory_pages(pages: list[_Page], make: Any, panel: Panel) -> None:
             "(NEC 408.4)."
         )
         page.y_in += 0.05
-        page.table(header, chunk, widths, size=8, align=align)
+        page.table(header, chunk, widths, size=size, align=align)
         pages.append(page)
 
 
@@ -482,6 +503,57 @@ def _place(spaces: Sequence[int], lines: Sequence[str]) -> str:
     return f"{', '.join(map(str, spaces))} ({'-'.join(lines)})"
 
 
+def _block_widths(
+    rows: Sequence[Sequence[Any]], start: int, usable_in: float, size: float
+) -> list[float]:
+    """Column widths for the table that starts at ``rows[start]``: each column as wide as its
+    widest cell (up to the next blank, title or header row). A table under a header spreads to
+    the page width; too wide a table has its widest columns capped until it fits."""
+    columns: list[float] = []
+    for index in range(start, len(rows)):
+        values = rows[index]
+        if index > start and row_role(values) != "data":
+            break
+        bold = 1.1 if index == start and row_role(values) == "header" else 1.0
+        for c, value in enumerate(values):
+            while len(columns) <= c:
+                columns.append(0.5)
+            columns[c] = max(columns[c], text_width_in(_fmt(value), size) * bold + 0.15)
+    if row_role(rows[start]) != "header":
+        columns[0] = max(columns[0], 1.6)
+    total = sum(columns)
+    if total <= usable_in:
+        if row_role(rows[start]) != "header":
+            return columns
+        return [w + (usable_in - total) / len(columns) for w in columns]
+    low, high = 0.0, max(columns)
+    for _ in range(40):  # the cap at which the capped columns just fill the page
+        cap = (low + high) / 2
+        low, high = (cap, high) if sum(min(w, cap) for w in columns) < usable_in else (low, cap)
+    return [min(w, low) for w in columns]
+
+
+def _block_align(rows: Sequence[Sequence[Any]], start: int, count: int) -> list[str]:
+    """Right for a column whose cells in the block are all numbers, else left."""
+    numeric = [True] * count
+    seen = [False] * count
+    for index in range(start, len(rows)):
+        values = rows[index]
+        role = row_role(values)
+        if index > start and role != "data":
+            break
+        if role != "data":
+            continue
+        for c, value in enumerate(values[:count]):
+            if value is None or value == "":
+                continue
+            seen[c] = True
+            numeric[c] = (
+                numeric[c] and isinstance(value, (int, float)) and not isinstance(value, bool)
+            )
+    return ["right" if c > 0 and numeric[c] and seen[c] else "left" for c in range(count)]
+
+
 def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]) -> None:
     """Free-form rows, read as the workbook reads them (see :func:`row_role`): titles, table
     headers, key/value pairs (long text wrapped) and table rows; a new page when one fills."""
@@ -492,33 +564,30 @@ def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]
         page = make()
         page.heading(title)
         usable = page.width_in - 2 * MARGIN_IN
-        widths: list[float] = [usable]
-        align: list[str] = ["left"]
-        for values in rows:
+        widths: list[float] = []
+        align: list[str] = []
+        previous = "blank"
+        for index, values in enumerate(rows):
             if page.full:
                 pages.append(page)
                 page = make()
                 page.heading(f"{title} (continued)")
             role = row_role(values)
+            long_text = len(values) == 2 and isinstance(values[1], str) and len(values[1]) > 60
+            if role == "header" or (role == "data" and previous != "data" and not long_text):
+                widths = _block_widths(rows, index, usable, size)
+                align = _block_align(rows, index, len(widths))
             if role == "blank":
                 page.y_in += 0.08
             elif role == "title":
                 page.heading(str(values[0]), size=10.5)
             elif role == "header":
-                first = min(2.4, usable * 0.35)
-                rest = (usable - first) / max(1, len(values) - 1)
-                widths = [first] + [rest] * (len(values) - 1)
-                align = ["left"] + ["auto"] * (len(values) - 1)
                 page.header_band([str(v) for v in values], widths, size=size, align=align)
-            elif len(values) == 2 and isinstance(values[1], str) and len(values[1]) > 60:
+            elif long_text:
                 page.paragraph(f"{values[0]}: {values[1]}", size=size)
             else:
-                if len(values) > len(widths):  # key/value rows before any header
-                    first = min(2.4, usable * 0.35)
-                    rest = (usable - first) / max(1, len(values) - 1)
-                    widths = [first] + [rest] * (len(values) - 1)
-                    align = ["left"] * len(values)
                 page.data_row(values, widths, size=size, align=align)
+            previous = "data" if role == "header" else role
         pages.append(page)
 
 

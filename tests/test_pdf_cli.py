@@ -1,0 +1,45 @@
+"""``--pdf``, ``--paper`` and ``--no-color`` on the command line."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+
+pypdf = pytest.importorskip("pypdf")
+
+from balancer.cli import main  # noqa: E402
+
+SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
+
+
+@pytest.fixture
+def schedule(tmp_path: Path) -> Path:
+    source = SAMPLES / "office-208y120.xlsx"  # demo data bundled with the project
+    target = tmp_path / source.name
+    shutil.copy(source, target)
+    return target
+
+
+def test_check_pdf_default_name_and_paper(
+    schedule: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    before = schedule.read_bytes()
+    assert main(["check", str(schedule), "--pdf", "--paper", "a4", "--no-color"]) == 0
+    pdf = schedule.with_suffix(".pdf")
+    assert pdf.exists()
+    reader = pypdf.PdfReader(pdf)
+    assert float(reader.pages[0].mediabox.height) == pytest.approx(841.9, abs=1)
+    out = capsys.readouterr().out
+    assert f"Wrote {pdf}" in out
+    assert "\033[" not in out  # no colour codes with --no-color or a captured stream
+    assert "heaviest" in out  # the bars are in the summary
+    assert schedule.read_bytes() == before  # the input is never written
+
+
+def test_check_pdf_refuses_the_input(schedule: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    before = schedule.read_bytes()
+    assert main(["check", str(schedule), "--pdf", str(schedule)]) != 0
+    assert "input" in capsys.readouterr().err
+    assert schedule.read_bytes() == before
