@@ -80,7 +80,7 @@ def test_arrangement_invariants(panel: Panel) -> None:
         found = [
             p
             for p in builtin_profiles().values()
-            if c.load_class and c.load_class in {a for a in p.aliases} | {p.name}
+            if c.load_class and c.load_class in {*p.aliases, p.name}
         ]
         thd = found[0].thd_pct / 100 if found else 0.0
         expected_kw += c.load_va * abs(c.power_factor) / math.sqrt(1 + thd * thd) / 1000
