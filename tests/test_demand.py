@@ -521,6 +521,9 @@ def test_connected_set_on_400y230_sizes_nothing() -> None:
     assert result.feeder.conductor_cu is None
     assert result.feeder.design_a == pytest.approx(100.0, abs=ATOL_A)  # 23,000 VA / 230 V
     assert any("No code demand factors" in c for c in result.cautions)
+    text = " ".join(loads_section_lines(result))
+    assert "connected load, no multipliers" in text
+    assert "220.61" not in text
 
 
 def test_user_file_with_base_overrides_one_class(tmp_path: Path) -> None:
