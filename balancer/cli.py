@@ -209,6 +209,7 @@ def build_parser() -> argparse.ArgumentParser:
         help="absolute tolerance on the phase spread in VA (default 1)",
     )
     _panel_options(balance)
+    _demand_options(balance)
     _output_options(balance)
 
     building.add_command(commands)
@@ -396,7 +397,11 @@ def run_balance(args: argparse.Namespace) -> int:
         return batch.command(
             files, "balance", _options(args), _overrides(args), args.jobs, args.summary, args.output
         )
+    from balancer.demand import check_choices, demand_to_dict, loads_section_lines
+
+    check_choices(args.rules, args.occupancy)
     result, written = balance_file(args.schedule, args.output, _options(args), _overrides(args))
+    demand = _demand(args, result.after_panel)
     pdf = _pdf_path(args, "-balanced")
     if pdf is not None:
         from balancer.io.pdf import write_pdf
@@ -409,10 +414,11 @@ def run_balance(args: argparse.Namespace) -> int:
             result.after,
             result=result,
             paper=args.paper,
+            demand=demand,
             input_path=args.schedule,
         )
     if args.json:
-        data = balance_json(result, written)
+        data = {**balance_json(result, written), "demand": demand_to_dict(demand)}
         if pdf is not None:
             data["pdf"] = str(pdf)
         _print_json(data)
@@ -420,6 +426,7 @@ def run_balance(args: argparse.Namespace) -> int:
         print(balance_text(result, written))
         neutral = result.after_panel.system.neutral
         print("\n" + _bars(args, result.before, result.after, neutral=neutral))
+        print("\n".join(["", "After balancing:", *loads_section_lines(demand)]))
         if pdf is not None:
             print(f"Wrote {pdf}")
     return EXIT_OK

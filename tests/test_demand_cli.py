@@ -45,3 +45,30 @@ def test_bad_demand_options_exit_2(
 ) -> None:
     assert main(["check", str(OFFICE), *extra]) == 2
     assert words in capsys.readouterr().err
+
+
+def test_balance_reports_demand_after_balancing(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "office-balanced.xlsx"
+    args = ["balance", str(OFFICE), "-o", str(out), "--json", "--time-limit", "20"]
+    assert main(args) == 0
+    data = json.loads(capsys.readouterr().out)
+    demand = data["demand"]
+    assert demand["rule_set"] == "nec2023"
+    # Balancing moves circuits, never load: the demand total is the one check gives.
+    assert main(["check", "--json", str(OFFICE)]) == 0
+    before = json.loads(capsys.readouterr().out)["demand"]
+    assert demand["total_demand_va"] == pytest.approx(before["total_demand_va"], abs=0.1)
+    assert sum(demand["phase_demand_va"].values()) == pytest.approx(
+        demand["total_demand_va"], abs=0.5
+    )
+
+
+def test_balance_rejects_bad_occupancy_before_solving(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "never.xlsx"
+    assert main(["balance", str(OFFICE), "-o", str(out), "--occupancy", "spaceport"]) == 2
+    assert "--occupancy" in capsys.readouterr().err
+    assert not out.exists()
