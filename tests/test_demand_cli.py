@@ -47,6 +47,7 @@ def test_bad_demand_options_exit_2(
     assert words in capsys.readouterr().err
 
 
+@pytest.mark.slow
 def test_balance_reports_demand_after_balancing(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
