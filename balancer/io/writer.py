@@ -106,6 +106,9 @@ _CENTRE = Alignment(horizontal="center", vertical="center")
 _WRAP = Alignment(wrap_text=True, vertical="top")
 
 
+CHART_ROWS = 16  # rows left free for a 7.5 cm chart at the default row height
+
+
 @dataclass(frozen=True, slots=True)
 class _Table:
     """Where a table landed on a sheet, for charts and tests."""
@@ -168,6 +171,18 @@ def _put(ws: Worksheet, row: int, col: int, value: Any, fmt: str | None = None) 
     cell.border = _BOX
     if fmt and isinstance(value, (int, float)) and not isinstance(value, bool):
         cell.number_format = fmt
+
+
+def _long_text(
+    ws: Worksheet, row: int, col: int, text: str, *, last_col: int, chars_per_line: int
+) -> None:
+    """Text across merged cells, wrapped, on a row tall enough for it: long text must not run
+    past the printed width (a spreadsheet does not grow merged rows by itself)."""
+    if last_col > col:
+        ws.merge_cells(start_row=row, start_column=col, end_row=row, end_column=last_col)
+    cell = ws.cell(row=row, column=col, value=text)
+    cell.alignment = _WRAP
+    ws.row_dimensions[row].height = 15 * max(1, math.ceil(len(text) / chars_per_line)) + 2
 
 
 def _section(ws: Worksheet, row: int, text: str) -> None:
@@ -253,7 +268,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         row += 1
     for notice in panel.notices:
         ws.cell(row=row, column=1, value="Notice").font = Font(bold=True)
-        ws.cell(row=row, column=2, value=notice)
+        _long_text(ws, row, 2, notice, last_col=6, chars_per_line=60)
         row += 1
 
     row += 1
@@ -273,6 +288,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         _put(ws, row, 5, result.before.line_a[line], AMPS)
         _put(ws, row, 6, result.after.line_a[line], AMPS)
     table = _Table(header_row, first_row, row)
+    row += CHART_ROWS  # the per-line chart is placed here, under its table
 
     row += 2
     _section(ws, row, "Totals")
@@ -310,11 +326,14 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     for label, value, fmt in facts:
         row += 1
         _put(ws, row, 1, label)
-        _put(ws, row, 2, value, fmt)
+        if isinstance(value, str) and len(value) > 16:
+            _long_text(ws, row, 2, value, last_col=6, chars_per_line=60)
+        else:
+            _put(ws, row, 2, value, fmt)
     for note in result.notes:
         row += 1
         _put(ws, row, 1, "Note")
-        _put(ws, row, 2, note)
+        _long_text(ws, row, 2, note, last_col=6, chars_per_line=60)
     if result.after.unplaced:
         row += 1
         _put(ws, row, 1, "Not placed (left out of the figures)")
@@ -324,10 +343,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     _section(ws, row, "Cautions")
     for note in SAFETY_NOTES:
         row += 1
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=6)
-        cell = ws.cell(row=row, column=1, value=note)
-        cell.alignment = _WRAP
-        ws.row_dimensions[row].height = 30
+        _long_text(ws, row, 1, note, last_col=6, chars_per_line=95)
     _widths(ws, [36, 16, 16, 13, 11, 11])
     _print_setup(ws, landscape=False, title_rows=None)
     return table
@@ -591,29 +607,48 @@ def row_role(values: Sequence[Any]) -> str:
     return "data"
 
 
+LONG_TEXT_CHARS = 40
+COLUMN_CHARS_MAX = 40
+
+
 def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
     ws.title = title[:31]
-    widths: list[float] = []
+    span = max([len(v) for v in rows if row_role(v) == "header"] + [4])
+    widths: list[float] = [10.0] * span
     for r, values in enumerate(rows, start=1):
         role = row_role(values)
         if role == "header":
             _header(ws, r, [str(v) for v in values])
+            for c, value in enumerate(values):
+                widths[c] = max(widths[c], min(COLUMN_CHARS_MAX, len(str(value)) + 3))
+            continue
+        if role == "title":
+            ws.cell(row=r, column=1, value=values[0]).font = _SECTION_FONT
+            continue
+        long_text = len(values) == 2 and isinstance(values[1], str)
+        if long_text and len(values[1]) > LONG_TEXT_CHARS:
+            label = ws.cell(row=r, column=1, value=values[0])
+            label.font = Font(bold=True)
+            label.alignment = Alignment(vertical="top")
+            chars = int(sum(widths[1:span])) or 60
+            _long_text(ws, r, 2, values[1], last_col=span, chars_per_line=max(30, chars))
+            continue
         for c, value in enumerate(values, start=1):
-            if role == "header":
-                continue
             cell = ws.cell(row=r, column=c, value=value)
             if isinstance(value, float):
-                cell.number_format = "#,##0.0" if abs(value) < 100 else VA
-            if role == "title":
-                cell.font = _SECTION_FONT
-            elif c == 1 and isinstance(value, str):
+                cell.number_format = VA if value.is_integer() else "#,##0.0"
+            elif isinstance(value, int) and not isinstance(value, bool):
+                cell.number_format = VA
+            if c == 1 and isinstance(value, str):
                 cell.font = Font(bold=True)
-        for c, value in enumerate(values, start=1):
-            if role == "title":
-                break
+            if isinstance(value, str) and len(value) > COLUMN_CHARS_MAX:
+                cell.alignment = _WRAP
+                lines = math.ceil(len(value) / COLUMN_CHARS_MAX)
+                height = ws.row_dimensions[r].height or 15
+                ws.row_dimensions[r].height = max(height, 15 * lines + 2)
             while len(widths) < c:
-                widths.append(10)
-            widths[c - 1] = max(widths[c - 1], min(60, len(str(value)) + 2))
+                widths.append(10.0)
+            widths[c - 1] = max(widths[c - 1], min(COLUMN_CHARS_MAX, len(str(value)) + 2))
     _widths(ws, widths)
     _print_setup(ws, landscape=True, title_rows=None)
 
@@ -689,7 +724,7 @@ def write_workbook(
         after_col=3,
         average_col=4,
     )
-    summary.add_chart(chart, f"A{summary.max_row + 2}")
+    summary.add_chart(chart, f"A{table.last_row + 2}")
     _layout(wb.create_sheet(), result)
     _changes(wb.create_sheet(), result)
     _circuits(wb.create_sheet(), result.after_panel)
