@@ -275,3 +275,13 @@ def test_unity_pf_neutral_closed_form(written: Path) -> None:
     ws = load_workbook(written)["Summary"]
     row, _ = _find(ws, "Neutral current A")
     assert ws.cell(row, 3).value == pytest.approx(expected, rel=1e-9)
+
+
+def test_circuit_list_shows_lines_beside_spaces(written: Path) -> None:
+    ws = load_workbook(written)["Circuits"]
+    header = [c.value for c in ws[1]]
+    assert header[:3] == ["Space", "Phase", "Description"]
+    rows = {r[2]: r for r in ws.iter_rows(min_row=2, values_only=True)}
+    assert rows["Demo rooftop unit"][:2] == (7, "A-B-C")
+    assert rows["Demo water heater"][:2] == (4, "B-C")
+    assert rows["Demo lighting west"][:2] == (5, "C")

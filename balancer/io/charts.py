@@ -201,7 +201,7 @@ def _draw_one(ax: object, arrows: Sequence[Arrow], title: str, reach_a: float) -
             },
         )
         name = "Neutral" if arrow.kind == "neutral" else f"Line {arrow.label}"
-        offset = tip / abs(tip) * limit * 0.08 if abs(tip) > 0 else complex(0, limit * 0.08)
+        offset = tip / abs(tip) * limit * 0.13 if abs(tip) > 0 else complex(0, limit * 0.13)
         where = tip + offset
         ax.text(
             where.real,

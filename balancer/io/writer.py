@@ -78,6 +78,12 @@ _CIRCUIT_VALUES: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
 _ALWAYS = 5
 
 
+def _phase_header() -> str:
+    from balancer.io.columns import COLUMNS
+
+    return next((spec.header for spec in COLUMNS if spec.key == "phase"), "Phase")
+
+
 def _circuit_columns() -> tuple[tuple[str, Callable[[Circuit], Any], str], ...]:
     from balancer.io.columns import COLUMNS
 
@@ -491,6 +497,9 @@ def _circuits(ws: Worksheet, panel: Panel) -> None:
         for i, column in enumerate(_circuit_columns())
         if i < _ALWAYS or any(column[1](c) is not None for c in panel.circuits)
     ]
+    # The lines, for the reader's eye: the reader takes the space as the truth and this column
+    # as information only, so a round trip cannot disagree with itself.
+    columns.insert(1, (_phase_header(), lambda c: "-".join(panel.lines_of(c)) or None, "@"))
     extra_headers: list[str] = []
     for circuit in panel.circuits:
         for header, _ in circuit.extra:
