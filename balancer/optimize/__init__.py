@@ -1,0 +1,369 @@
+"""The balancing engine: layout → line-level model → space placement → check → result.
+
+Lines are decided first (a small model with no symmetry between spaces of one line), each goal
+solved to a proven optimum in turn; then the chosen lines are placed into spaces, preferring to
+leave breakers where they are. When that placement cannot match the line-level answer, a
+space-level model takes over and only what it proves is claimed.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from collections.abc import Mapping, Sequence
+from dataclasses import replace
+
+import pulp
+
+from balancer.analysis import analyze
+from balancer.errors import InfeasibleError, SolverError
+from balancer.optimize.heuristics import (
+    greedy_lines,
+    karmarkar_karp_lines,
+    local_search_lines,
+    pattern_spread_va,
+    present_lines,
+)
+from balancer.optimize.model import (
+    POLYGON_ERROR,
+    POLYGON_SIDES,
+    Layout,
+    Model,
+    build_layout,
+    build_model,
+    has_neutral_goal,
+    placed_circuits,
+    realise,
+    spread_lower_bound,
+)
+from balancer.optimize.solve import StageResult, cap, solve_goal
+from balancer.optimize.verify import verify
+from balancer.panel import Panel
+from balancer.result import BalanceOptions, BalanceResult, Move, SolveStatus
+
+__all__ = ["balance"]
+
+CURRENT_GAP_A = 0.01  # absolute gap on the current stages (amperes)
+MOVES_GAP = 0.5  # moves are whole numbers: a gap below one proves the count
+PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
+LOCAL_SEARCH_S = 1.0  # improving the seed by single and paired changes: at most this, ...
+LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
+TIEBREAK_MIN_S = 0.3  # time for each tie-breaking current goal: at least this, ...
+TIEBREAK_SHARE = 0.01  # ... or this share of the time limit
+SAFETY_NOTE = (
+    "Moving breakers is work on energised equipment: qualified persons only, de-energise and "
+    "verify absence of voltage with a meter first; the adopted code, local amendments and the "
+    "authority having jurisdiction govern."
+)
+
+
+def _goal_order(options: BalanceOptions, count_moves: bool, available: Sequence[str]) -> list[str]:
+    primary = options.objective if options.objective in available else "spread"
+    order: list[str] = [primary]
+    if count_moves:
+        order.insert(0 if options.target_imbalance_pct is not None else 1, "moves")
+    order += [g for g in ("spread", "neutral") if g != primary and g in available]
+    return order
+
+
+def _key_count(goals: Sequence[str]) -> int:
+    """How many leading goals decide the status: the first, and the move count next to it."""
+    return 2 if "moves" in goals[:2] else 1
+
+
+def _gap(goal: str, options: BalanceOptions) -> float:
+    return {"spread": options.tolerance_va, "moves": MOVES_GAP}.get(goal, CURRENT_GAP_A)
+
+
+def _proven(stage: StageResult, options: BalanceOptions, extra_bound: float) -> bool:
+    bound = max(stage.bound, extra_bound)
+    return stage.proven or stage.value <= bound + _gap(stage.goal, options) + 1e-9
+
+
+def _lexicographic(
+    model: Model,
+    goals: Sequence[str],
+    options: BalanceOptions,
+    deadline: float,
+    start: Sequence[int] | None,
+    extra_bounds: Mapping[str, float],
+    preset: Mapping[str, StageResult] | None = None,
+) -> list[StageResult]:
+    """Solve the goals in order, each kept within its tolerance while the next is solved.
+
+    The first goal and a following move count get the whole time limit; later tie-breaking
+    goals get a short budget each and stop early rather than delay the answer.
+    """
+    stages: list[StageResult] = []
+    picks = start
+    key = _key_count(goals)
+    for position, goal in enumerate(goals):
+        if preset and goal in preset:
+            stage = preset[goal]
+        else:
+            budget = deadline - time.perf_counter()
+            if position >= key:
+                budget = min(budget, max(TIEBREAK_MIN_S, TIEBREAK_SHARE * options.time_limit_s))
+            try:
+                stage = solve_goal(model, goal, options.engine, budget, _gap(goal, options), picks)
+            except SolverError:
+                if position < key or picks is None:
+                    raise
+                break  # a tie-breaker that found nothing new leaves the previous answer
+            picks = stage.picks
+        stages.append(stage)
+        if position == len(goals) - 1:
+            break
+        bound = max(stage.bound, extra_bounds.get(goal, -math.inf))
+        if goal == "spread" and _proven(stage, options, bound):
+            limit = max(stage.value, bound + options.tolerance_va)
+        else:
+            limit = stage.value + 1e-6 * max(1.0, abs(stage.value))
+        cap(model, goal, limit, f"keep_{goal}")
+    return stages
+
+
+def _seed(layout: Layout) -> list[int] | None:
+    candidates = [p for p in (greedy_lines(layout), karmarkar_karp_lines(layout)) if p is not None]
+    if not candidates:
+        return None
+    return min(candidates, key=lambda p: pattern_spread_va(layout, p))
+
+
+def _placement_start(model: Model) -> list[int] | None:
+    """First fit into spaces, staying put where possible (a start for the placement model)."""
+    used: set[int] = set()
+    picks = [-1] * len(model.options)
+    order = sorted(range(len(model.options)), key=lambda u: -len(model.options[u][0].spans[0]))
+    for u in order:
+        ranked = sorted(range(len(model.options[u])), key=lambda k: model.options[u][k].moves)
+        for k in ranked:
+            spaces = {s for span in model.options[u][k].spans for s in span}
+            if not spaces & used:
+                used |= spaces
+                picks[u] = k
+                break
+        else:
+            return None
+    return picks
+
+
+def _describe(stage: StageResult, proven: bool, bound: float, options: BalanceOptions) -> str:
+    unit = {"spread": "VA", "moves": "moves"}.get(stage.goal, "A")
+    text = f"{stage.goal}: {stage.value:.4g} {unit}"
+    if proven:
+        return text + f", proven best within {_gap(stage.goal, options):g} {unit}"
+    if math.isfinite(bound):
+        return text + f", not proven (best bound {bound:.4g} {unit})"
+    return text + ", not proven"
+
+
+def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResult:
+    """Rearrange the panel's circuits to balance its phases, and prove how good the result is.
+
+    Goals are lexicographic: ``options.objective`` (phase spread by default), then fewest moves
+    (for a placed schedule), then the remaining one of spread and neutral current. With
+    ``target_imbalance_pct`` the fewest moves reaching the target come first. The status is
+    OPTIMAL only when the first goal and the move count are proven within their tolerances;
+    tie-breaking current goals get a short time budget and say whether they were proven.
+
+    Parameters
+    ----------
+    panel : Panel
+        The schedule as read; never modified.
+    options : BalanceOptions, optional
+        Choices for the run.
+
+    Returns
+    -------
+    BalanceResult
+        A checked arrangement with before/after figures, moves, status and lower bound.
+
+    Raises
+    ------
+    InfeasibleError
+        When no arrangement meets the panel's rules; the message names the conflict.
+    SolverError
+        When the engine fails or its answer does not pass the independent check.
+    """
+    options = options or BalanceOptions()
+    begin = time.perf_counter()
+    deadline = begin + options.time_limit_s
+    layout = build_layout(panel, options)
+    before = analyze(panel)
+    notes: list[str] = []
+    if not layout.units:
+        return BalanceResult(
+            panel,
+            panel,
+            before,
+            before,
+            SolveStatus.UNCHANGED,
+            options.engine,
+            options.tolerance_va,
+            before.spread_va,
+            (),
+            time.perf_counter() - begin,
+            ("every circuit keeps its spaces; nothing to rearrange", SAFETY_NOTE),
+        )
+    floor = spread_lower_bound(layout)
+    target = options.target_imbalance_pct
+    try:
+        first, line_model, goals = _first_goal_on_lines(layout, options, target, deadline, floor)
+    except InfeasibleError:
+        if target is None:
+            raise
+        notes.append(f"no arrangement reaches {target:g} % imbalance; the best balance is shown")
+        target = None
+        first, line_model, goals = _first_goal_on_lines(layout, options, None, deadline, floor)
+
+    # Put the line-level answer into spaces: a start for the exact model, and usually its answer.
+    allowed = {u: {line_model.options[u][k].pattern} for u, k in enumerate(first.picks)}
+    placement = build_model(
+        layout, "space", options, allowed=allowed, target_imbalance_pct=target, include=()
+    )
+    try:
+        placed: StageResult | None = solve_goal(
+            placement,
+            "moves",
+            options.engine,
+            max(PLACEMENT_MIN_S, deadline - time.perf_counter()),
+            MOVES_GAP,
+            _placement_start(placement),
+        )
+    except (InfeasibleError, SolverError):
+        placed = None
+    exact = build_model(layout, "mixed", options, target_imbalance_pct=target)
+    start = None if placed is None else _to_mixed(layout, exact, placement, placed.picks)
+    preset: dict[str, StageResult] = {}
+    if placed is not None and not (goals[0] == "moves" and placed.value > first.value + 0.5):
+        preset[goals[0]] = first  # same lines, so the same proven value
+    elif placed is None:
+        notes.append("the best line assignment does not fit the spaces; the exact model decided")
+    bounds = {
+        "spread": floor,
+        goals[0]: max(first.bound, floor if goals[0] == "spread" else -math.inf),
+    }
+    stages = _lexicographic(exact, goals, options, deadline, start, bounds, preset)
+    picks = _last_picks(stages, preset, start)
+    chosen = realise(layout, [exact.options[u][k] for u, k in enumerate(picks)])
+    for (u, k), var in exact.choice.items():
+        var.varValue = 1.0 if picks[u] == k else 0.0
+    claimed = {line: float(pulp.value(expr)) for line, expr in exact.phase_va.items()}
+    after_panel = panel.with_circuits(placed_circuits(layout, chosen))
+    after = verify(panel, after_panel, options, claimed)
+
+    proven = {s.goal: _proven(s, options, bounds.get(s.goal, -math.inf)) for s in stages}
+    for s in stages:
+        notes.append(
+            _describe(s, proven[s.goal], max(s.bound, bounds.get(s.goal, -math.inf)), options)
+        )
+    key_goals = goals[: _key_count(goals)]
+    status = SolveStatus.OPTIMAL if all(proven[g] for g in key_goals) else SolveStatus.FEASIBLE
+    if "neutral" in goals or "line" in goals:
+        notes.append(
+            f"currents are minimised through a {POLYGON_SIDES}-sided polygon: the true value is at "
+            f"most {POLYGON_ERROR * 100:.2f} % above the proven figure"
+        )
+    spread_bound = floor
+    if goals[0] == "spread":
+        spread_bound = max(floor, stages[0].bound, bounds["spread"])
+    spread_bound = min(spread_bound, after.spread_va)
+    if options.max_moves is not None and layout.count_moves:
+        notes.append(f"limited to at most {options.max_moves} moves; the bound holds within it")
+    notes.append(SAFETY_NOTE)
+    moves = tuple(
+        Move(
+            old.id,
+            old.description,
+            old.spaces,
+            new.spaces,
+            panel.lines_of(old),
+            after_panel.lines_of(new),
+        )
+        for old, new in zip(panel.circuits, after_panel.circuits, strict=True)
+        if old.placed and old.spaces != new.spaces
+    )
+    return BalanceResult(
+        before_panel=panel,
+        after_panel=after_panel,
+        before=before,
+        after=after,
+        status=status,
+        engine=options.engine,
+        tolerance_va=options.tolerance_va,
+        lower_bound_spread_va=spread_bound,
+        moves=moves,
+        solve_seconds=time.perf_counter() - begin,
+        notes=tuple(notes),
+    )
+
+
+def _first_goal_on_lines(
+    layout: Layout, options: BalanceOptions, target: float | None, deadline: float, floor: float
+) -> tuple[StageResult, Model, list[str]]:
+    """The first goal on the line-level relaxation: its bound holds for every arrangement."""
+    available = ["spread", "moves", "line"] + (["neutral"] if has_neutral_goal(layout) else [])
+    goals = _goal_order(
+        replace(options, target_imbalance_pct=target), layout.count_moves, available
+    )
+    model = build_model(layout, "line", options, target_imbalance_pct=target, include=goals[:1])
+    seed = _seed(layout)
+    if goals[0] == "spread" and seed is not None:
+        began = time.perf_counter()
+        goal_va = floor + options.tolerance_va
+        budget = min(LOCAL_SEARCH_S, LOCAL_SEARCH_SHARE * options.time_limit_s)
+        seeds = [local_search_lines(layout, seed, goal_va, budget)]
+        present = present_lines(layout) if layout.count_moves else None
+        if present is not None:
+            # From the schedule as it stands: reaching the goal this way moves few breakers.
+            seeds.insert(0, local_search_lines(layout, present, goal_va, budget))
+        spreads = [pattern_spread_va(layout, p) for p in seeds]
+        reached = [p for p, v in zip(seeds, spreads, strict=True) if v <= goal_va]
+        seed = reached[0] if reached else seeds[spreads.index(min(spreads))]
+        if reached and options.max_moves is None:
+            # The combinatorial bound proves it; no solver needed for this goal.
+            value = pattern_spread_va(layout, seed)
+            spent = time.perf_counter() - began
+            return (
+                StageResult("spread", value, floor, True, tuple(seed), spent, "bound"),
+                model,
+                goals,
+            )
+    stage = solve_goal(
+        model,
+        goals[0],
+        options.engine,
+        deadline - time.perf_counter(),
+        _gap(goals[0], options),
+        seed,
+    )
+    if goals[0] == "spread":
+        stage = replace(stage, bound=max(stage.bound, floor))
+    return stage, model, goals
+
+
+def _to_mixed(layout: Layout, exact: Model, placement: Model, picks: Sequence[int]) -> list[int]:
+    """Translate a placement-model answer into option indices of the mixed model."""
+    out = []
+    for u, k in enumerate(picks):
+        option = placement.options[u][k]
+        opts = exact.options[u]
+        if option in opts:
+            out.append(opts.index(option))
+        else:  # a 1-pole breaker counted by line in the mixed model
+            out.append(
+                next(j for j, o in enumerate(opts) if not o.spans and o.lines == option.lines)
+            )
+    return out
+
+
+def _last_picks(
+    stages: Sequence[StageResult], preset: Mapping[str, StageResult], start: list[int] | None
+) -> list[int]:
+    solved = [s for s in stages if s.goal not in preset]
+    if solved:
+        return list(solved[-1].picks)
+    if start is None:
+        raise SolverError("no arrangement in spaces was found")
+    return start

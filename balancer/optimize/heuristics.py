@@ -1,0 +1,332 @@
+"""Baselines: largest-first greedy and Karmarkar–Karp differencing, on numbers and on panels.
+
+Karmarkar & Karp, "The differencing method of set partitioning", UCB/CSD 82/113 (1982); the
+k-way form combines the two partial partitions with the largest spread, pairing the heaviest
+subset of one with the lightest of the other. Graham (1969) bounds greedy at 4/3 − 1/(3m).
+On panels they pick lines only (no space numbers); the exact model seeds from the better one.
+"""
+
+from __future__ import annotations
+
+import heapq
+import itertools
+import random
+import time
+from collections.abc import Sequence
+
+import numpy as np
+
+from balancer.optimize.model import Layout, contribution
+
+
+def greedy_partition(values: Sequence[float], ways: int) -> list[list[float]]:
+    """Largest value first onto the lightest subset."""
+    subsets: list[list[float]] = [[] for _ in range(ways)]
+    sums = [0.0] * ways
+    for value in sorted(values, reverse=True):
+        j = min(range(ways), key=lambda i: (sums[i], i))
+        subsets[j].append(value)
+        sums[j] += value
+    return subsets
+
+
+def karmarkar_karp(values: Sequence[float], ways: int) -> list[list[float]]:
+    """Differencing: repeatedly merge the two partial partitions of largest spread."""
+    counter = itertools.count()
+    heap: list[tuple[float, int, list[tuple[float, list[float]]]]] = []
+    for value in values:
+        part = [(value, [value])] + [(0.0, []) for _ in range(ways - 1)]
+        heapq.heappush(heap, (-value, next(counter), part))
+    if not heap:
+        return [[] for _ in range(ways)]
+    while len(heap) > 1:
+        _, _, first = heapq.heappop(heap)
+        _, _, second = heapq.heappop(heap)
+        first.sort(key=lambda s: -s[0])
+        second.sort(key=lambda s: s[0])
+        merged = [(a[0] + b[0], a[1] + b[1]) for a, b in zip(first, second, strict=True)]
+        sums = [m[0] for m in merged]
+        heapq.heappush(heap, (-(max(sums) - min(sums)), next(counter), merged))
+    return [subset for _, subset in heap[0][2]]
+
+
+def greedy_lines(layout: Layout) -> list[int] | None:
+    """Line-pattern index per unit: heaviest unit first, onto the pattern leaving the least spread.
+
+    Returns None when the free spaces per line run out before every unit is placed.
+    """
+    panel = layout.panel
+    lines = panel.lines
+    geometry = panel.geometry
+    room = {
+        line: sum(1 for s in layout.free_spaces if geometry.line_of(s) == line) for line in lines
+    }
+    fixed = contribution(
+        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+    )
+    load = dict(fixed.phase_va)
+    picks = [-1] * len(layout.units)
+    order = sorted(
+        range(len(layout.units)),
+        key=lambda u: (-sum(panel.circuits[i].load_va for i in layout.units[u].members), u),
+    )
+    for u in order:
+        unit = layout.units[u]
+        best: tuple[float, float, int] | None = None
+        for k, option in enumerate(unit.patterns()):
+            use = {line: sum(m.count(line) for m in option.lines) for line in lines}
+            if any(use[line] > room[line] for line in lines):
+                continue
+            share = contribution(panel, unit.members, option.lines).phase_va
+            after = [load[line] + share[line] for line in lines]
+            score = (max(after) - min(after), max(after), k)
+            if best is None or score < best:
+                best = score
+        if best is None:
+            return None
+        k = best[2]
+        option = unit.patterns()[k]
+        for line in lines:
+            room[line] -= sum(m.count(line) for m in option.lines)
+        for line, va in contribution(panel, unit.members, option.lines).phase_va.items():
+            load[line] += va
+        picks[u] = k
+    return picks
+
+
+def karmarkar_karp_lines(layout: Layout) -> list[int] | None:
+    """Line-pattern index per unit by vector differencing; None when the result breaks a rule.
+
+    Each unit is a vector of its per-line VA in its first pattern; merging permutes whole
+    subsets, which maps every unit onto another legal pattern except where a high leg or the
+    space count per line forbids it, which is then reported as None.
+    """
+    panel = layout.panel
+    lines = panel.lines
+    ways = len(lines)
+    counter = itertools.count()
+    Bin = tuple[float, list[tuple[int, int]]]  # (VA, [(unit or -1 for fixed, position)])
+    heap: list[tuple[float, int, list[Bin]]] = []
+
+    def push(vector: list[float], owner: int) -> None:
+        part: list[Bin] = [(vector[j], [(owner, j)]) for j in range(ways)]
+        heapq.heappush(heap, (-(max(vector) - min(vector)), next(counter), part))
+
+    fixed = contribution(
+        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+    )
+    push([fixed.phase_va[line] for line in lines], -1)
+    reference = [unit.patterns()[0] for unit in layout.units]
+    for u, unit in enumerate(layout.units):
+        share = contribution(panel, unit.members, reference[u].lines).phase_va
+        push([share[line] for line in lines], u)
+    while len(heap) > 1:
+        _, _, first = heapq.heappop(heap)
+        _, _, second = heapq.heappop(heap)
+        first.sort(key=lambda b: -b[0])
+        second.sort(key=lambda b: b[0])
+        merged: list[Bin] = [(a[0] + b[0], a[1] + b[1]) for a, b in zip(first, second, strict=True)]
+        sums = [m[0] for m in merged]
+        heapq.heappush(heap, (-(max(sums) - min(sums)), next(counter), merged))
+    bins = heap[0][2]
+    # Name the subsets so the fixed loads stay on their own lines.
+    line_of_bin = {}
+    for b, (_, owners) in enumerate(bins):
+        for owner, position in owners:
+            if owner == -1:
+                line_of_bin[b] = lines[position]
+    moved_to: dict[tuple[int, int], str] = {}
+    for b, (_, owners) in enumerate(bins):
+        for owner, position in owners:
+            moved_to[owner, position] = line_of_bin[b]
+    picks: list[int] = []
+    for u, unit in enumerate(layout.units):
+        mapping = {lines[j]: moved_to[u, j] for j in range(ways)}
+        wanted = tuple(tuple(sorted(mapping[x] for x in m)) for m in reference[u].lines)
+        found = [k for k, o in enumerate(unit.patterns()) if o.pattern == wanted]
+        if not found:
+            return None
+        picks.append(found[0])
+    room = {
+        line: sum(1 for s in layout.free_spaces if panel.geometry.line_of(s) == line)
+        for line in lines
+    }
+    for u, unit in enumerate(layout.units):
+        for member in unit.patterns()[picks[u]].lines:
+            for line in member:
+                room[line] -= 1
+    if any(v < 0 for v in room.values()):
+        return None
+    return picks
+
+
+def pattern_spread_va(layout: Layout, picks: Sequence[int]) -> float:
+    """Spread of the phase VA for a line-pattern choice per unit."""
+    panel = layout.panel
+    fixed = contribution(
+        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+    )
+    load = dict(fixed.phase_va)
+    for u, unit in enumerate(layout.units):
+        option = unit.patterns()[picks[u]]
+        for line, va in contribution(panel, unit.members, option.lines).phase_va.items():
+            load[line] += va
+    return max(load.values()) - min(load.values())
+
+
+class _LineState:
+    """Phase sums and free spaces per line for a choice of line pattern per unit."""
+
+    def __init__(self, layout: Layout, picks: Sequence[int]) -> None:
+        panel = layout.panel
+        lines = panel.lines
+        self.patterns = [unit.patterns() for unit in layout.units]
+        self.share = [
+            [
+                tuple(contribution(panel, unit.members, o.lines).phase_va[x] for x in lines)
+                for o in opts
+            ]
+            for unit, opts in zip(layout.units, self.patterns, strict=True)
+        ]
+        self.use = [
+            [tuple(sum(m.count(x) for m in o.lines) for x in lines) for o in opts]
+            for opts in self.patterns
+        ]
+        fixed = contribution(
+            panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+        )
+        self.load = [fixed.phase_va[x] for x in lines]
+        self.room = [
+            sum(1 for s in layout.free_spaces if panel.geometry.line_of(s) == x) for x in lines
+        ]
+        self.picks = list(picks)
+        for u, k in enumerate(self.picks):
+            for j in range(len(lines)):
+                self.load[j] += self.share[u][k][j]
+                self.room[j] -= self.use[u][k][j]
+
+    def score(self, load: Sequence[float]) -> tuple[float, float]:
+        mean = sum(load) / len(load)
+        return max(load) - min(load), sum((v - mean) ** 2 for v in load)
+
+    def trial(self, changes: Sequence[tuple[int, int]]) -> list[float] | None:
+        """Phase sums after the changes (unit, new pattern), or None when a line runs out."""
+        load = list(self.load)
+        room = list(self.room)
+        for u, k in changes:
+            old = self.picks[u]
+            for j in range(len(load)):
+                load[j] += self.share[u][k][j] - self.share[u][old][j]
+                room[j] += self.use[u][old][j] - self.use[u][k][j]
+        return None if min(room) < 0 else load
+
+    def apply(self, changes: Sequence[tuple[int, int]]) -> None:
+        for u, k in changes:
+            old = self.picks[u]
+            for j in range(len(self.load)):
+                self.load[j] += self.share[u][k][j] - self.share[u][old][j]
+                self.room[j] += self.use[u][old][j] - self.use[u][k][j]
+            self.picks[u] = k
+
+    def best_change(self) -> list[tuple[int, int]] | None:
+        """The single change, else the pair of changes, that lowers (spread, squared deviation)
+        most while every line keeps room; None at a local optimum."""
+        moves = [
+            (u, k)
+            for u in range(len(self.picks))
+            for k in range(len(self.patterns[u]))
+            if k != self.picks[u]
+        ]
+        if not moves:
+            return None
+        owner = np.array([u for u, _ in moves])
+        delta = np.array(
+            [np.subtract(self.share[u][k], self.share[u][self.picks[u]]) for u, k in moves]
+        )
+        need = np.array([np.subtract(self.use[u][k], self.use[u][self.picks[u]]) for u, k in moves])
+        load = np.asarray(self.load)
+        room = np.asarray(self.room)
+        here = self.score(self.load)
+        single = load + delta
+        ok: np.ndarray = np.asarray((need <= room).all(axis=1))
+        found = _pick(single, ok, here)
+        if found is not None:
+            return [moves[found]]
+        pair = load + delta[:, None, :] + delta[None, :, :]
+        ok2 = ((need[:, None, :] + need[None, :, :]) <= room).all(axis=2)
+        ok2 &= owner[:, None] < owner[None, :]
+        found = _pick(pair.reshape(-1, load.size), ok2.reshape(-1), here)
+        if found is None:
+            return None
+        i, j = divmod(found, len(moves))
+        return [moves[i], moves[j]]
+
+
+def _pick(loads: np.ndarray, ok: np.ndarray, here: tuple[float, float]) -> int | None:
+    """Index of the row with the lowest (spread, squared deviation) below ``here``."""
+    if not ok.any():
+        return None
+    spread = loads.max(axis=1) - loads.min(axis=1)
+    deviation = ((loads - loads.mean(axis=1, keepdims=True)) ** 2).sum(axis=1)
+    spread = np.where(ok, spread, np.inf)
+    order = np.lexsort((deviation, spread))
+    best = int(order[0])
+    if not ok[best] or (spread[best], deviation[best]) >= here:
+        return None
+    return best
+
+
+def local_search_lines(
+    layout: Layout,
+    picks: Sequence[int],
+    goal_spread_va: float,
+    budget_s: float,
+    restarts: bool = True,
+) -> list[int]:
+    """Improve a line-pattern choice by single and paired changes until ``goal_spread_va``.
+
+    Each step takes the best single change, else the best pair, so from the present arrangement
+    the answer stays close to it (few breakers moved). With ``restarts`` a local optimum is
+    shaken by a few random changes (seeded, so runs repeat) and the search goes on.
+    """
+    state = _LineState(layout, picks)
+    best = (state.score(state.load), list(state.picks))
+    rng = random.Random(0)
+    stop = time.perf_counter() + budget_s
+    while best[0][0] > goal_spread_va and time.perf_counter() < stop:
+        change = state.best_change()
+        if change is not None:
+            state.apply(change)
+            if state.score(state.load) < best[0]:
+                best = (state.score(state.load), list(state.picks))
+            continue
+        if not restarts:
+            break
+        for _ in range(3):
+            u = rng.randrange(len(state.picks))
+            k = rng.randrange(len(state.patterns[u]))
+            if state.trial([(u, k)]) is not None:
+                state.apply([(u, k)])
+    return best[1]
+
+
+def present_lines(layout: Layout) -> list[int] | None:
+    """Line pattern per unit as the schedule stands; unplaced units go where greedy puts them."""
+    panel = layout.panel
+    picks: list[int] = []
+    missing = False
+    for unit in layout.units:
+        current = tuple(tuple(sorted(panel.lines_of(panel.circuits[i]))) for i in unit.members)
+        found = [k for k, o in enumerate(unit.patterns()) if o.pattern == current]
+        picks.append(found[0] if found else 0)
+        missing = missing or not found
+    if missing:
+        greedy = greedy_lines(layout)
+        if greedy is None:
+            return None
+        for u, unit in enumerate(layout.units):
+            current = tuple(tuple(sorted(panel.lines_of(panel.circuits[i]))) for i in unit.members)
+            if current not in {o.pattern for o in unit.patterns()}:
+                picks[u] = greedy[u]
+    state = _LineState(layout, picks)
+    return picks if min(state.room) >= 0 else None

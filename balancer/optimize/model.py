@@ -1,0 +1,524 @@
+"""The balancing problem as data and as mixed-integer programs; building touches no file or solver.
+
+A *unit* is what moves as one piece: a single circuit, or every member of a multiwire group (its
+members sit on consecutive spaces of one side). Each unit has *options*: in the space-level model
+every legal placement, in the line-level model every distinct assignment of lines (the space
+numbers on one line are interchangeable for the phase sums, so deciding lines first removes that
+symmetry). Variables are named by index (``y_12_3``) and mapped back through ``Model.choice``.
+"""
+
+from __future__ import annotations
+
+import cmath
+import itertools
+import math
+from collections.abc import Collection, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Literal
+
+import pulp
+
+from balancer.errors import InfeasibleError
+from balancer.panel import Circuit, Panel
+from balancer.phasors import circuit_line_currents
+from balancer.result import BalanceOptions
+from balancer.systems import Line
+
+ModelKind = Literal["line", "space", "mixed"]
+
+# Sides of the regular polygon that linearises |I|: max_k Re(I e^{-jθk}) ≤ |I| ≤ that / cos(π/m).
+POLYGON_SIDES = 64
+POLYGON_ERROR = 1.0 / math.cos(math.pi / POLYGON_SIDES) - 1.0  # 0.12 % for 64 sides
+
+
+@dataclass(frozen=True, slots=True)
+class Option:
+    """One way to place a unit: per member, its lines (space order) and spaces.
+
+    ``spans`` is empty in the line-level model, where ``moves`` is the fewest moves any placement
+    with these lines needs (a lower bound on what the space placement will need).
+    """
+
+    lines: tuple[tuple[Line, ...], ...]
+    spans: tuple[tuple[int, ...], ...]
+    moves: int
+
+    @property
+    def pattern(self) -> tuple[tuple[Line, ...], ...]:
+        return tuple(tuple(sorted(member)) for member in self.lines)
+
+
+@dataclass(frozen=True, slots=True)
+class Unit:
+    """Circuits that move together (indices into ``panel.circuits``) and their legal placements."""
+
+    members: tuple[int, ...]
+    group: str
+    placements: tuple[Option, ...]
+
+    def patterns(self) -> tuple[Option, ...]:
+        """Distinct line assignments, each with the fewest moves among its placements."""
+        best: dict[tuple[tuple[Line, ...], ...], Option] = {}
+        for option in self.placements:
+            key = option.pattern
+            if key not in best or option.moves < best[key].moves:
+                best[key] = Option(key, (), option.moves)
+        return tuple(best.values())
+
+
+@dataclass(frozen=True, slots=True)
+class Layout:
+    """Which circuits stay put (``fixed``) and which units the optimiser places."""
+
+    panel: Panel
+    units: tuple[Unit, ...]
+    fixed: tuple[int, ...]
+    free_spaces: tuple[int, ...]
+    count_moves: bool
+
+
+def _keeps_spaces(circuit: Circuit, options: BalanceOptions) -> bool:
+    if circuit.locked:
+        return True
+    return circuit.is_spare and circuit.placed and not options.move_spares
+
+
+def _check_circuit(panel: Panel, circuit: Circuit) -> None:
+    system = panel.system
+    if circuit.poles not in range(1, system.max_poles + 1):
+        raise InfeasibleError(
+            f"circuit {circuit.id}: {circuit.poles} poles cannot connect to a "
+            f"{system.label()} system with {len(system.lines)} lines"
+        )
+    if circuit.poles == 1 and not system.neutral:
+        raise InfeasibleError(
+            f"circuit {circuit.id}: a 1-pole (line-to-neutral) load needs a neutral, "
+            f"and a {system.label()} system has none"
+        )
+
+
+def _check_fixed(panel: Panel, circuit: Circuit) -> None:
+    geometry = panel.geometry
+    if not circuit.placed:
+        raise InfeasibleError(f"circuit {circuit.id} is locked but has no space number")
+    first = circuit.spaces[0]
+    if not geometry.fits(first, circuit.poles) or geometry.span(first, circuit.poles) != tuple(
+        circuit.spaces
+    ):
+        raise InfeasibleError(
+            f"circuit {circuit.id} keeps spaces {list(circuit.spaces)}, which are not a legal "
+            f"{circuit.poles}-pole position in a {panel.spaces}-space panel"
+        )
+    if circuit.poles == 1 and not panel.system.serves_line_to_neutral(geometry.line_of(first)):
+        raise InfeasibleError(
+            f"circuit {circuit.id} keeps space {first} on line {geometry.line_of(first)}, "
+            "which may not serve a line-to-neutral load"
+        )
+
+
+def _placements(
+    panel: Panel, members: Sequence[int], fixed_members: set[int], free: set[int], fresh: bool
+) -> tuple[Option, ...]:
+    """Every legal placement of one unit in ``free`` spaces (its fixed members' own included)."""
+    geometry = panel.geometry
+    circuits = [panel.circuits[i] for i in members]
+    total_poles = sum(c.poles for c in circuits)
+    out: list[Option] = []
+    seen: set[tuple[tuple[int, ...], ...]] = set()
+    for order in itertools.permutations(range(len(members))):
+        for first in range(1, panel.spaces + 1):
+            if not geometry.fits(first, total_poles):
+                continue
+            block = geometry.span(first, total_poles)
+            if not set(block) <= free:
+                continue
+            spans: list[tuple[int, ...]] = [()] * len(members)
+            at = 0
+            for k in order:
+                spans[k] = block[at : at + circuits[k].poles]
+                at += circuits[k].poles
+            key = tuple(spans)
+            if key in seen:
+                continue
+            if any(members[k] in fixed_members and spans[k] != circuits[k].spaces for k in order):
+                continue
+            lines = tuple(tuple(geometry.line_of(s) for s in span) for span in spans)
+            if any(
+                c.poles == 1 and not panel.system.serves_line_to_neutral(ls[0])
+                for c, ls in zip(circuits, lines, strict=True)
+            ):
+                continue
+            seen.add(key)
+            moves = 0
+            if not fresh:
+                moves = sum(
+                    1 for c, s in zip(circuits, spans, strict=True) if c.placed and c.spaces != s
+                )
+            out.append(Option(lines, key, moves))
+    return tuple(out)
+
+
+def build_layout(panel: Panel, options: BalanceOptions) -> Layout:
+    """Split the panel into fixed circuits and movable units; raise InfeasibleError on conflicts."""
+    lines = panel.lines
+    for circuit in panel.circuits:
+        _check_circuit(panel, circuit)
+    poles = sum(c.poles for c in panel.circuits)
+    if poles > panel.spaces:
+        raise InfeasibleError(
+            f"the circuits need {poles} poles but the panel has only {panel.spaces} spaces"
+        )
+    keeps = [_keeps_spaces(c, options) for c in panel.circuits]
+    groups: dict[str, list[int]] = {}
+    for i, circuit in enumerate(panel.circuits):
+        if circuit.group:
+            groups.setdefault(circuit.group, []).append(i)
+    holder: dict[int, str] = {}
+    for i, circuit in enumerate(panel.circuits):
+        if not keeps[i]:
+            continue
+        _check_fixed(panel, circuit)
+        for s in circuit.spaces:
+            if s in holder:
+                raise InfeasibleError(f"circuits {holder[s]} and {circuit.id} both keep space {s}")
+            holder[s] = circuit.id
+    fixed = tuple(i for i, c in enumerate(panel.circuits) if keeps[i] and not c.group)
+    taken = {s for i in fixed for s in panel.circuits[i].spaces}
+    free = set(range(1, panel.spaces + 1)) - taken
+    # Members of a group that keep their spaces bind the group; other units may not use them.
+    group_held = {s for i, c in enumerate(panel.circuits) if keeps[i] and c.group for s in c.spaces}
+    units: list[Unit] = []
+    pieces: list[tuple[Sequence[int], str]] = []
+    for i, circuit in enumerate(panel.circuits):
+        if not keeps[i] and not circuit.group:
+            pieces.append(((i,), ""))
+    for name, group_members in groups.items():
+        group_poles = sum(panel.circuits[i].poles for i in group_members)
+        if group_poles > len(lines):
+            raise InfeasibleError(
+                f"multiwire group {name!r} has {group_poles} poles, but its conductors must be on "
+                f"different lines and the system has {len(lines)}"
+            )
+        pieces.append((tuple(group_members), name))
+    for member_list, name in pieces:
+        members = tuple(member_list)
+        fixed_members = {i for i in members if keeps[i]}
+        own = {s for i in fixed_members for s in panel.circuits[i].spaces}
+        usable = (free - group_held) | own
+        placements = _placements(panel, members, fixed_members, usable, options.fresh)
+        if not placements:
+            what = (
+                f"multiwire group {name!r}" if name else f"circuit {panel.circuits[members[0]].id}"
+            )
+            need = sum(panel.circuits[i].poles for i in members)
+            raise InfeasibleError(
+                f"{what} has no legal place: it needs {need} adjacent free spaces on one side"
+                + (" on lines that serve line-to-neutral loads" if panel.system.high_leg else "")
+                + (" around its locked members" if fixed_members else "")
+            )
+        units.append(Unit(members, name, placements))
+    return Layout(panel, tuple(units), fixed, tuple(sorted(free)), not options.fresh)
+
+
+@dataclass(frozen=True, slots=True)
+class Contribution:
+    """What one option adds to the phase sums and currents."""
+
+    phase_va: dict[Line, float]
+    neutral: complex
+    line_current: dict[Line, complex]
+
+
+def contribution(
+    panel: Panel, members: Sequence[int], lines: Sequence[Sequence[Line]]
+) -> Contribution:
+    phase = dict.fromkeys(panel.lines, 0.0)
+    current = dict.fromkeys(panel.lines, 0j)
+    neutral = 0j
+    for i, member_lines in zip(members, lines, strict=True):
+        circuit = panel.circuits[i]
+        for line in member_lines:
+            phase[line] += circuit.load_va / len(member_lines)
+        parts = circuit_line_currents(
+            panel.system, tuple(member_lines), circuit.load_va, circuit.power_factor
+        )
+        for line, value in parts.items():
+            current[line] += value
+        if len(member_lines) == 1:
+            neutral += parts[member_lines[0]]
+    return Contribution(phase, neutral, current)
+
+
+@dataclass(slots=True)
+class Model:
+    """A PuLP problem and the maps back to units and options."""
+
+    kind: ModelKind
+    layout: Layout
+    prob: pulp.LpProblem
+    options: tuple[tuple[Option, ...], ...]
+    choice: dict[tuple[int, int], pulp.LpVariable]
+    phase_va: dict[Line, pulp.LpAffineExpression]
+    goals: dict[str, pulp.LpAffineExpression] = field(default_factory=dict)
+
+    def chosen(self) -> list[int]:
+        """Option index per unit from the current variable values (binaries rounded)."""
+        picks = []
+        for u, opts in enumerate(self.options):
+            on = [k for k in range(len(opts)) if (self.choice[u, k].varValue or 0.0) > 0.5]
+            picks.append(on[0] if len(on) == 1 else -1)
+        return picks
+
+
+def _polygon_rows(
+    prob: pulp.LpProblem,
+    bound: pulp.LpVariable,
+    terms: Sequence[tuple[pulp.LpVariable, complex]],
+    constant: complex,
+    tag: str,
+) -> None:
+    """bound ≥ Re(I e^{-jθk}) for every side k, with I = constant + Σ value·x."""
+    for k in range(POLYGON_SIDES):
+        turn = cmath.rect(1.0, -2.0 * math.pi * k / POLYGON_SIDES)
+        expr = pulp.LpAffineExpression(
+            [(x, (value * turn).real) for x, value in terms if abs(value) > 0]
+        )
+        prob += (bound >= expr + (constant * turn).real, f"{tag}_{k}")
+
+
+def has_neutral_goal(layout: Layout) -> bool:
+    """Whether the neutral current depends on the arrangement (a neutral and a 1-pole load)."""
+    panel = layout.panel
+    return panel.system.neutral and any(
+        panel.circuits[i].poles == 1 for unit in layout.units for i in unit.members
+    )
+
+
+def _single_pole(layout: Layout, unit: Unit) -> bool:
+    return len(unit.members) == 1 and layout.panel.circuits[unit.members[0]].poles == 1
+
+
+def _single_pole_options(layout: Layout, unit: Unit) -> tuple[Option, ...]:
+    """Stay where it is (if legal), or go to any free space of a line (counted, not named).
+
+    1-pole breakers on one line are interchangeable, so the mixed model counts them per line
+    against the spaces left free there; which free space each takes is settled afterwards.
+    """
+    circuit = layout.panel.circuits[unit.members[0]]
+    cost = 1 if circuit.placed and layout.count_moves else 0
+    stay = [o for o in unit.placements if o.spans == (circuit.spaces,)] if cost else []
+    return tuple(stay) + tuple(Option(p.lines, (), cost) for p in unit.patterns())
+
+
+def realise(layout: Layout, chosen: Sequence[Option]) -> list[Option]:
+    """Give every counted 1-pole choice a free space on its line (lowest number first)."""
+    geometry = layout.panel.geometry
+    used = {s for o in chosen for span in o.spans for s in span}
+    open_on: dict[Line, list[int]] = {}
+    for s in layout.free_spaces:
+        if s not in used:
+            open_on.setdefault(geometry.line_of(s), []).append(s)
+    out = []
+    for unit, option in zip(layout.units, chosen, strict=True):
+        if option.spans:
+            out.append(option)
+            continue
+        (line,) = option.lines[0]
+        spaces = open_on.get(line, [])
+        if not spaces:
+            raise InfeasibleError(f"no free space left on line {line}")
+        own = layout.panel.circuits[unit.members[0]].spaces
+        space = own[0] if own and own[0] in spaces else spaces[0]
+        spaces.remove(space)
+        out.append(Option(option.lines, ((space,),), 0 if (space,) == own else option.moves))
+    return out
+
+
+def build_model(
+    layout: Layout,
+    kind: ModelKind,
+    options: BalanceOptions,
+    allowed: Mapping[int, set[tuple[tuple[Line, ...], ...]]] | None = None,
+    target_imbalance_pct: float | None = None,
+    include: Collection[str] | None = None,
+) -> Model:
+    """Build a problem; goals are expressions in ``Model.goals``.
+
+    ``kind``: ``line`` decides lines only, with the free spaces per line as capacity (a
+    relaxation: its bounds hold for every arrangement); ``space`` names every placement (the
+    plain model, kept as a baseline and for placing a line-level answer); ``mixed`` is exact:
+    multi-pole breakers and groups by placement, 1-pole breakers by staying put or by line.
+
+    ``allowed`` restricts a unit to options with the given line patterns (placing a line-level
+    answer into spaces); ``include`` limits the current goals built (their polygon rows are
+    dense), by default those ``options`` needs. Goal expressions: ``spread`` (max − min phase
+    VA), ``moves``, ``neutral`` and ``line`` (polygon bounds on |I_N| and the largest |I_line|,
+    amperes).
+    """
+    panel = layout.panel
+    lines = panel.lines
+    geometry = panel.geometry
+    prob = pulp.LpProblem(f"balance_{kind}", pulp.LpMinimize)
+    unit_options: list[tuple[Option, ...]] = []
+    for u, unit in enumerate(layout.units):
+        if kind == "line":
+            opts = unit.patterns()
+        elif kind == "mixed" and _single_pole(layout, unit):
+            opts = _single_pole_options(layout, unit)
+        else:
+            opts = unit.placements
+        if allowed is not None and u in allowed:
+            opts = tuple(o for o in opts if o.pattern in allowed[u])
+        unit_options.append(opts)
+    choice: dict[tuple[int, int], pulp.LpVariable] = {}
+    for u, opts in enumerate(unit_options):
+        for k in range(len(opts)):
+            choice[u, k] = prob.add_variable(f"y_{u}_{k}", 0, 1, cat=pulp.LpBinary)
+    for u, opts in enumerate(unit_options):
+        prob += (pulp.lpSum(choice[u, k] for k in range(len(opts))) == 1, f"one_{u}")
+
+    if kind in ("line", "mixed"):
+        free_on = {
+            line: sum(1 for s in layout.free_spaces if geometry.line_of(s) == line)
+            for line in lines
+        }
+        for j, line in enumerate(lines):
+            use = [
+                (choice[u, k], sum(member.count(line) for member in o.lines))
+                for u, opts in enumerate(unit_options)
+                for k, o in enumerate(opts)
+            ]
+            prob += (
+                pulp.LpAffineExpression([(x, n) for x, n in use if n]) <= free_on[line],
+                f"room_{j}",
+            )
+    if kind in ("space", "mixed"):
+        cover: dict[int, list[pulp.LpVariable]] = {}
+        for u, opts in enumerate(unit_options):
+            for k, o in enumerate(opts):
+                for span in o.spans:
+                    for s in span:
+                        cover.setdefault(s, []).append(choice[u, k])
+        for s in sorted(cover):
+            if len(cover[s]) > 1:
+                prob += (pulp.lpSum(cover[s]) <= 1, f"space_{s}")
+
+    fixed = contribution(
+        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+    )
+    parts = [
+        [contribution(panel, layout.units[u].members, o.lines) for o in opts]
+        for u, opts in enumerate(unit_options)
+    ]
+    phase_va: dict[Line, pulp.LpAffineExpression] = {}
+    for line in lines:
+        phase_va[line] = pulp.LpAffineExpression(
+            [
+                (choice[u, k], part.phase_va[line])
+                for u, unit_parts in enumerate(parts)
+                for k, part in enumerate(unit_parts)
+                if part.phase_va[line]
+            ],
+            constant=fixed.phase_va[line],
+        )
+    high = prob.add_variable("t_max", None, None)
+    low = prob.add_variable("t_min", None, None)
+    for j, line in enumerate(lines):
+        prob += (high >= phase_va[line], f"hi_{j}")
+        prob += (low <= phase_va[line], f"lo_{j}")
+    goals: dict[str, pulp.LpAffineExpression] = {"spread": high - low}
+
+    moves = pulp.LpAffineExpression(
+        [
+            (choice[u, k], o.moves)
+            for u, opts in enumerate(unit_options)
+            for k, o in enumerate(opts)
+            if o.moves
+        ]
+    )
+    goals["moves"] = moves
+    if layout.count_moves and options.max_moves is not None:
+        prob += (moves <= options.max_moves, "move_budget")
+
+    if target_imbalance_pct is not None:
+        total = sum(fixed.phase_va.values()) + sum(
+            panel.circuits[i].load_va for unit in layout.units for i in unit.members
+        )
+        allowance = target_imbalance_pct / 100.0 * total / len(lines)
+        for j, line in enumerate(lines):
+            prob += (phase_va[line] <= total / len(lines) + allowance, f"target_hi_{j}")
+            prob += (phase_va[line] >= total / len(lines) - allowance, f"target_lo_{j}")
+
+    wanted = set(include) if include is not None else {"neutral", options.objective}
+    if "neutral" in wanted and has_neutral_goal(layout):
+        neutral = prob.add_variable("z_n", 0, None)
+        terms = [
+            (choice[u, k], part.neutral)
+            for u, unit_parts in enumerate(parts)
+            for k, part in enumerate(unit_parts)
+        ]
+        _polygon_rows(prob, neutral, terms, fixed.neutral, "neutral")
+        goals["neutral"] = pulp.LpAffineExpression([(neutral, 1.0)])
+    if "line" in wanted:
+        worst = prob.add_variable("z_l", 0, None)
+        for j, line in enumerate(lines):
+            terms = [
+                (choice[u, k], part.line_current[line])
+                for u, unit_parts in enumerate(parts)
+                for k, part in enumerate(unit_parts)
+            ]
+            _polygon_rows(prob, worst, terms, fixed.line_current[line], f"line_{j}")
+        goals["line"] = pulp.LpAffineExpression([(worst, 1.0)])
+    prob.setObjective(goals["spread"])
+    return Model(kind, layout, prob, tuple(unit_options), choice, phase_va, goals)
+
+
+def placed_circuits(layout: Layout, options: Sequence[Option]) -> list[Circuit]:
+    """The panel's circuits with each unit moved to its chosen placement."""
+    circuits = list(layout.panel.circuits)
+    for unit, option in zip(layout.units, options, strict=True):
+        for i, span in zip(unit.members, option.spans, strict=True):
+            circuits[i] = circuits[i].moved_to(tuple(span))
+    return circuits
+
+
+def spread_lower_bound(layout: Layout) -> float:
+    """A combinatorial lower bound on the phase spread of any legal arrangement (VA).
+
+    Two arguments, both from the phase sums alone (so they hold whatever the geometry):
+
+    * largest piece: some line carries at least ``m`` (the heaviest single share on top of the
+      lightest fixed line, a fixed line load, or the average), and the lightest line then has at
+      most ``(total − m)/(n − 1)``, so spread ≥ m − (total − m)/(n − 1);
+    * granularity: when every share is a multiple of ``g`` (checked on a 1/6 VA grid, which
+      holds halves and thirds of whole-VA loads) and the total is not ``n`` equal multiples of
+      ``g``, the lines cannot all be equal, so spread ≥ g.
+    """
+    panel = layout.panel
+    n = len(panel.lines)
+    fixed = contribution(
+        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+    )
+    shares: list[float] = []
+    for i in layout.fixed:
+        circuit = panel.circuits[i]
+        shares += [circuit.load_va / circuit.poles] * circuit.poles
+    heaviest = 0.0
+    for unit in layout.units:
+        for i in unit.members:
+            circuit = panel.circuits[i]
+            share = circuit.load_va / circuit.poles
+            shares += [share] * circuit.poles
+            if circuit.poles < n:  # a share on every line cannot unbalance them
+                heaviest = max(heaviest, share)
+    total = math.fsum(fixed.phase_va.values()) + math.fsum(
+        panel.circuits[i].load_va for unit in layout.units for i in unit.members
+    )
+    top = max(total / n, max(fixed.phase_va.values()), min(fixed.phase_va.values()) + heaviest)
+    bound = max(0.0, top - (total - top) / (n - 1))
+    sixths = [round(s * 6) for s in shares]
+    if all(abs(s * 6 - k) < 1e-6 for s, k in zip(shares, sixths, strict=True)):
+        g = math.gcd(*sixths) if sixths else 0
+        if g and (sum(sixths) // g) % n:
+            bound = max(bound, g / 6)
+    return bound if bound > 1e-9 * max(1.0, total) else 0.0  # float noise is not a bound

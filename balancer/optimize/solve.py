@@ -1,0 +1,167 @@
+"""Run a model on an engine and say how far the answer is proven.
+
+Proof is read from the engine itself (HiGHS model status and ``mip_dual_bound``; CBC's
+``sol_status``), never from PuLP's ``LpStatus``, which calls a time-limited incumbent "Optimal".
+"""
+
+from __future__ import annotations
+
+import contextlib
+import math
+import os
+import sys
+import tempfile
+import time
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+
+import highspy
+import pulp
+from pulp.apis.coin_api import PULP_CBC_CMD
+
+from balancer.errors import InfeasibleError, SolverError
+from balancer.optimize.model import Model
+
+BOUND_SLACK = 1e-6  # numerical slack when comparing an objective with its bound
+
+
+@dataclass(frozen=True, slots=True)
+class StageResult:
+    """One lexicographic stage: value reached, best bound, and whether the gap is closed."""
+
+    goal: str
+    value: float
+    bound: float
+    proven: bool
+    picks: tuple[int, ...]
+    seconds: float
+    engine_status: str
+
+
+@contextlib.contextmanager
+def quiet_stdout() -> Iterator[None]:
+    """Send file descriptor 1 to the null device: HiGHS prints its banner there even when quiet."""
+    sys.stdout.flush()
+    saved = os.dup(1)
+    null = os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(null, 1)
+        yield
+    finally:
+        sys.stdout.flush()
+        os.dup2(saved, 1)
+        os.close(saved)
+        os.close(null)
+
+
+class _SeededHighs(pulp.HiGHS):
+    """In-process HiGHS that hands the variables' initial values to highspy as a start."""
+
+    def __init__(self, start: dict[str, float] | None, **kwargs: object) -> None:
+        super().__init__(**kwargs)
+        self.start = start
+
+    def callSolver(self, lp: pulp.LpProblem) -> None:
+        if self.start:
+            index = [v.index for v in lp.variables() if v.name in self.start]
+            value = [float(self.start[v.name]) for v in lp.variables() if v.name in self.start]
+            lp.solverModel.setSolution(len(index), index, value)
+        lp.solverModel.run()
+
+
+def cbc_available() -> bool:
+    path = PULP_CBC_CMD.pulp_cbc_path
+    return os.path.isfile(path) and os.access(path, os.X_OK)
+
+
+def _start_values(model: Model, picks: Sequence[int] | None) -> dict[str, float] | None:
+    if picks is None or any(p < 0 for p in picks):
+        return None
+    start = {}
+    for (u, k), var in model.choice.items():
+        start[var.name] = 1.0 if picks[u] == k else 0.0
+    return start
+
+
+def solve_goal(
+    model: Model,
+    goal: str,
+    engine: str,
+    time_limit_s: float,
+    gap_abs: float,
+    start: Sequence[int] | None = None,
+) -> StageResult:
+    """Minimise ``model.goals[goal]``; the problem's existing constraints stay."""
+    expr = model.goals[goal]
+    model.prob.setObjective(expr)
+    limit = max(0.05, time_limit_s)
+    begin = time.perf_counter()
+    values = _start_values(model, start)
+    if engine == "highs":
+        solver = _SeededHighs(
+            values, msg=False, timeLimit=limit, gapAbs=gap_abs, gapRel=0.0, threads=1
+        )
+        with quiet_stdout():
+            model.prob.solve(solver)
+        highs: highspy.Highs = model.prob.solverModel
+        text = highs.modelStatusToString(highs.getModelStatus())
+        info = highs.getInfo()
+        bound = float(info.mip_dual_bound) + float(expr.constant)
+        has_solution = int(info.primal_solution_status) == int(
+            highspy.SolutionStatus.kSolutionStatusFeasible
+        )
+        infeasible = highs.getModelStatus() == highspy.HighsModelStatus.kInfeasible
+    elif engine == "cbc":
+        if not cbc_available():
+            raise SolverError("the CBC engine is not available in this installation")
+        with tempfile.TemporaryDirectory() as folder:
+            if values:
+                for var in model.prob.variables():
+                    if var.name in values:
+                        var.setInitialValue(values[var.name])
+            solver = pulp.COIN_CMD(
+                path=PULP_CBC_CMD.pulp_cbc_path,
+                msg=False,
+                timeLimit=limit,
+                gapAbs=gap_abs,
+                gapRel=0.0,
+                warmStart=bool(values),
+            )
+            solver.tmpDir = folder
+            with quiet_stdout():
+                model.prob.solve(solver)
+        text = pulp.LpStatus[model.prob.status]
+        has_solution = model.prob.sol_status in (
+            pulp.LpSolutionOptimal,
+            pulp.LpSolutionIntegerFeasible,
+        )
+        infeasible = model.prob.status == pulp.LpStatusInfeasible
+        # PuLP gives no dual bound from CBC; a proven answer is within gap_abs of the optimum.
+        bound = -math.inf
+    else:
+        raise SolverError(f"unknown engine {engine!r}; use 'highs' or 'cbc'")
+    seconds = time.perf_counter() - begin
+    if infeasible:
+        raise InfeasibleError(f"no arrangement satisfies the panel's rules ({goal} stage)")
+    if not has_solution:
+        raise SolverError(
+            f"{engine} found no arrangement within {limit:.1f} s ({text}); raise the time limit"
+        )
+    picks = tuple(model.chosen())
+    if any(p < 0 for p in picks):
+        raise SolverError(f"{engine} returned a fractional choice; the answer was discarded")
+    value = float(pulp.value(expr))
+    if engine == "cbc":
+        proven = model.prob.sol_status == pulp.LpSolutionOptimal
+        bound = value - gap_abs if proven else -math.inf
+    else:
+        proven = (
+            highs.getModelStatus() == highspy.HighsModelStatus.kOptimal
+            and value - bound <= gap_abs + BOUND_SLACK * max(1.0, abs(value))
+        )
+    return StageResult(goal, value, bound, proven, picks, seconds, text)
+
+
+def cap(model: Model, goal: str, limit: float, name: str) -> None:
+    """Keep ``goal`` at or below ``limit`` in later stages."""
+    model.prob += (model.goals[goal] <= limit, name)
