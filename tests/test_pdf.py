@@ -141,5 +141,5 @@ def test_long_descriptions_shrink_before_they_are_cut(tmp_path: Path) -> None:
     )
     panel = dataclasses.replace(base, circuits=circuits)
     for paper in ("letter", "a4"):
-        out = write_pdf(tmp_path / f"{paper}.pdf", panel, analyze(panel), paper=paper)  # type: ignore[arg-type]
+        out = write_pdf(tmp_path / f"{paper}.pdf", panel, analyze(panel), paper=paper)
         assert long_name in _flat(_text(out)[1])
