@@ -22,7 +22,7 @@ from openpyxl.utils.exceptions import InvalidFileException
 from balancer.errors import Problem, ScheduleError
 from balancer.io.columns import BY_KEY, ColumnSpec, all_spellings, match, normalise
 from balancer.panel import SPARE, Circuit, Geometry, Panel, smallest_space_count
-from balancer.systems import System, find_system, known_designations
+from balancer.systems import System, check_connection, find_system, known_designations
 
 DEFAULT_SYSTEM = "208Y/120"
 HEADER_SEARCH_ROWS = 40
@@ -537,6 +537,16 @@ def _placement_problems(
                     "cannot go there",
                 )
             )
+        elif circuit.poles > 1 or system.neutral:
+            reason = check_connection(
+                system,
+                geometry.lines_of(circuit.spaces[0], circuit.poles),
+                circuit.poles,
+                circuit.voltage_v,
+                circuit.neutral_va,
+            )
+            if reason:
+                problems.append(Problem(at, f"'{circuit.description}': {reason}"))
     poles = sum(c.poles for c in circuits)
     if poles > spaces:
         problems.append(
