@@ -54,7 +54,10 @@ _SPELLINGS = {
     "water_heating": "wh waterheater waterheating whtr dhw hwh ewh",
     "ev": "ev evse evcharger evcharging evcs charger",
     "spare": "spare space spc spares spaces",
-    "other": "other misc miscellaneous equipment equip",
+    # counted at 100 %: equipment with no diversity rule of its own in Article 220 here
+    # (welders' 630.11 factors are not applied; a transformer feed is its connected load)
+    "other": "other misc miscellaneous equipment equip computer computers it data electronics "
+    "welder welders transformer xfmr",
 }
 # Type/Class spellings (after _normalise) → load class; common practice abbreviations.
 CLASS_SPELLINGS: dict[str, str] = {
