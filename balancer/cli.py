@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -296,9 +296,16 @@ def _same_file(first: Path, second: Path) -> bool:
 
 
 def balance_file(
-    schedule: Path, output: Path | None, options: Any, overrides: PanelOverrides
+    schedule: Path,
+    output: Path | None,
+    options: Any,
+    overrides: PanelOverrides,
+    demand_for: Callable[[Panel], Any] | None = None,
 ) -> tuple[Any, Path]:
-    """Read → balance → write; returns the result and the workbook written."""
+    """Read → balance → write; returns the result and the workbook written.
+
+    ``demand_for`` computes the demand and feeder check of the revised panel for the workbook.
+    """
     output = output or default_output(schedule)
     if _same_file(schedule, output):
         raise ScheduleError(
@@ -312,7 +319,8 @@ def balance_file(
     from balancer.optimize import balance
 
     result = balance(panel, options)
-    written = write_workbook(result, output)
+    demand = demand_for(result.after_panel) if demand_for is not None else None
+    written = write_workbook(result, output, input_path=schedule, demand=demand)
     return result, written
 
 
@@ -400,7 +408,13 @@ def run_balance(args: argparse.Namespace) -> int:
     from balancer.demand import check_choices, demand_to_dict, loads_section_lines
 
     check_choices(args.rules, args.occupancy)
-    result, written = balance_file(args.schedule, args.output, _options(args), _overrides(args))
+    result, written = balance_file(
+        args.schedule,
+        args.output,
+        _options(args),
+        _overrides(args),
+        demand_for=lambda panel: _demand(args, panel),
+    )
     demand = _demand(args, result.after_panel)
     pdf = _pdf_path(args, "-balanced")
     if pdf is not None:

@@ -43,3 +43,23 @@ def test_check_pdf_refuses_the_input(schedule: Path, capsys: pytest.CaptureFixtu
     assert main(["check", str(schedule), "--pdf", str(schedule)]) != 0
     assert "input" in capsys.readouterr().err
     assert schedule.read_bytes() == before
+
+
+def test_balance_writes_workbook_with_demand_and_pdf(
+    schedule: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from openpyxl import load_workbook
+
+    before = schedule.read_bytes()
+    code = main(["balance", str(schedule), "--pdf", "--time-limit", "5", "--no-color"])
+    assert code == 0
+    workbook = schedule.with_name(f"{schedule.stem}-balanced.xlsx")
+    pdf = schedule.with_name(f"{schedule.stem}-balanced.pdf")
+    assert "Demand" in load_workbook(workbook).sheetnames
+    text = " ".join(page.extract_text() for page in pypdf.PdfReader(pdf).pages)
+    assert "Circuit directory" in text
+    assert "Demand load and feeder check" in text
+    out = capsys.readouterr().out
+    assert f"Wrote {pdf}" in out
+    assert "After" in out
+    assert schedule.read_bytes() == before
