@@ -339,6 +339,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     for note in result.notes:
         row += 1
         _put(ws, row, 1, "Note")
+        ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
         _long_text(ws, row, 2, note, last_col=6, chars_per_line=60)
     if result.after.unplaced:
         row += 1
@@ -650,9 +651,11 @@ def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
                 cell.number_format = VA
             if c == 1 and isinstance(value, str):
                 cell.font = Font(bold=True)
+            cell.alignment = Alignment(vertical="top")
             if isinstance(value, str) and len(value) > COLUMN_CHARS_MAX:
                 cell.alignment = _WRAP
-                lines = math.ceil(len(value) / COLUMN_CHARS_MAX)
+                # Proportional type fits fewer characters than the column's nominal width.
+                lines = math.ceil(len(value) / (COLUMN_CHARS_MAX * 0.8))
                 height = ws.row_dimensions[r].height or 15
                 ws.row_dimensions[r].height = max(height, 15 * lines + 2)
             while len(widths) < c:
