@@ -8,15 +8,14 @@ from __future__ import annotations
 import dataclasses
 from pathlib import Path
 
+import pypdf
 import pytest
 from writer_demo import demo_panel, demo_result
 
-pypdf = pytest.importorskip("pypdf")
-
-from balancer.analysis import analyze  # noqa: E402
-from balancer.errors import BalancerError  # noqa: E402
-from balancer.io.pdf import PAPER_IN, write_pdf  # noqa: E402
-from balancer.panel import Circuit  # noqa: E402
+from balancer.analysis import analyze
+from balancer.errors import BalancerError
+from balancer.io.pdf import PAPER_IN, write_pdf
+from balancer.panel import Circuit
 
 POINTS_PER_IN = 72.0
 

@@ -5,11 +5,10 @@ from __future__ import annotations
 import shutil
 from pathlib import Path
 
+import pypdf
 import pytest
 
-pypdf = pytest.importorskip("pypdf")
-
-from balancer.cli import main  # noqa: E402
+from balancer.cli import main
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
 
