@@ -94,7 +94,7 @@ def tradeoff(
         used = count_moves(panel, result.after_panel)
         if used > k:
             raise SolverError(f"asked for at most {k} moves, the optimiser returned {used}")
-        status = result.status
+        status = _spread_status(result, tolerance)
         if results and result.after.spread_va > results[-1].after.spread_va + tolerance:
             # At most k−1 moves is also at most k moves: a worse answer here was not proven.
             if status is SolveStatus.OPTIMAL and rows[-1].status is SolveStatus.OPTIMAL:
@@ -115,12 +115,36 @@ def tradeoff(
             )
         )
     capped = last < full_moves
+    if not capped and _spread_status(full, tolerance) is SolveStatus.OPTIMAL:
+        # The unlimited run may spend moves on a tie-breaker (neutral current); the table stops
+        # at the first budget proven to reach the same spread.
+        first = next(
+            r.moves
+            for r in rows
+            if r.status is SolveStatus.OPTIMAL and r.spread_va <= full.after.spread_va + tolerance
+        )
+        if first < full_moves:
+            notes.append(
+                f"the unlimited run used {full_moves} moves; {first} reach the same spread"
+            )
+            rows, results, full_moves = rows[: first + 1], results[: first + 1], first
     if capped:
         notes.append(
             f"table stops at {last} moves; the best arrangement found needs {full_moves} "
             f"moves for {full.after.spread_va:,.0f} VA spread ({full.status.value})"
         )
     return Tradeoff(tuple(rows), tuple(results), full_moves, capped, tuple(notes))
+
+
+def _spread_status(result: BalanceResult, tolerance_va: float) -> SolveStatus:
+    """OPTIMAL when the spread is proven within tolerance for the run's budget.
+
+    The optimiser's own status also covers its later goals (fewest moves, neutral current);
+    a row of this table is about the spread, which the run's lower bound settles.
+    """
+    if result.status is SolveStatus.FEASIBLE and result.gap_va <= tolerance_va + 1e-9:
+        return SolveStatus.OPTIMAL
+    return result.status
 
 
 def imbalance_floor_pct(spread_va: float, total_va: float, line_count: int) -> float:

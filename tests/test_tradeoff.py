@@ -131,7 +131,8 @@ def _result(panel: Panel, layout: dict[str, tuple[int, ...]], status: SolveStatu
         status=status,
         engine="exhaustive",
         tolerance_va=TOL_VA,
-        lower_bound_spread_va=loads.spread_va,
+        # Enumeration proves its answer; a scripted unproven answer carries the trivial bound.
+        lower_bound_spread_va=loads.spread_va if status is SolveStatus.OPTIMAL else 0.0,
         moves=(),
     )
 
@@ -242,7 +243,8 @@ def _engine_balance() -> object | None:
     return getattr(module, "balance", None)
 
 
-@settings(max_examples=20, deadline=None)
+@pytest.mark.slow
+@settings(max_examples=8, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1))
 def test_engine_rows_match_exhaustive_search(seed: int) -> None:
     balance = _engine_balance()
@@ -270,7 +272,11 @@ def test_engine_rows_match_exhaustive_search(seed: int) -> None:
                 assert new.spaces == c.spaces
         assert _group_ok(panel, {c.id: c.spaces for c in after.circuits})
     assert not table.capped
-    assert table.rows[-1].spread_va <= brute_at_most(best, None)[0] + TOL_VA + ATOL_VA
+    global_best = brute_at_most(best, None)[0]
+    assert table.rows[-1].spread_va <= global_best + TOL_VA + ATOL_VA
+    # The table ends at the fewest moves that reach the best spread (spreads here are multiples
+    # of 5 VA, so no other spread lies within the 1 VA tolerance).
+    assert table.full_moves == min(m for m in best if best[m][0] <= global_best + TOL_VA)
 
 
 # --- monotone repair, caps and contradictions ------------------------------------------------
