@@ -304,7 +304,11 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         ("Total VA", lambda x: x.total_va, VA),
         ("Spread VA (heaviest - lightest)", lambda x: x.spread_va, VA),
         ("Imbalance % (NEMA MG 1 definition)", lambda x: x.imbalance_pct, PCT),
-        ("Current unbalance |I2|/|I1| %", lambda x: x.unbalance_factor_pct, PCT),
+        (
+            "Current unbalance |I2|/|I1| %",
+            lambda x: "3-phase only" if x.unbalance_factor_pct is None else x.unbalance_factor_pct,
+            PCT,
+        ),
         (
             "Neutral current A",
             lambda x: x.neutral_a if panel.system.neutral else "no neutral",
