@@ -22,6 +22,7 @@ _LAZY = {
     "BalanceOptions": ("balancer.result", "BalanceOptions"),
     "BalanceResult": ("balancer.result", "BalanceResult"),
     "write_schedule": ("balancer.io.writer", "write_workbook"),
+    "write_pdf": ("balancer.io.pdf", "write_pdf"),
 }
 
 __all__ = [
@@ -36,6 +37,7 @@ __all__ = [
     "balance",
     "get_system",
     "read_schedule",
+    "write_pdf",
     "write_schedule",
 ]
 
