@@ -13,8 +13,6 @@ import time
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
 
-import pulp
-
 from balancer.analysis import analyze
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.heuristics import (
@@ -36,7 +34,7 @@ from balancer.optimize.model import (
     realise,
     spread_lower_bound,
 )
-from balancer.optimize.solve import StageResult, cap, solve_goal
+from balancer.optimize.solve import StageResult, cap, evaluate, solve_goal
 from balancer.optimize.verify import verify
 from balancer.panel import Panel
 from balancer.result import BalanceOptions, BalanceResult, Move, SolveStatus
@@ -44,7 +42,7 @@ from balancer.result import BalanceOptions, BalanceResult, Move, SolveStatus
 __all__ = ["balance"]
 
 CURRENT_GAP_A = 0.01  # absolute gap on the current stages (amperes)
-MOVES_GAP = 0.5  # moves are whole numbers: a gap below one proves the count
+MOVES_GAP = 0.999  # moves are whole numbers: a gap below one proves the count
 PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
 LOCAL_SEARCH_S = 1.0  # improving the seed by single and paired changes: at most this, ...
 LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
@@ -150,11 +148,14 @@ def _placement_start(model: Model) -> list[int] | None:
 
 def _describe(stage: StageResult, proven: bool, bound: float, options: BalanceOptions) -> str:
     unit = {"spread": "VA", "moves": "moves"}.get(stage.goal, "A")
-    text = f"{stage.goal}: {stage.value:.4g} {unit}"
+    digits = {"spread": 1, "moves": 0}.get(stage.goal, 2)
+    text = f"{stage.goal}: {stage.value:.{digits}f} {unit}"
+    if proven and stage.goal == "moves":
+        return text + ", proven fewest"
     if proven:
         return text + f", proven best within {_gap(stage.goal, options):g} {unit}"
     if math.isfinite(bound):
-        return text + f", not proven (best bound {bound:.4g} {unit})"
+        return text + f", not proven (best bound {bound:.{digits}f} {unit})"
     return text + ", not proven"
 
 
@@ -249,7 +250,7 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
     chosen = realise(layout, [exact.options[u][k] for u, k in enumerate(picks)])
     for (u, k), var in exact.choice.items():
         var.varValue = 1.0 if picks[u] == k else 0.0
-    claimed = {line: float(pulp.value(expr)) for line, expr in exact.phase_va.items()}
+    claimed = {line: evaluate(expr) for line, expr in exact.phase_va.items()}
     after_panel = panel.with_circuits(placed_circuits(layout, chosen))
     after = verify(panel, after_panel, options, claimed)
 

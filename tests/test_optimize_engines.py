@@ -1,0 +1,159 @@
+"""Engines, time limits, baselines and the other goals, on invented panels (demo data)."""
+
+from __future__ import annotations
+
+import cmath
+import math
+import random
+
+import pytest
+
+from balancer.optimize import balance
+from balancer.optimize.heuristics import greedy_partition, karmarkar_karp
+from balancer.optimize.model import POLYGON_ERROR, POLYGON_SIDES
+from balancer.optimize.solve import cbc_available
+from balancer.panel import Circuit, Panel
+from balancer.result import BalanceOptions, SolveStatus
+from balancer.systems import get_system
+
+ATOL_VA = 1e-6
+
+
+def _spread(subsets: list[list[float]]) -> float:
+    sums = [sum(s) for s in subsets]
+    return max(sums) - min(sums)
+
+
+def test_karmarkar_karp_reference_example() -> None:
+    # Karmarkar & Karp, UCB/CSD 82/113 (1982), two-way {8,7,6,5,4}: differencing leaves 2,
+    # largest-first greedy 4, the optimum 0 (REFERENCE.md, number partitioning).
+    values = [8, 7, 6, 5, 4]
+    assert _spread(karmarkar_karp(values, 2)) == 2
+    assert _spread(greedy_partition(values, 2)) == 4
+    panel = Panel(
+        "demo",
+        get_system("120/240"),
+        12,
+        tuple(Circuit(f"c{v}", "demo load", 1, float(v)) for v in values),
+    )
+    result = balance(panel, BalanceOptions(fresh=True, tolerance_va=0.1))
+    assert result.after.spread_va == pytest.approx(0.0, abs=ATOL_VA)
+    assert result.status is SolveStatus.OPTIMAL
+
+
+def test_heuristics_keep_every_value() -> None:
+    rng = random.Random(7)
+    values = [rng.randint(1, 1000) for _ in range(40)]
+    for ways in (2, 3):
+        for method in (greedy_partition, karmarkar_karp):
+            parts = method(values, ways)
+            assert sorted(v for p in parts for v in p) == sorted(values)
+            assert len(parts) == ways
+
+
+def test_polygon_bound_holds() -> None:
+    # C from the formula: for a regular m-gon, max_k Re(z e^{-jθk}) ≤ |z| ≤ that / cos(π/m).
+    rng = random.Random(3)
+    for _ in range(200):
+        z = complex(rng.uniform(-50, 50), rng.uniform(-50, 50))
+        support = max(
+            (z * cmath.rect(1.0, -2 * math.pi * k / POLYGON_SIDES)).real
+            for k in range(POLYGON_SIDES)
+        )
+        assert support <= abs(z) + 1e-12
+        assert abs(z) <= support * (1 + POLYGON_ERROR) + 1e-12
+
+
+def hard_panel(seed: int, spaces: int = 84) -> Panel:
+    """Many 1-pole loads of awkward sizes: no quick proof of a near-perfect split."""
+    rng = random.Random(seed)
+    circuits = tuple(
+        Circuit(f"c{i}", "demo load", 1, float(rng.randint(100_000, 999_999)) / 7)
+        for i in range(spaces - 4)
+    )
+    return Panel("demo", get_system("208Y/120"), spaces, circuits)
+
+
+def test_time_limited_run_is_feasible_not_optimal() -> None:
+    panel = hard_panel(11)
+    result = balance(panel, BalanceOptions(fresh=True, time_limit_s=0.05, tolerance_va=0.001))
+    assert result.status is SolveStatus.FEASIBLE
+    assert result.gap_va > 0.001
+    greedy = _spread(greedy_partition([c.load_va for c in panel.circuits], 3))
+    assert result.after.spread_va <= greedy + ATOL_VA  # the seed is at least as good
+
+
+def small_panels() -> list[Panel]:
+    rng = random.Random(5)
+    panels = []
+    for _ in range(4):
+        circuits = [
+            Circuit(f"c{i}", "demo load", 1, float(rng.choice([180, 360, 720, 1000, 1500]) + i))
+            for i in range(6)
+        ]
+        circuits.append(Circuit("r", "demo range", 2, float(rng.choice([3000, 4500, 6001]))))
+        circuits.append(Circuit("m", "demo motor", 3, 7500.0))
+        panels.append(Panel("demo", get_system("208Y/120"), 18, tuple(circuits)))
+    return panels
+
+
+@pytest.mark.parametrize("engine", ["highs", "cbc"])
+def test_both_engines_reach_the_same_spread(engine: str) -> None:
+    if engine == "cbc" and not cbc_available():
+        pytest.skip("CBC is not installed with PuLP here")
+    reference = [
+        balance(p, BalanceOptions(fresh=True, tolerance_va=0.1)).after.spread_va
+        for p in small_panels()
+    ]
+    for panel, expected in zip(small_panels(), reference, strict=True):
+        result = balance(panel, BalanceOptions(fresh=True, tolerance_va=0.1, engine=engine))
+        assert result.engine == engine
+        assert result.after.spread_va == pytest.approx(expected, abs=ATOL_VA)
+        assert result.status is SolveStatus.OPTIMAL
+
+
+def test_target_imbalance_uses_fewest_moves() -> None:
+    system = get_system("208Y/120")
+    loads = [1000, 1000, 1000, 1000, 1000, 1000]
+    # All six on line A today (spaces 1, 2, 7, 8, 13, 14): spread 6000 VA.
+    spaces = [1, 2, 7, 8, 13, 14]
+    circuits = tuple(
+        Circuit(f"c{i}", "demo load", 1, float(v), spaces=(s,))
+        for i, (v, s) in enumerate(zip(loads, spaces, strict=True))
+    )
+    panel = Panel("demo", system, 18, circuits)
+    # Within 50 % of the 2000 VA average per line: A ≤ 3000, so at least 3 moves; 3 suffice
+    # (A 3000, B 2000, C 1000 is 50 % off on A and C).
+    result = balance(panel, BalanceOptions(target_imbalance_pct=50.0))
+    assert result.after.imbalance_pct <= 50.0 + 1e-9
+    assert len(result.moves) == 3
+    assert result.status is SolveStatus.OPTIMAL
+    perfect = balance(panel, BalanceOptions(target_imbalance_pct=0.0))
+    assert len(perfect.moves) == 4
+    assert perfect.after.spread_va == pytest.approx(0.0, abs=ATOL_VA)
+
+
+def test_unreachable_target_is_reported() -> None:
+    circuits = (
+        Circuit("a", "demo load", 1, 1000.0, spaces=(1,)),
+        Circuit("b", "demo load", 1, 10.0, spaces=(3,)),
+    )
+    panel = Panel("demo", get_system("208Y/120"), 6, circuits)
+    result = balance(panel, BalanceOptions(target_imbalance_pct=1.0))
+    assert any("no arrangement reaches 1 %" in n for n in result.notes)
+
+
+@pytest.mark.parametrize("objective", ["neutral", "line"])
+def test_current_goals(objective: str) -> None:
+    # Three equal unity-PF 1-pole loads on three lines cancel in the neutral (REFERENCE.md,
+    # balanced three-phase: the phasors sum to zero); all on A is the worst case.
+    circuits = tuple(
+        Circuit(f"c{i}", "demo load", 1, 1200.0, spaces=(s,)) for i, s in enumerate((1, 2, 7))
+    )
+    panel = Panel("demo", get_system("208Y/120"), 12, circuits)
+    result = balance(panel, BalanceOptions(objective=objective))  # type: ignore[arg-type]
+    assert result.before.neutral_a == pytest.approx(30.0)
+    assert result.after.neutral_a == pytest.approx(0.0, abs=1e-6)
+    assert max(result.after.line_a.values()) == pytest.approx(10.0)
+    assert result.status is SolveStatus.OPTIMAL
+    assert len(result.moves) == 2
