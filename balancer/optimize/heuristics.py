@@ -174,6 +174,9 @@ def pattern_spread_va(layout: Layout, picks: Sequence[int]) -> float:
     return max(load.values()) - min(load.values())
 
 
+PATIENCE = 5  # shakes per unit without a better answer before the search gives up
+
+
 class _LineState:
     """Phase sums and free spaces per line for a choice of line pattern per unit."""
 
@@ -293,14 +296,17 @@ def local_search_lines(
     best = (state.score(state.load), list(state.picks))
     rng = random.Random(0)
     stop = time.perf_counter() + budget_s
+    stale = 0  # shakes since the best last improved
     while best[0][0] > goal_spread_va and time.perf_counter() < stop:
         change = state.best_change()
         if change is not None:
             state.apply(change)
             if state.score(state.load) < best[0]:
                 best = (state.score(state.load), list(state.picks))
+                stale = 0
             continue
-        if not restarts:
+        stale += 1
+        if not restarts or stale > PATIENCE * len(state.picks):
             break
         for _ in range(3):
             u = rng.randrange(len(state.picks))
