@@ -17,13 +17,17 @@ Roll-up rules
 
 from __future__ import annotations
 
+import argparse
 import cmath
 import csv
 import difflib
+import json
 import math
+import os
 import textwrap
 import zipfile
 from collections.abc import Callable, Iterable, Mapping, Sequence
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -519,6 +523,7 @@ class PanelOutcome:
     solve_seconds: float
     gap_va: float
     view_spread_va: float  # the spread the optimiser reached on the panel as it saw it
+    spread_proven: bool  # the spread is proven best within the tolerance (moves may not be)
     notes: tuple[str, ...] = ()
 
 
@@ -686,66 +691,109 @@ def _default_balance() -> BalanceFunction:
     return balance
 
 
+def levels(building: Building) -> list[list[str]]:
+    """Panels grouped by height in the tree: those feeding nothing first, the services last.
+
+    Panels of one level do not feed each other, so they can be balanced at the same time.
+    """
+    height: dict[str, int] = {}
+    for name in building.order():
+        height[name] = 1 + max((height[f.panel] for f in building.fed_from(name)), default=-1)
+    out: list[list[str]] = [[] for _ in range(max(height.values(), default=-1) + 1)]
+    for name in building.order():
+        out[height[name]].append(name)
+    return out
+
+
+def _solve_views(
+    views: Mapping[str, _View], options: BalanceOptions, balance: BalanceFunction, jobs: int
+) -> dict[str, BalanceResult]:
+    if jobs <= 1 or len(views) <= 1:
+        return {name: balance(view.panel, options) for name, view in views.items()}
+    with ProcessPoolExecutor(max_workers=min(jobs, len(views))) as pool:
+        futures = {name: pool.submit(balance, view.panel, options) for name, view in views.items()}
+        return {name: future.result() for name, future in futures.items()}
+
+
 def balance_building(
     building: Building,
     options: BalanceOptions | None = None,
     balance: BalanceFunction | None = None,
+    jobs: int = 1,
 ) -> BuildingResult:
     """Balance every panel, subpanels first, then each panel with its subpanels' final loads.
 
     Upstream, the optimiser also chooses where each feeder breaker sits and, for a single-phase
     subpanel, which of its lines lands on which pole, so every panel in the tree is balanced on
-    the loads it really carries.
+    the loads it really carries. ``jobs`` > 1 balances the panels of one level of the tree in
+    that many worker processes (``balance`` must then be a module-level function).
     """
     options = options or BalanceOptions()
     balance = balance or _default_balance()
     current = building
     before = roll_up(building)
     outcomes: dict[str, PanelOutcome] = {}
-    for name in building.order():
+    for level in levels(building):
         figures = roll_up(current)
-        view = _optimiser_view(current, name, figures)
-        result = balance(view.panel, options)
-        original = current.panel(name)
-        arranged, swapped = _map_back(original, view, result.after_panel)
-        previous = current.feeds
-        feeds = [
-            replace(f, swapped=swapped.get(f.circuit_id, f.swapped)) if f.source == name else f
-            for f in previous
-        ]
-        current = current.with_panels(
-            [arranged if p.name == name else p for p in current.panels], feeds
-        )
-        moves = tuple(
-            c.id
-            for c, d in zip(original.circuits, arranged.circuits, strict=True)
-            if c.placed and c.spaces != d.spaces
-        )
-        changed = tuple(
-            f.panel
-            for f, g in zip(previous, feeds, strict=True)
-            if f.source == name and f.swapped != g.swapped
-        )
-        status = result.status
-        notes = list(result.notes)
-        if not view.exact and status is SolveStatus.OPTIMAL:
-            status = SolveStatus.FEASIBLE
-            notes.append(
-                "a three-phase feeder's unequal line loads could not be given to the optimiser "
-                "exactly on this system; the arrangement is checked but not proven best"
+        views = {name: _optimiser_view(current, name, figures) for name in level}
+        results = _solve_views(views, options, balance, jobs)
+        for name in level:
+            view, result = views[name], results[name]
+            original = current.panel(name)
+            arranged, swapped = _map_back(original, view, result.after_panel)
+            previous = current.feeds
+            feeds = [
+                replace(f, swapped=swapped.get(f.circuit_id, f.swapped)) if f.source == name else f
+                for f in previous
+            ]
+            current = current.with_panels(
+                [arranged if p.name == name else p for p in current.panels], feeds
             )
-        outcomes[name] = PanelOutcome(
-            name,
-            status,
-            view.exact,
-            moves,
-            changed,
-            result.solve_seconds,
-            result.gap_va,
-            result.after.spread_va,
-            tuple(notes),
+            outcomes[name] = _outcome(name, view, result, original, arranged, previous, feeds)
+    ordered = {name: outcomes[name] for name in building.order()}
+    return BuildingResult(building, current, before, roll_up(current), ordered)
+
+
+def _outcome(
+    name: str,
+    view: _View,
+    result: BalanceResult,
+    original: Panel,
+    arranged: Panel,
+    previous: Sequence[Feed],
+    feeds: Sequence[Feed],
+) -> PanelOutcome:
+    moves = tuple(
+        c.id
+        for c, d in zip(original.circuits, arranged.circuits, strict=True)
+        if c.placed and c.spaces != d.spaces
+    )
+    changed = tuple(
+        f.panel
+        for f, g in zip(previous, feeds, strict=True)
+        if f.source == name and f.swapped != g.swapped
+    )
+    status = result.status
+    notes = list(result.notes)
+    if not view.exact and status is SolveStatus.OPTIMAL:
+        status = SolveStatus.FEASIBLE
+        notes.append(
+            "a three-phase feeder's unequal line loads could not be given to the optimiser "
+            "exactly on this system; the arrangement is checked but not proven best"
         )
-    return BuildingResult(building, current, before, roll_up(current), outcomes)
+    spread_proven = view.exact and result.gap_va <= result.tolerance_va
+    return PanelOutcome(
+        name,
+        status,
+        view.exact,
+        moves,
+        changed,
+        result.solve_seconds,
+        result.gap_va,
+        result.after.spread_va,
+        spread_proven,
+        tuple(notes),
+    )
 
 
 # ---------------------------------------------------------------- reading a building
@@ -1043,6 +1091,7 @@ def summary_lines(
     if result is not None:
         worst_after = max(result.after_figures.panels.values(), key=lambda f: f.imbalance_pct)
         proven = sum(1 for o in result.outcomes.values() if o.status is SolveStatus.OPTIMAL)
+        spread_proven = sum(1 for o in result.outcomes.values() if o.spread_proven)
         moves = sum(len(o.moves) for o in result.outcomes.values())
         relands = sum(len(o.swapped_feeds) for o in result.outcomes.values())
         out.append(
@@ -1050,7 +1099,8 @@ def summary_lines(
             f"{worst_after.imbalance_pct:.1f} %"
         )
         out.append(
-            f"{proven} of {len(result.outcomes)} panels proven best within the tolerance; "
+            f"{proven} of {len(result.outcomes)} panels proven best on every goal, "
+            f"{spread_proven} on phase spread within the tolerance; "
             f"{moves} breaker moves, {relands} feeders re-landed"
         )
     for name, fig in figures.feeders.items():
@@ -1175,3 +1225,79 @@ def write_building_workbook(
     buffer = BytesIO()
     book.save(buffer)
     return atomic_write_bytes(Path(path), buffer.getvalue())
+
+
+# ---------------------------------------------------------------- command line
+
+
+def add_command(commands: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    """The ``building`` subcommand's arguments."""
+    parser = commands.add_parser(
+        "building",
+        help="roll up and balance a whole building: panels feeding panels",
+        description="Read a building (a workbook with a 'Building' sheet and one sheet per "
+        "panel, or a building.xlsx/building.csv index naming one schedule file per panel), roll "
+        "every subpanel's per-line loads up to its feeder circuit, and with --balance balance "
+        "every panel, subpanels first. The inputs are never changed.",
+    )
+    parser.add_argument("index", type=Path, help="the building workbook, index file or folder")
+    parser.add_argument(
+        "--balance", action="store_true", help="balance every panel (default: figures only)"
+    )
+    parser.add_argument(
+        "-o", "--output", type=Path, help="also write the figures to this workbook (.xlsx)"
+    )
+    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
+    parser.add_argument(
+        "--engine", choices=("highs", "cbc"), default="highs", help="MILP engine (default: highs)"
+    )
+    parser.add_argument(
+        "--time-limit", type=float, default=60.0, metavar="S", help="per panel (default 60)"
+    )
+    parser.add_argument(
+        "--tolerance", type=float, default=1.0, metavar="VA", help="spread tolerance (default 1)"
+    )
+    parser.add_argument(
+        "--jobs",
+        type=int,
+        default=os.cpu_count() or 1,
+        metavar="N",
+        help="panels balanced at once (default: one per core)",
+    )
+
+
+def run_command(args: argparse.Namespace) -> int:
+    """``balancer building``: returns the exit status (0 done; errors raise)."""
+    if args.time_limit <= 0:
+        raise ScheduleError(Problem("--time-limit", "must be more than 0 seconds"))
+    building = read_building(args.index)
+    if args.output is not None:
+        sources = {Path(p.source).resolve() for p in building.panels if p.source}
+        sources.add(Path(args.index).resolve())
+        if args.output.resolve() in sources:
+            raise ScheduleError(
+                Problem("--output", f"{args.output} is an input; balancer never writes its input")
+            )
+    before = roll_up(building)
+    result = None
+    if args.balance:
+        options = BalanceOptions(
+            engine=args.engine, time_limit_s=args.time_limit, tolerance_va=args.tolerance
+        )
+        result = balance_building(building, options, jobs=max(1, args.jobs))
+    if args.json:
+        data = {
+            "building": building.name,
+            "panels": panel_rows(building, before, result),
+            "feeders": feeder_rows(building, before, result),
+            "summary": summary_lines(building, before, result),
+            "caution": SAFETY,
+        }
+        print(json.dumps(data, indent=2, ensure_ascii=False))
+    else:
+        print(building_text(building, before, result))
+    if args.output is not None:
+        written = write_building_workbook(args.output, building, before, result)
+        if not args.json:
+            print(f"\nFigures written to {written}")
+    return 0

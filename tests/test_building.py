@@ -369,3 +369,21 @@ def test_single_phase_subpanel_position_and_orientation_match_brute_force() -> N
     assert result.outcomes["LP"].status is SolveStatus.OPTIMAL
     assert after.spread_va <= best + 0.5
     assert after.spread_va >= best - ATOL_VA
+
+
+def test_levels_put_subpanels_first() -> None:
+    from balancer.building import levels
+
+    assert levels(sample_building()) == [["H1", "L1A", "P1"], ["L1"], ["MDP"]]
+
+
+@pytest.mark.slow
+def test_parallel_levels_reach_the_same_spreads() -> None:
+    building = sample_building()
+    options = BalanceOptions(time_limit_s=30)
+    serial = balance_building(building, options)
+    parallel = balance_building(building, options, jobs=2)
+    for name in serial.outcomes:
+        assert parallel.after_figures.panels[name].spread_va == pytest.approx(
+            serial.after_figures.panels[name].spread_va, abs=options.tolerance_va
+        )

@@ -130,7 +130,7 @@ def test_building_command_balances_and_writes_figures(
     text = capsys.readouterr().out
     assert status == 0
     assert "Service MDP" in text
-    assert "panels proven best" in text
+    assert "panels proven best on every goal" in text
     assert "qualified persons" in text
     assert book.read_bytes() == before  # the input is never written
     sheets = load_workbook(out).sheetnames
