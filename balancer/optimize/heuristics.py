@@ -94,7 +94,7 @@ def greedy_lines(layout: Layout) -> list[int] | None:
     return picks
 
 
-def karmarkar_karp_lines(layout: Layout) -> list[int] | None:
+def karmarkar_karp_lines(layout: Layout, rng: random.Random | None = None) -> list[int] | None:
     """Line-pattern index per unit by vector differencing; None when the result breaks a rule.
 
     Each unit is a vector of its per-line VA in its first pattern; merging permutes whole
@@ -119,7 +119,9 @@ def karmarkar_karp_lines(layout: Layout) -> list[int] | None:
     reference = [unit.patterns()[0] for unit in layout.units]
     for u, unit in enumerate(layout.units):
         share = contribution(panel, unit.members, reference[u].lines).phase_va
-        push([share[line] for line in lines], u)
+        # With ``rng``, slightly disturbed loads give another near-balanced split (a restart).
+        scale = 1.0 + (rng.uniform(-0.02, 0.02) if rng else 0.0)
+        push([share[line] * scale for line in lines], u)
     while len(heap) > 1:
         _, _, first = heapq.heappop(heap)
         _, _, second = heapq.heappop(heap)
@@ -264,6 +266,41 @@ class _LineState:
         i, j = divmod(found, len(moves))
         return [moves[i], moves[j]]
 
+    def reopt(self, order: Sequence[int]) -> bool:
+        """Best joint choice for the first units of ``order`` (up to REOPT_COMBINATIONS
+        combinations), the others held; True when it improved the score."""
+        chosen: list[int] = []
+        size = 1
+        for u in order:
+            count = len(self.patterns[u])
+            if count > 1 and size * count <= REOPT_COMBINATIONS:
+                chosen.append(u)
+                size *= count
+        if not chosen:
+            return False
+        n = len(self.load)
+        base = np.asarray(self.load, dtype=float)
+        room = np.asarray(self.room, dtype=float)
+        for u in chosen:
+            base -= self.share[u][self.picks[u]]
+            room += self.use[u][self.picks[u]]
+        loads = base[None, :]
+        used = np.zeros((1, n))
+        for u in chosen:
+            loads = (loads[:, None, :] + np.asarray(self.share[u])[None, :, :]).reshape(-1, n)
+            used = (used[:, None, :] + np.asarray(self.use[u])[None, :, :]).reshape(-1, n)
+        ok = (used <= room).all(axis=1)
+        here = self.score(self.load)
+        found = _pick(loads, ok, here)
+        if found is None:
+            return False
+        ks = np.unravel_index(found, [len(self.patterns[u]) for u in chosen])
+        self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
+        return True
+
+
+REOPT_COMBINATIONS = 60_000  # joint choices tried at once by one re-decision (3^10 ≈ 59 000)
+
 
 def _pick(loads: np.ndarray, ok: np.ndarray, here: tuple[float, float]) -> int | None:
     """Index of the row with the lowest (spread, squared deviation) below ``here``."""
@@ -308,11 +345,11 @@ def local_search_lines(
         stale += 1
         if not restarts or stale > PATIENCE * len(state.picks):
             break
-        for _ in range(3):
-            u = rng.randrange(len(state.picks))
-            k = rng.randrange(len(state.patterns[u]))
-            if state.trial([(u, k)]) is not None:
-                state.apply([(u, k)])
+        # Re-decide a random handful of units exactly, all their combinations at once.
+        if state.reopt(rng.sample(range(len(state.picks)), len(state.picks))):
+            stale = 0
+        if state.score(state.load) < best[0]:
+            best = (state.score(state.load), list(state.picks))
     return best[1]
 
 
