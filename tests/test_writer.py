@@ -285,3 +285,22 @@ def test_circuit_list_shows_lines_beside_spaces(written: Path) -> None:
     assert rows["Demo rooftop unit"][:2] == (7, "A-B-C")
     assert rows["Demo water heater"][:2] == (4, "B-C")
     assert rows["Demo lighting west"][:2] == (5, "C")
+
+
+def test_failed_save_keeps_the_old_file_and_no_temporary(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from openpyxl import Workbook
+
+    target = tmp_path / "out.xlsx"
+    target.write_bytes(b"previous run")
+
+    def broken_save(self: Workbook, filename: str) -> None:
+        Path(filename).write_bytes(b"half a workbook")
+        raise OSError("disk full")
+
+    monkeypatch.setattr(Workbook, "save", broken_save)
+    with pytest.raises(OSError, match="disk full"):
+        write_workbook(demo_result(), target)
+    assert target.read_bytes() == b"previous run"
+    assert [p.name for p in tmp_path.iterdir()] == ["out.xlsx"]
