@@ -13,7 +13,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import Any
 
-from balancer.errors import SolverError
+from balancer.errors import InfeasibleError, SolverError
 from balancer.panel import Panel
 from balancer.result import BalanceOptions, BalanceResult, SolveStatus, TradeoffRow
 
@@ -39,6 +39,7 @@ class TargetAnswer:
     moves: int | None
     proven: bool
     message: str
+    result: BalanceResult | None = None  # the arrangement that reaches the target
 
 
 def count_moves(before: Panel, after: Panel) -> int:
@@ -59,6 +60,7 @@ def tradeoff(
     *,
     max_moves: int | None = None,
     balance_fn: BalanceFn | None = None,
+    unlimited: BalanceResult | None = None,
 ) -> Tradeoff:
     """The best balance for each move budget from 0 up to the unlimited optimum's move count.
 
@@ -73,6 +75,8 @@ def tradeoff(
         Stop the table at this many moves even when the unlimited optimum needs more.
     balance_fn
         The optimiser; ``balancer.optimize.balance`` when None.
+    unlimited
+        A result already found for this panel with no move limit (saves solving it again).
 
     Raises
     ------
@@ -82,13 +86,14 @@ def tradeoff(
     options = options or BalanceOptions()
     solve = balance_fn or _default_balance()
     base = replace(options, fresh=False, target_imbalance_pct=None)
-    full = solve(panel, replace(base, max_moves=None))
+    full = unlimited if unlimited is not None else solve(panel, replace(base, max_moves=None))
     full_moves = count_moves(panel, full.after_panel)
     last = full_moves if max_moves is None else min(full_moves, max_moves)
     results: list[BalanceResult] = []
     rows: list[TradeoffRow] = []
     notes: list[str] = []
     tolerance = options.tolerance_va
+    full_proven = _spread_status(full, tolerance) is SolveStatus.OPTIMAL
     for k in range(last + 1):
         result = full if k == full_moves else solve(panel, replace(base, max_moves=k))
         used = count_moves(panel, result.after_panel)
@@ -114,20 +119,18 @@ def tradeoff(
                 status=status,
             )
         )
-    capped = last < full_moves
-    if not capped and _spread_status(full, tolerance) is SolveStatus.OPTIMAL:
-        # The unlimited run may spend moves on a tie-breaker (neutral current); the table stops
-        # at the first budget proven to reach the same spread.
-        first = next(
-            r.moves
-            for r in rows
-            if r.status is SolveStatus.OPTIMAL and r.spread_va <= full.after.spread_va + tolerance
-        )
-        if first < full_moves:
-            notes.append(
-                f"the unlimited run used {full_moves} moves; {first} reach the same spread"
-            )
-            rows, results, full_moves = rows[: first + 1], results[: first + 1], first
+        if (
+            full_proven
+            and k < full_moves
+            and status is SolveStatus.OPTIMAL
+            and result.after.spread_va <= full.after.spread_va + tolerance
+        ):
+            # The unlimited run may not have proven its move count (or spent moves on a
+            # tie-breaker): the table stops at the first budget proven to reach its spread.
+            notes.append(f"the unlimited run used {full_moves} moves; {k} reach the same spread")
+            full_moves = k
+            break
+    capped = len(rows) - 1 < full_moves
     if capped:
         notes.append(
             f"table stops at {last} moves; the best arrangement found needs {full_moves} "
@@ -190,6 +193,7 @@ def fewest_moves_to(
             True,
             f"{reached.moves} move(s) reach {reached.imbalance_pct:.2f} % (target "
             f"{target_pct:g} %); fewer moves cannot (proven)",
+            table.results[reached.moves],
         )
     last = table.rows[-1] if table.rows else None
     if (
@@ -208,10 +212,18 @@ def fewest_moves_to(
             f"({last.spread_va:,.0f} VA spread, proven) cannot go below {best_floor:.2f} %",
         )
     if balance_fn is not None:
-        asked = balance_fn(
-            panel,
-            replace(options or BalanceOptions(), fresh=False, target_imbalance_pct=target_pct),
-        )
+        try:
+            asked = balance_fn(
+                panel,
+                replace(options or BalanceOptions(), fresh=False, target_imbalance_pct=target_pct),
+            )
+        except InfeasibleError:
+            return TargetAnswer(
+                target_pct,
+                None,
+                True,
+                f"no number of moves reaches {target_pct:g} %: the optimiser proved it infeasible",
+            )
         if asked.after.imbalance_pct <= target_pct:
             moves = count_moves(panel, asked.after_panel)
             if reached is None or moves < reached.moves:
@@ -222,6 +234,7 @@ def fewest_moves_to(
                     proven,
                     f"{moves} move(s) reach {asked.after.imbalance_pct:.2f} % (target "
                     f"{target_pct:g} %)" + ("; fewer cannot (proven)" if proven else ""),
+                    asked,
                 )
     if reached is not None:
         return TargetAnswer(
@@ -230,6 +243,7 @@ def fewest_moves_to(
             False,
             f"{reached.moves} move(s) reach {reached.imbalance_pct:.2f} % (target "
             f"{target_pct:g} %); not proven that fewer cannot",
+            table.results[reached.moves],
         )
     return TargetAnswer(
         target_pct,

@@ -241,7 +241,7 @@ def work_order_lines(order: WorkOrder) -> list[str]:
         out.append("    done: ____")
     if order.temporary_space_needed:
         out += ["", "A temporary space is needed: at some step no free space fits the breaker."]
-    out += ["", "Expected after the work (fundamental, at the schedule loads):"]
+    out += ["", "Expected after the work (fundamental, at the loads balanced on):"]
     out.append(
         "  "
         + "  ".join(f"line {line} {amps:,.1f} A" for line, amps in order.expected_line_a.items())

@@ -350,21 +350,41 @@ def test_an_unproven_worse_row_keeps_the_smaller_budget_arrangement() -> None:
 
 
 def test_proven_rows_that_contradict_are_an_error() -> None:
-    balanced = {"a": (1,), "b": (3,), "c": (5,)}
-    panel = _three_on_a().with_circuits(
-        [c.moved_to(balanced[c.id]) for c in _three_on_a().circuits]
-    )
-    # Zero moves proven at 0 VA spread and one move "proven" at 2000 VA cannot both hold.
+    lean = {"a": (1,), "b": (3,), "c": (7,)}  # A 2000, B 1000, C 0 VA
+    panel = _three_on_a().with_circuits([c.moved_to(lean[c.id]) for c in _three_on_a().circuits])
+    # Zero moves proven at 2000 VA spread and one move "proven" at 3000 VA cannot both hold.
     run = _scripted(
         panel,
         {
-            None: ({"a": (2,), "b": (4,), "c": (5,)}, SolveStatus.OPTIMAL),
-            0: (balanced, SolveStatus.OPTIMAL),
-            1: ({"a": (1,), "b": (3,), "c": (7,)}, SolveStatus.OPTIMAL),
+            None: ({"a": (2,), "b": (3,), "c": (5,)}, SolveStatus.OPTIMAL),
+            0: (lean, SolveStatus.OPTIMAL),
+            1: ({"a": (1,), "b": (2,), "c": (7,)}, SolveStatus.OPTIMAL),
         },
     )
-    with pytest.raises(SolverError, match=r"1 moves proven at 2000\.0 VA but 0 moves reach 0\.0"):
+    with pytest.raises(SolverError, match=r"1 moves proven at 3000\.0 VA but 0 moves reach 2000"):
         tradeoff(panel, balance_fn=run)
+
+
+def test_table_stops_at_the_first_budget_reaching_the_unlimited_spread() -> None:
+    panel = _three_on_a()
+    best = {"a": (1,), "b": (3,), "c": (5,)}
+    detour = {"a": (2,), "b": (3,), "c": (5,)}  # same spread, one needless move more
+    run = _scripted(
+        panel,
+        {
+            None: (detour, SolveStatus.OPTIMAL),
+            0: ({"a": (1,), "b": (2,), "c": (7,)}, SolveStatus.OPTIMAL),
+            1: ({"a": (1,), "b": (3,), "c": (7,)}, SolveStatus.OPTIMAL),
+            2: (best, SolveStatus.OPTIMAL),
+        },
+    )
+    unlimited = run(panel, BalanceOptions())
+    table = tradeoff(panel, balance_fn=run, unlimited=unlimited)
+    assert count_moves(panel, unlimited.after_panel) == 3
+    assert [r.moves for r in table.rows] == [0, 1, 2]
+    assert table.full_moves == 2
+    assert not table.capped
+    assert "3 moves; 2 reach the same spread" in table.notes[0]
 
 
 def test_cap_stops_the_table_and_says_so() -> None:
