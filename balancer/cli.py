@@ -38,6 +38,53 @@ and the authority having jurisdiction govern.
 """
 
 
+def _field_options(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("panels in service (see docs/field.md)")
+    group.add_argument(
+        "--basis",
+        choices=("nameplate", "measured", "larger"),
+        default="nameplate",
+        help="load of each circuit: schedule VA, clamp-meter reading where given, or the "
+        "larger of the two (default: nameplate)",
+    )
+    group.add_argument(
+        "--target-imbalance",
+        type=float,
+        metavar="PCT",
+        help="fewest moves that bring the imbalance to PCT %% or below",
+    )
+    group.add_argument(
+        "--tradeoff",
+        action=argparse.BooleanOptionalAction,
+        default=None,
+        help="table of the best balance for 0, 1, 2, ... moves (default: on for a placed panel)",
+    )
+    group.add_argument(
+        "--tradeoff-moves",
+        type=int,
+        metavar="N",
+        help="stop the trade-off table at N moves",
+    )
+    group.add_argument(
+        "--work-order", action="store_true", help="print the work order (steps) in the terminal"
+    )
+
+
+def _field_run(args: argparse.Namespace) -> Any:
+    from balancer.field import FieldRun
+
+    if args.target_imbalance is not None and args.target_imbalance < 0:
+        raise ScheduleError(Problem("--target-imbalance", "must be 0 % or more"))
+    if args.tradeoff_moves is not None and args.tradeoff_moves < 0:
+        raise ScheduleError(Problem("--tradeoff-moves", "must be 0 or more"))
+    return FieldRun(
+        basis=args.basis,
+        tradeoff=args.tradeoff,
+        tradeoff_moves=args.tradeoff_moves,
+        target_imbalance_pct=args.target_imbalance,
+    )
+
+
 def _panel_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("panel (these win over the schedule's Panel sheet)")
     group.add_argument("--name", help="panel name")
@@ -208,6 +255,7 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="VA",
         help="absolute tolerance on the phase spread in VA (default 1)",
     )
+    _field_options(balance)
     _panel_options(balance)
     _demand_options(balance)
     _output_options(balance)
@@ -301,6 +349,7 @@ def balance_file(
     options: Any,
     overrides: PanelOverrides,
     demand_for: Callable[[Panel], Any] | None = None,
+    field_run: Any = None,
 ) -> tuple[Any, Path]:
     """Read → balance → write; returns the result and the workbook written.
 
@@ -314,11 +363,15 @@ def balance_file(
             )
         )
     panel = read_schedule(schedule, overrides)
+    if field_run is not None:
+        panel = field_run.prepare(panel)
     # the optimiser and writer load only once the schedule is known to be good
     from balancer.io.writer import write_workbook
     from balancer.optimize import balance
 
     result = balance(panel, options)
+    if field_run is not None:
+        result = field_run.finish(panel, result, options, balance)
     demand = demand_for(result.after_panel) if demand_for is not None else None
     written = write_workbook(result, output, input_path=schedule, demand=demand)
     return result, written
@@ -408,12 +461,14 @@ def run_balance(args: argparse.Namespace) -> int:
     from balancer.demand import check_choices, demand_to_dict, loads_section_lines
 
     check_choices(args.rules, args.occupancy)
+    field_run = _field_run(args)
     result, written = balance_file(
         args.schedule,
         args.output,
         _options(args),
         _overrides(args),
         demand_for=lambda panel: _demand(args, panel),
+        field_run=field_run,
     )
     demand = _demand(args, result.after_panel)
     pdf = _pdf_path(args, "-balanced")
@@ -432,12 +487,17 @@ def run_balance(args: argparse.Namespace) -> int:
             input_path=args.schedule,
         )
     if args.json:
-        data = {**balance_json(result, written), "demand": demand_to_dict(demand)}
+        data = {
+            **balance_json(result, written),
+            "demand": demand_to_dict(demand),
+            **field_run.to_json(),
+        }
         if pdf is not None:
             data["pdf"] = str(pdf)
         _print_json(data)
     else:
         print(balance_text(result, written))
+        print("\n" + "\n".join(field_run.text_lines(args.work_order)))
         neutral = result.after_panel.system.neutral
         print("\n" + _bars(args, result.before, result.after, neutral=neutral))
         print("\n".join(["", "After balancing:", *loads_section_lines(demand)]))
