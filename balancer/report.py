@@ -96,24 +96,44 @@ def panel_heading(panel: Panel) -> str:
 
 
 def loads_table(loads: Loads, *, title: str = "") -> list[str]:
-    """Per-line figures as aligned text lines."""
+    """Per-line figures as aligned text lines.
+
+    Currents are true RMS (with each load class's harmonics); where harmonics change them the
+    fundamental is shown beside, since the two size conductors and breakers differently.
+    """
     lines = [title] if title else []
-    lines.append(f"  {'line':<5}{'load kVA':>10}{'kW':>9}{'kvar':>9}{'current A':>12}")
+    rms = loads.line_rms_a or loads.line_a
+    with_harmonics = any(abs(rms[x] - loads.line_a[x]) > 0.05 for x in loads.line_a)
+    head = f"  {'line':<6}{'load kVA':>9}{'kW':>9}{'kvar':>9}{'PF':>7}{'amps RMS':>10}"
+    lines.append(head + (f"{'fundamental':>13}" if with_harmonics else ""))
     for line, va in loads.phase_va.items():
-        lines.append(
-            f"  {line:<5}{va / 1000:>10.2f}{loads.phase_kw[line]:>9.2f}"
-            f"{loads.phase_kvar[line]:>9.2f}{loads.line_a[line]:>12.1f}"
+        pf = loads.phase_pf.get(line)
+        pf_text = "" if pf is None else f"{pf:.2f}"
+        row = (
+            f"  {line:<6}{va / 1000:>9.2f}{loads.phase_kw[line]:>9.2f}"
+            f"{loads.phase_kvar[line]:>9.2f}{pf_text:>7}{rms[line]:>10.1f}"
         )
-    lines.append(f"  {'total':<5}{loads.total_va / 1000:>10.2f}")
-    lines.append(
+        lines.append(row + (f"{loads.line_a[line]:>13.1f}" if with_harmonics else ""))
+    lines.append(f"  {'total':<6}{loads.total_va / 1000:>9.2f}")
+    neutral = loads.neutral_rms_a or loads.neutral_a
+    summary = (
         f"  spread {loads.spread_va / 1000:.2f} kVA (max − min) | imbalance "
-        f"{loads.imbalance_pct:.1f} % | neutral {loads.neutral_a:.1f} A"
-        + (
-            f" | negative-sequence unbalance {loads.unbalance_factor_pct:.1f} %"
-            if loads.unbalance_factor_pct is not None
-            else ""
-        )
+        f"{loads.imbalance_pct:.1f} % | neutral {neutral:.1f} A RMS"
     )
+    if with_harmonics or abs(neutral - loads.neutral_a) > 0.05:
+        summary += f" ({loads.neutral_a:.1f} A fundamental)"
+    lines.append(summary)
+    if loads.unbalance_factor_pct is not None:
+        lines.append(
+            f"  current unbalance |I2|/|I1| {loads.unbalance_factor_pct:.1f} % "
+            "(negative sequence of the fundamental line currents)"
+        )
+    if loads.neutral_exceeds_phase:
+        lines.append(
+            "  ! the neutral carries more current than any line: it counts as a "
+            "current-carrying conductor (NEC 310.15(E)) and gets no demand reduction for its "
+            "non-linear part (NEC 220.61(C))"
+        )
     return lines
 
 
