@@ -28,8 +28,10 @@ def test_check_json_on_each_sample(name: str, capsys: pytest.CaptureFixture[str]
         max(phase_va.values()) - min(phase_va.values()), loads["spread_va"], abs_tol=0.01
     )
     assert loads["imbalance_pct"] > 1.0  # the samples are built with a visible imbalance
-    assert sum(c["load_va"] for c in data["circuits"]) == pytest.approx(loads["total_va"], abs=0.01)
-    for circuit in data["circuits"]:
+    placed = [c for c in data["circuits"] if c["spaces"]]
+    assert sum(c["load_va"] for c in placed) == pytest.approx(loads["total_va"], abs=0.01)
+    assert {c["id"] for c in data["circuits"] if not c["spaces"]} == set(loads["unplaced"])
+    for circuit in placed:
         assert len(circuit["spaces"]) == circuit["poles"] == len(circuit["phases"])
 
 
