@@ -1,9 +1,13 @@
-"""The balancing engine: layout → line-level model → space placement → check → result.
+"""The balancing engine: layout → lines → spaces → exact model → check → result.
 
-Lines are decided first (a small model with no symmetry between spaces of one line), each goal
-solved to a proven optimum in turn; then the chosen lines are placed into spaces, preferring to
-leave breakers where they are. When that placement cannot match the line-level answer, a
-space-level model takes over and only what it proves is claimed.
+1. The first goal (phase spread by default) is settled on a line-level relaxation: 1-pole loads
+   to A/B/C, 2-pole to AB/BC/CA, with the free spaces per line as capacity. No symmetry between
+   spaces of one line, so its bound is tight; a heuristic answer that meets the combinatorial
+   bound is proven without a solver.
+2. Those lines are placed into spaces, fewest moves first (a start for step 3).
+3. The exact mixed model (multi-pole breakers and groups by placement, 1-pole breakers by
+   staying put or by line) keeps the first goal and settles the move count and tie-breakers.
+4. Every answer is checked independently before it is returned; only what is proven is claimed.
 """
 
 from __future__ import annotations

@@ -289,7 +289,7 @@ class _LineState:
         for u in chosen:
             loads = (loads[:, None, :] + np.asarray(self.share[u])[None, :, :]).reshape(-1, n)
             used = (used[:, None, :] + np.asarray(self.use[u])[None, :, :]).reshape(-1, n)
-        ok = (used <= room).all(axis=1)
+        ok: np.ndarray = np.asarray((used <= room).all(axis=1))
         here = self.score(self.load)
         found = _pick(loads, ok, here)
         if found is None:

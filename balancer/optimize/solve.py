@@ -11,6 +11,7 @@ import math
 import os
 import sys
 import tempfile
+import threading
 import time
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
@@ -22,6 +23,7 @@ from pulp.apis.coin_api import PULP_CBC_CMD
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.model import Model
 
+_STDOUT_LOCK = threading.Lock()
 BOUND_SLACK = 1e-6  # numerical slack when comparing an objective with its bound
 
 
@@ -41,17 +43,19 @@ class StageResult:
 @contextlib.contextmanager
 def quiet_stdout() -> Iterator[None]:
     """Send file descriptor 1 to the null device: HiGHS prints its banner there even when quiet."""
-    sys.stdout.flush()
-    saved = os.dup(1)
-    null = os.open(os.devnull, os.O_WRONLY)
-    try:
-        os.dup2(null, 1)
-        yield
-    finally:
+    # One redirect at a time: two threads swapping fd 1 could leave it on the null device.
+    with _STDOUT_LOCK:
         sys.stdout.flush()
-        os.dup2(saved, 1)
-        os.close(saved)
-        os.close(null)
+        saved = os.dup(1)
+        null = os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(null, 1)
+            yield
+        finally:
+            sys.stdout.flush()
+            os.dup2(saved, 1)
+            os.close(saved)
+            os.close(null)
 
 
 class _SeededHighs(pulp.HiGHS):
