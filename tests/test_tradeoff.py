@@ -7,7 +7,7 @@ import importlib
 import itertools
 import math
 import random
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import replace
 
 import pytest
@@ -120,7 +120,9 @@ def brute_at_most(
     return min(candidates, key=lambda pair: pair[0])  # min keeps the first (fewest-moves) tie
 
 
-def _result(panel: Panel, layout: dict[str, tuple[int, ...]], status: SolveStatus) -> BalanceResult:
+def _result(
+    panel: Panel, layout: Mapping[str, tuple[int, ...]], status: SolveStatus
+) -> BalanceResult:
     after = panel.with_circuits([c.moved_to(layout[c.id]) for c in panel.circuits])
     loads = analyze(after)
     return BalanceResult(
@@ -283,8 +285,10 @@ def test_engine_rows_match_exhaustive_search(seed: int) -> None:
 
 
 def _scripted(
-    panel: Panel, by_budget: dict[int | None, tuple[dict[str, tuple[int, ...]], SolveStatus]]
-):  # type: ignore[no-untyped-def]
+    panel: Panel, by_budget: Mapping[int | None, tuple[Mapping[str, tuple[int, ...]], SolveStatus]]
+) -> Callable[[Panel, BalanceOptions], BalanceResult]:
+    """A stand-in optimiser that answers each move budget with a given layout."""
+
     def run(p: Panel, options: BalanceOptions) -> BalanceResult:
         layout, status = by_budget[options.max_moves]
         return _result(p, layout, status)

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import json
 from pathlib import Path
+from typing import Any
 
 import pytest
 from openpyxl import load_workbook
@@ -31,10 +32,11 @@ def schedule(tmp_path: Path) -> Path:
     return path
 
 
-def _run_json(capsys: pytest.CaptureFixture[str], *args: str) -> dict:  # type: ignore[type-arg]
+def _run_json(capsys: pytest.CaptureFixture[str], *args: str) -> dict[str, Any]:
     code = main(["balance", *args, "--json", "--system", "208Y/120", "--spaces", "12"])
     assert code == 0
-    return json.loads(capsys.readouterr().out)  # type: ignore[no-any-return]
+    data: dict[str, Any] = json.loads(capsys.readouterr().out)
+    return data
 
 
 def test_json_has_basis_tradeoff_and_work_order(
