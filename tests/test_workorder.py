@@ -302,3 +302,23 @@ def test_random_layouts_replay_without_double_booking(seed: int, spaces: int, fi
             assert item.circuit_id not in {str(i) for i in locked}
     if order.temporary_space_needed:
         assert any(s.action == "set aside" for s in order.steps)
+
+
+def test_one_pole_breaker_never_parks_on_the_high_leg() -> None:
+    # 240/120 V high-leg delta: B is the high leg (NEC 110.15, 408.3(E)); spaces 3 and 4 are
+    # the only free ones, so the swap of x and y must set one breaker aside instead.
+    before = _panel(
+        6,
+        Circuit("x", "Lights", 1, 900.0, (1,)),
+        Circuit("y", "Receptacles", 1, 700.0, (5,)),
+        Circuit("z", "Fan", 1, 300.0, (2,)),
+        Circuit("w", "Sign", 1, 200.0, (6,)),
+        system="240/120",
+    )
+    after = _after(before, {"x": (5,), "y": (1,)})
+    order = work_order(before, after)
+    assert order.temporary_space_needed
+    for step in order.steps:
+        for item in step.items:
+            assert "B" not in item.to_lines
+    assert replay(before, order) == _target(after)
