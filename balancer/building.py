@@ -36,6 +36,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.utils.exceptions import InvalidFileException
 
 from balancer.analysis import share_by_line, spread_and_imbalance
+from balancer.demand import DemandOptions
 from balancer.errors import Problem, ScheduleError, SolverError
 from balancer.panel import Circuit, Panel
 from balancer.phasors import circuit_line_currents
@@ -502,6 +503,66 @@ def roll_up(building: Building) -> RollUp:
             tuple(unplaced),
         )
     return RollUp(panels, feeders)
+
+
+def subtree(building: Building, name: str) -> list[str]:
+    """``name`` and every panel fed from it, directly or further down."""
+    out = [name]
+    for n in out:
+        out += [f.panel for f in building.fed_from(n)]
+    return out
+
+
+def demand_roll_up(building: Building, options: DemandOptions | None = None) -> RollUp:
+    """Per-line demand loads of every panel, its whole subtree's loads taken together.
+
+    A feeder's demand is worked out on all the loads it serves (the class factors of the rule
+    set apply to the combined class totals, so demand is not the sum of the subpanels' demand
+    loads). For each panel: every branch circuit of its subtree is given to
+    :func:`balancer.demand.compute_demand` on one list, each circuit's demand VA replaces its
+    connected VA, and that is rolled up through the tree as the connected loads are.
+    """
+    from balancer.demand import compute_demand
+
+    figures: dict[str, PanelFigures] = {}
+    feeders: dict[str, FeederFigures] = {}
+    for name in building.order():
+        names = subtree(building, name)
+        feeding = {(f.source, f.circuit_id) for f in building.feeds}
+        tagged = [
+            (n, c) for n in names for c in building.panel(n).circuits if (n, c.id) not in feeding
+        ]
+        top = building.panel(name)
+        listed = [
+            replace(c, id=f"{n}/{c.id}", spaces=(), group="", poles=min(c.poles, len(top.lines)))
+            for n, c in tagged
+        ]
+        combined = replace(top, circuits=tuple(listed), spaces=max(top.spaces, 2 * len(listed)))
+        result = compute_demand(combined, options)
+        demand_of = {d.circuit_id: d.demand_va for d in result.circuits}  # adder included
+        panels = []
+        for n in names:
+            panel = building.panel(n)
+            panels.append(
+                panel.with_circuits(
+                    [
+                        c
+                        if (n, c.id) in feeding
+                        else replace(c, load_va=demand_of.get(f"{n}/{c.id}", c.load_va))
+                        for c in panel.circuits
+                    ]
+                )
+            )
+        part = Building(
+            building.name,
+            tuple(panels),
+            tuple(f for f in building.feeds if f.panel in names and f.source in names),
+        )
+        rolled = roll_up(part)
+        figures[name] = rolled.panels[name]
+        for f in building.fed_from(name):
+            feeders[f.panel] = rolled.feeders[f.panel]
+    return RollUp(figures, feeders)
 
 
 # ---------------------------------------------------------------- whole-tree balancing
@@ -998,7 +1059,10 @@ def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
 
 
 def panel_rows(
-    building: Building, before: RollUp, result: BuildingResult | None = None
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
 ) -> list[dict[str, object]]:
     """One row per panel, service first: figures before and (when balanced) after."""
     rows: list[dict[str, object]] = []
@@ -1017,6 +1081,11 @@ def panel_rows(
             "line_a_before": _lines_text(fig.line_a, 1),
             "neutral_before_a": fig.neutral_a,
         }
+        if demand is not None:
+            row["demand_va"] = demand[0].panels[name].total_va
+            row["demand_phase_va_before"] = _lines_text(demand[0].panels[name].phase_va)
+            if demand[1] is not None:
+                row["demand_phase_va_after"] = _lines_text(demand[1].panels[name].phase_va)
         if result is not None:
             after = result.after_figures.panels[name]
             outcome = result.outcomes[name]
@@ -1135,9 +1204,15 @@ def _table(rows: list[dict[str, object]], columns: Sequence[tuple[str, str]]) ->
     ]
 
 
-def building_text(building: Building, before: RollUp, result: BuildingResult | None = None) -> str:
+def building_text(
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
+) -> str:
     """The terminal report: panels, feeders, summary, caution."""
-    lines = [f"Building {building.name}: {len(building.panels)} panels (connected basis)", ""]
+    basis = "connected basis" + ("; demand per the rule set where shown" if demand else "")
+    lines = [f"Building {building.name}: {len(building.panels)} panels ({basis})", ""]
     panel_cols = [
         ("panel", "Panel"),
         ("system", "System"),
@@ -1159,7 +1234,12 @@ def building_text(building: Building, before: RollUp, result: BuildingResult | N
             ("status", "Status"),
             ("moves", "Moves"),
         ]
-    lines += _table(panel_rows(building, before, result), panel_cols)
+    if demand is not None:
+        panel_cols.append(("demand_va", "Demand VA"))
+        panel_cols.append(("demand_phase_va_before", "Demand VA per line"))
+        if demand[1] is not None:
+            panel_cols.append(("demand_phase_va_after", "Demand per line after"))
+    lines += _table(panel_rows(building, before, result, demand), panel_cols)
     feeds = feeder_rows(building, before, result)
     if feeds:
         feeder_cols = [
@@ -1193,7 +1273,11 @@ def building_text(building: Building, before: RollUp, result: BuildingResult | N
 
 
 def write_building_workbook(
-    path: str | Path, building: Building, before: RollUp, result: BuildingResult | None = None
+    path: str | Path,
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
 ) -> Path:
     """The figures as a workbook (sheets Panels, Feeders, Summary), written atomically."""
     from io import BytesIO
@@ -1205,7 +1289,7 @@ def write_building_workbook(
 
     book = Workbook()
     sheets = [
-        ("Panels", panel_rows(building, before, result)),
+        ("Panels", panel_rows(building, before, result, demand)),
         ("Feeders", feeder_rows(building, before, result)),
     ]
     first = True
@@ -1258,6 +1342,15 @@ def add_command(commands: argparse._SubParsersAction) -> None:  # type: ignore[t
         "--tolerance", type=float, default=1.0, metavar="VA", help="spread tolerance (default 1)"
     )
     parser.add_argument(
+        "--demand",
+        action="store_true",
+        help="also roll up code demand loads (each feeder over all the loads it serves)",
+    )
+    parser.add_argument("--rules", help="demand rule set: nec2023, nec2020, connected, or a file")
+    parser.add_argument(
+        "--occupancy", default="other", help="dwelling, hotel, warehouse or other (default: other)"
+    )
+    parser.add_argument(
         "--jobs",
         type=int,
         default=os.cpu_count() or 1,
@@ -1285,19 +1378,27 @@ def run_command(args: argparse.Namespace) -> int:
             engine=args.engine, time_limit_s=args.time_limit, tolerance_va=args.tolerance
         )
         result = balance_building(building, options, jobs=max(1, args.jobs))
+    demand = None
+    if args.demand:
+        from balancer.demand import check_choices
+
+        check_choices(args.rules, args.occupancy)
+        choices = DemandOptions(rules=args.rules, occupancy=args.occupancy)
+        after = demand_roll_up(result.after, choices) if result else None
+        demand = (demand_roll_up(building, choices), after)
     if args.json:
         data = {
             "building": building.name,
-            "panels": panel_rows(building, before, result),
+            "panels": panel_rows(building, before, result, demand),
             "feeders": feeder_rows(building, before, result),
             "summary": summary_lines(building, before, result),
             "caution": SAFETY,
         }
         print(json.dumps(data, indent=2, ensure_ascii=False))
     else:
-        print(building_text(building, before, result))
+        print(building_text(building, before, result, demand))
     if args.output is not None:
-        written = write_building_workbook(args.output, building, before, result)
+        written = write_building_workbook(args.output, building, before, result, demand)
         if not args.json:
             print(f"\nFigures written to {written}")
     return 0

@@ -387,3 +387,53 @@ def test_parallel_levels_reach_the_same_spreads() -> None:
         assert parallel.after_figures.panels[name].spread_va == pytest.approx(
             serial.after_figures.panels[name].spread_va, abs=options.tolerance_va
         )
+
+
+def _receptacles(space: int, load_va: float) -> Circuit:
+    return Circuit(
+        id=str(space),
+        description="receptacles",
+        poles=1,
+        load_va=load_va,
+        spaces=(space,),
+        load_class="receptacle",
+    )
+
+
+def test_feeder_demand_is_worked_out_on_all_the_loads_it_serves() -> None:
+    from balancer.building import demand_roll_up
+
+    # Non-dwelling receptacles: first 10 kVA at 100 %, the rest at 50 % (NEC 220.44 in the
+    # 2020 edition, 220.47 in 2023; see REFERENCE.md). The subpanel's 8 kVA stays under 10 kVA;
+    # the service serves 6 kVA + 8 kVA = 14 kVA → 10 000 + 0.5 × 4 000 = 12 000 VA, not the
+    # 6 000 + 8 000 = 14 000 VA a sum of the two panels' demand loads would give.
+    mdp = Panel(
+        "MDP",
+        S208,
+        42,
+        (
+            multi_pole(1, 3, 0.0),
+            _receptacles(2, 1800.0),
+            _receptacles(4, 1800.0),
+            _receptacles(6, 1200.0),
+            _receptacles(8, 1200.0),
+        ),
+    )
+    lp = Panel("LP", S208, 42, tuple(_receptacles(s, 1000.0) for s in range(1, 17, 2)))
+    building = make_building("rec", [mdp, lp], [Feed("LP", "MDP", "1")])
+    demand = demand_roll_up(building)
+    assert demand.panels["LP"].total_va == pytest.approx(8000.0)
+    assert demand.panels["MDP"].total_va == pytest.approx(12000.0)
+    connected = roll_up(building)
+    assert connected.panels["MDP"].total_va == pytest.approx(14000.0)
+
+
+def test_demand_of_a_lone_panel_matches_the_panel_calculation() -> None:
+    from balancer.building import demand_roll_up
+    from balancer.demand import compute_demand
+
+    building = sample_building()
+    demand = demand_roll_up(building)
+    for name in ("H1", "L1A", "P1"):  # panels feeding nothing
+        expected = compute_demand(building.panel(name)).total_demand_va
+        assert demand.panels[name].total_va == pytest.approx(expected)

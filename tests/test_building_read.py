@@ -146,3 +146,12 @@ def test_building_command_json_and_refusal_to_overwrite_input(
     assert {row["panel"] for row in data["feeders"]} == {"H1", "L1", "L2", "K1"}
     assert main(["building", str(DEMO_BOOK), "-o", str(DEMO_BOOK)]) == 2
     assert "never writes its input" in capsys.readouterr().err
+
+
+def test_building_command_with_demand(capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["building", str(DEMO_BOOK), "--demand", "--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)["panels"]
+    service = rows[0]
+    assert service["panel"] == "MDP"
+    assert service["demand_va"] > 0
+    assert main(["building", str(DEMO_BOOK), "--demand", "--rules", "no-such-rules"]) == 2
