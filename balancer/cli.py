@@ -201,6 +201,13 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
     batch.add_arguments(check)
     check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    check.add_argument(
+        "--basis",
+        choices=("nameplate", "measured", "larger"),
+        default="nameplate",
+        help="load of each circuit: schedule VA, clamp-meter reading where given, or the "
+        "larger of the two (default: nameplate; see docs/field.md)",
+    )
     _panel_options(check)
     _demand_options(check)
     _output_options(check)
@@ -299,7 +306,10 @@ def run_check(args: argparse.Namespace) -> int:
         return batch.command(
             files, "check", BalanceOptions(), _overrides(args), args.jobs, args.summary
         )
-    panel = read_schedule(args.schedule, _overrides(args))
+    from balancer.field import FieldRun
+
+    field_run = FieldRun(basis=args.basis)
+    panel = field_run.prepare(read_schedule(args.schedule, _overrides(args)))
     loads = analyze(panel)
     warnings = _warnings(panel)
     demand = _demand(args, panel)
@@ -313,10 +323,12 @@ def run_check(args: argparse.Namespace) -> int:
                 "circuits": report.circuits_to_list(panel),
                 "demand": demand_to_dict(demand),
                 "warnings": warnings,
+                "basis": field_run.to_json()["basis"],
             }
         )
     else:
         print(report.check_text(panel, loads, warnings))
+        print("\n" + "\n".join(field_run.text_lines()))
         print("\n".join(["", *loads_section_lines(demand)]))
         print("\n" + _bars(args, loads, neutral=panel.system.neutral))
     pdf = _pdf_path(args, "")
