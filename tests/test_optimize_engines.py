@@ -157,3 +157,30 @@ def test_current_goals(objective: str) -> None:
     assert max(result.after.line_a.values()) == pytest.approx(10.0)
     assert result.status is SolveStatus.OPTIMAL
     assert len(result.moves) == 2
+
+
+def test_combinatorial_bound_largest_load_and_granularity() -> None:
+    from balancer.optimize.model import build_layout, spread_lower_bound
+
+    system = get_system("208Y/120")
+    # One 5000 VA load and two of 100 VA: some line carries 5000, the lightest at most
+    # (5200 − 5000)/2 = 100, so spread ≥ 4900, which is also the optimum.
+    big = Panel(
+        "demo",
+        system,
+        6,
+        tuple(Circuit(f"c{i}", "demo", 1, v) for i, v in enumerate((5000.0, 100.0, 100.0))),
+    )
+    layout = build_layout(big, BalanceOptions(fresh=True))
+    assert spread_lower_bound(layout) == pytest.approx(4900.0)
+    result = balance(big, BalanceOptions(fresh=True))
+    assert result.after.spread_va == pytest.approx(4900.0)
+    assert result.lower_bound_spread_va == pytest.approx(4900.0)
+    # Whole-VA loads totalling 10 VA cannot split evenly three ways: spread ≥ 1 VA.
+    odd = Panel(
+        "demo",
+        system,
+        12,
+        tuple(Circuit(f"c{i}", "demo", 1, v) for i, v in enumerate((3.0, 3.0, 3.0, 1.0))),
+    )
+    assert spread_lower_bound(build_layout(odd, BalanceOptions(fresh=True))) == pytest.approx(1.0)

@@ -48,10 +48,10 @@ __all__ = ["balance"]
 CURRENT_GAP_A = 0.01  # absolute gap on the current stages (amperes)
 MOVES_GAP = 0.999  # moves are whole numbers: a gap below one proves the count
 PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
-LOCAL_SEARCH_S = 1.0  # improving the seed by single and paired changes: at most this, ...
+LOCAL_SEARCH_S = 0.3  # improving the seed by single and paired changes: at most this, ...
 LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
 TIEBREAK_MIN_S = 0.3  # time for each tie-breaking current goal: at least this, ...
-TIEBREAK_SHARE = 0.01  # ... or this share of the time limit
+TIEBREAK_SHARE = 0.005  # ... or this share of the time limit
 SAFETY_NOTE = (
     "Moving breakers is work on energised equipment: qualified persons only, de-energise and "
     "verify absence of voltage with a meter first; the adopted code, local amendments and the "
