@@ -643,14 +643,14 @@ def _optimiser_view(building: Building, name: str, figures: RollUp) -> _View:
             for index, k in enumerate(order):
                 member_id = f"{circuit.id}{_MEMBER}{k}"
                 members[member_id] = (circuit.id, k)
-                spaces = (circuit.spaces[index],) if circuit.placed else ()
+                member_spaces = (circuit.spaces[index],) if circuit.placed else ()
                 circuits.append(
                     replace(
                         circuit,
                         id=member_id,
                         poles=1,
                         load_va=child.phase_va[k],
-                        spaces=spaces,
+                        spaces=member_spaces,
                         group=f"{_MEMBER}{circuit.id}",
                         power_factor=1.0,
                     )
@@ -1172,11 +1172,12 @@ def summary_lines(
             f"{spread_proven} on phase spread within the tolerance; "
             f"{moves} breaker moves, {relands} feeders re-landed"
         )
-    for name, fig in figures.feeders.items():
-        if fig.transformer_loading_pct is not None and fig.transformer_loading_pct > 100.0:
+    for name, feeder in figures.feeders.items():
+        loading = feeder.transformer_loading_pct
+        if loading is not None and loading > 100.0:
             out.append(
                 f"WARNING: the transformer feeding {name} is loaded to "
-                f"{fig.transformer_loading_pct:.0f} % of one winding's rating"
+                f"{loading:.0f} % of one winding's rating"
             )
     return out
 
@@ -1314,7 +1315,7 @@ def write_building_workbook(
 # ---------------------------------------------------------------- command line
 
 
-def add_command(commands: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
     """The ``building`` subcommand's arguments."""
     parser = commands.add_parser(
         "building",
