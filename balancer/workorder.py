@@ -146,7 +146,13 @@ def work_order(before: Panel, after: Panel) -> WorkOrder:
         if guard < 0:  # pragma: no cover - the park rules below always make progress
             raise RuntimeError("work order did not converge")
         occupied = {s: cid for cid, spaces in current.items() for s in spaces}
-        ready = next((u for u in units if _free_for(u, u.target, occupied)), None)
+        # Re-install set-aside breakers first (their circuits are out), new breakers last
+        # (they only use up free spaces that a later swap might need).
+        ready = min(
+            (u for u in units if _free_for(u, u.target, occupied)),
+            key=lambda u: _priority(u, current),
+            default=None,
+        )
         if ready is not None:
             kind: Action = "move"
             if all(not current[m] for m in ready.members):
@@ -337,6 +343,12 @@ def _units(circuits: Iterable[Circuit], target: dict[str, tuple[int, ...]]) -> l
         else:
             units.append(_Unit((c.id,), {c.id: target[c.id]}, ""))
     return units
+
+
+def _priority(unit: _Unit, current: dict[str, tuple[int, ...]]) -> int:
+    if any(current[m] for m in unit.members):
+        return 1
+    return 0 if unit.parked else 2
 
 
 def _free_for(unit: _Unit, spots: dict[str, tuple[int, ...]], occupied: dict[int, str]) -> bool:

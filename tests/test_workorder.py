@@ -322,3 +322,19 @@ def test_one_pole_breaker_never_parks_on_the_high_leg() -> None:
         for item in step.items:
             assert "B" not in item.to_lines
     assert replay(before, order) == _target(after)
+
+
+def test_new_breakers_wait_until_the_swaps_are_done() -> None:
+    # One free space (2): the swap of x and y needs it before the new breaker takes it.
+    before = _panel(
+        4,
+        Circuit("x", "Lights", 1, 900.0, (1,)),
+        Circuit("y", "Receptacles", 1, 700.0, (3,)),
+        Circuit("z", "Fan", 1, 300.0, (4,)),
+        Circuit("n", "New sign", 1, 200.0, ()),
+    )
+    after = _after(before, {"x": (3,), "y": (1,), "n": (2,)})
+    order = work_order(before, after)
+    assert not order.temporary_space_needed
+    assert [s.action for s in order.steps] == ["park", "move", "move", "install"]
+    assert replay(before, order) == _target(after)
