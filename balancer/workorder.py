@@ -146,13 +146,14 @@ def work_order(before: Panel, after: Panel) -> WorkOrder:
         if guard < 0:  # pragma: no cover - the park rules below always make progress
             raise RuntimeError("work order did not converge")
         occupied = {s: cid for cid, spaces in current.items() for s in spaces}
-        # Re-install set-aside breakers first (their circuits are out), new breakers last
-        # (they only use up free spaces that a later swap might need).
-        ready = min(
-            (u for u in units if _free_for(u, u.target, occupied)),
-            key=lambda u: _priority(u, current),
-            default=None,
-        )
+        # Re-install set-aside breakers first (their circuits are out) and new breakers only
+        # when no existing breaker is left to move: a new breaker takes a free space for good,
+        # and a swap may still need it.
+        ready_units = [u for u in units if _free_for(u, u.target, occupied)]
+        existing = [u for u in ready_units if _priority(u, current) < 2]
+        ready = min(existing, key=lambda u: _priority(u, current), default=None)
+        if ready is None and not any(_priority(u, current) < 2 for u in units) and ready_units:
+            ready = ready_units[0]
         if ready is not None:
             kind: Action = "move"
             if all(not current[m] for m in ready.members):
