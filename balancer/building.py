@@ -1141,6 +1141,45 @@ def feeder_rows(
     return rows
 
 
+def move_rows(result: BuildingResult) -> list[dict[str, object]]:
+    """One row per breaker that moves and per feeder to re-land, service first."""
+    rows: list[dict[str, object]] = []
+    for name in reversed(result.before.order()):
+        outcome = result.outcomes[name]
+        before = result.before.panel(name)
+        after = result.after.panel(name)
+        for circuit_id in outcome.moves:
+            old, new = before.circuit(circuit_id), after.circuit(circuit_id)
+            rows.append(
+                {
+                    "panel": name,
+                    "circuit": circuit_id,
+                    "description": old.description,
+                    "from_spaces": ", ".join(str(s) for s in old.spaces),
+                    "to_spaces": ", ".join(str(s) for s in new.spaces),
+                    "from_lines": "-".join(before.lines_of(old)),
+                    "to_lines": "-".join(after.lines_of(new)),
+                }
+            )
+        for fed in outcome.swapped_feeds:
+            feed = result.after.feed_of(fed)
+            assert feed is not None
+            rows.append(
+                {
+                    "panel": name,
+                    "circuit": feed.circuit_id,
+                    "description": f"re-land the feeder conductors of {fed}: its line A to the "
+                    + ("second" if feed.swapped else "first")
+                    + " pole",
+                    "from_spaces": "",
+                    "to_spaces": "",
+                    "from_lines": "",
+                    "to_lines": "",
+                }
+            )
+    return rows
+
+
 def summary_lines(
     building: Building, before: RollUp, result: BuildingResult | None = None
 ) -> list[str]:
@@ -1280,7 +1319,8 @@ def write_building_workbook(
     result: BuildingResult | None = None,
     demand: tuple[RollUp, RollUp | None] | None = None,
 ) -> Path:
-    """The figures as a workbook (sheets Panels, Feeders, Summary), written atomically."""
+    """The figures as a workbook (sheets Panels, Feeders, Moves when balanced, Summary), written
+    atomically."""
     from io import BytesIO
 
     from openpyxl import Workbook
@@ -1293,6 +1333,8 @@ def write_building_workbook(
         ("Panels", panel_rows(building, before, result, demand)),
         ("Feeders", feeder_rows(building, before, result)),
     ]
+    if result is not None:
+        sheets.append(("Moves", move_rows(result)))
     first = True
     for title, rows in sheets:
         sheet = book.active if first else book.create_sheet(title)

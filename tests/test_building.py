@@ -319,6 +319,14 @@ def test_whole_tree_balancing_proves_every_panel_and_conserves_loads() -> None:
     assert result.after_figures.panels["MDP"].total_va == pytest.approx(
         own_branch_va(building), abs=ATOL_VA
     )
+    from balancer.building import move_rows
+
+    rows = move_rows(result)
+    assert len(rows) == sum(len(o.moves) + len(o.swapped_feeds) for o in result.outcomes.values())
+    for row in rows:
+        if row["to_spaces"]:
+            moved = result.after.panel(str(row["panel"])).circuit(str(row["circuit"]))
+            assert row["to_spaces"] == ", ".join(str(s) for s in moved.spaces)
     # nothing but spaces changed
     for before_panel, after_panel in zip(building.panels, result.after.panels, strict=True):
         assert sorted(c.id for c in before_panel.circuits) == sorted(

@@ -134,7 +134,10 @@ def test_building_command_balances_and_writes_figures(
     assert "qualified persons" in text
     assert book.read_bytes() == before  # the input is never written
     sheets = load_workbook(out).sheetnames
-    assert sheets == ["Panels", "Feeders", "Summary"]
+    assert sheets == ["Panels", "Feeders", "Moves", "Summary"]
+    moves = list(load_workbook(out)["Moves"].iter_rows(values_only=True))
+    assert moves[0][:3] == ("panel", "circuit", "description")
+    assert len(moves) > 1  # the demo panels start unbalanced, so some breakers move
 
 
 def test_building_command_json_and_refusal_to_overwrite_input(
