@@ -20,7 +20,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.utils.exceptions import InvalidFileException
 
 from balancer.errors import Problem, ScheduleError
-from balancer.io.columns import BY_KEY, ColumnSpec, all_spellings, match, normalise
+from balancer.io.columns import BY_KEY, KEPT_FOR_LATER, ColumnSpec, all_spellings, match, normalise
 from balancer.panel import SPARE, Circuit, Geometry, Panel, smallest_space_count
 from balancer.systems import System, check_connection, find_system, known_designations
 
@@ -210,6 +210,8 @@ def _header_problems(
         if c in found or value is None or not _text(value):
             continue
         name, _ = normalise(_text(value))
+        if name in KEPT_FOR_LATER:
+            continue
         close = difflib.get_close_matches(name, spellings, n=1, cutoff=0.8)
         if close:
             spec = all_spellings()[close[0]]
