@@ -327,10 +327,9 @@ def run_check(args: argparse.Namespace) -> int:
             }
         )
     else:
-        print(report.check_text(panel, loads, warnings))
-        print("\n" + "\n".join(field_run.text_lines()))
-        print("\n".join(["", *loads_section_lines(demand)]))
-        print("\n" + _bars(args, loads, neutral=panel.system.neutral))
+        bars = _bars(args, loads, neutral=panel.system.neutral).splitlines()
+        sections = [field_run.text_lines(), loads_section_lines(demand)]
+        print(report.check_text(panel, loads, warnings, bars=bars, sections=sections))
     pdf = _pdf_path(args, "")
     if pdf is not None:
         from balancer.io.pdf import write_pdf
@@ -418,10 +417,19 @@ def balance_json(result: Any, written: Path) -> dict[str, Any]:
     }
 
 
-def balance_text(result: Any, written: Path) -> str:
+def balance_text(
+    result: Any,
+    written: Path | list[Path],
+    *,
+    bars: list[str] | None = None,
+    sections: list[list[str]] | None = None,
+) -> str:
+    """The ``balance`` summary: bars, before and after, proof, moves, extra sections, files."""
     before, after = result.before, result.after
-    lines = [report.panel_heading(result.before_panel), ""]
-    lines += report.loads_table(before, title="Before")
+    lines = [report.panel_heading(result.before_panel)]
+    if bars:
+        lines += ["", *bars]
+    lines += ["", *report.loads_table(before, title="Before")]
     lines += ["", *report.loads_table(after, title="After")]
     status = result.status.value
     lines += [
@@ -440,10 +448,15 @@ def balance_text(result: Any, written: Path) -> str:
             )
     else:
         lines += ["", "Moves: none needed."]
+    for section in sections or []:
+        if section:
+            lines += ["", *section]
     notes = list(result.notes) + _warnings(result.before_panel)
     if notes:
         lines += ["", "Notes:"] + [f"  - {n}" for n in notes]
-    lines += ["", f"Wrote {written}", "", *report.wrap(report.SAFETY_NOTE)]
+    files = written if isinstance(written, list) else [written]
+    lines += [""] + [f"Wrote {path}" for path in files]
+    lines += ["", *report.wrap(report.SAFETY_NOTE)]
     return "\n".join(lines)
 
 
@@ -508,13 +521,14 @@ def run_balance(args: argparse.Namespace) -> int:
             data["pdf"] = str(pdf)
         _print_json(data)
     else:
-        print(balance_text(result, written))
-        print("\n" + "\n".join(field_run.text_lines(args.work_order)))
         neutral = result.after_panel.system.neutral
-        print("\n" + _bars(args, result.before, result.after, neutral=neutral))
-        print("\n".join(["", "After balancing:", *loads_section_lines(demand)]))
-        if pdf is not None:
-            print(f"Wrote {pdf}")
+        bars = _bars(args, result.before, result.after, neutral=neutral).splitlines()
+        sections = [
+            field_run.text_lines(args.work_order),
+            ["After balancing:", *loads_section_lines(demand)],
+        ]
+        written_files = [written] + ([pdf] if pdf is not None else [])
+        print(balance_text(result, written_files, bars=bars, sections=sections))
     return EXIT_OK
 
 
@@ -564,6 +578,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BalancerError as exc:
         print(f"balancer: {exc}", file=sys.stderr)
         return exc.exit_status
+    except BrokenPipeError:  # output piped into head or a pager that closed early
+        sys.stderr.close()
+        return EXIT_OK
     except KeyboardInterrupt:
         print("balancer: interrupted", file=sys.stderr)
         return 130

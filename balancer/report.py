@@ -137,16 +137,27 @@ def loads_table(loads: Loads, *, title: str = "") -> list[str]:
     return lines
 
 
-def check_text(panel: Panel, loads: Loads, warnings: list[str]) -> str:
-    lines = [
-        panel_heading(panel),
-        f"  read from {panel.source} ({len(panel.circuits)} circuits)",
-        "",
-    ]
-    lines += loads_table(loads)
-    lines.append(f"  ({IMBALANCE_DEFINITION})")
+def check_text(
+    panel: Panel,
+    loads: Loads,
+    warnings: list[str],
+    *,
+    bars: list[str] = (),  # type: ignore[assignment]
+    sections: list[list[str]] = (),  # type: ignore[assignment]
+) -> str:
+    """The ``check`` summary: heading, bars, per-line table, then each extra section."""
+    lines = [panel_heading(panel), f"  read from {panel.source} ({len(panel.circuits)} circuits)"]
+    if bars:
+        lines += ["", *bars]
+    lines += ["", *loads_table(loads), f"  ({IMBALANCE_DEFINITION})"]
     if loads.unplaced:
-        lines.append(f"  not counted: {len(loads.unplaced)} circuit(s) without a space number")
+        lines.append(
+            f"  not counted: {len(loads.unplaced)} circuit(s) without a space number "
+            f"({', '.join(loads.unplaced)})"
+        )
+    for section in sections:
+        if section:
+            lines += ["", *section]
     if warnings:
         lines += ["", "Notes:"] + [f"  - {w}" for w in warnings]
     lines += ["", *wrap(SAFETY_NOTE)]

@@ -84,7 +84,7 @@ def phase_bars(
     spread_tied = max(values, default=0.0) - min(values, default=0.0) < 0.5
     for line, va in phase_va.items():
         deviation = 0.0 if average == 0 else (va - average) / average * 100.0
-        amps = loads.line_a.get(line, 0.0)
+        amps = (loads.line_rms_a or loads.line_a).get(line, 0.0)  # RMS heats conductors
         text = (
             f"{line}  {_bar(va, top, average, width)}  {va:>9,.0f} VA  {amps:>7.1f} A"
             f"  {deviation:+6.1f} %"
@@ -95,7 +95,7 @@ def phase_bars(
                 text = f"{_BOLD}{_YELLOW}{text}{_RESET}"
         out.append(text)
     if show_neutral:
-        out.append(f"N  neutral {loads.neutral_a:.1f} A")
+        out.append(f"N  neutral {loads.neutral_rms_a or loads.neutral_a:.1f} A RMS")
     out.append(
         f"   '{_AVERAGE}' = average {average:,.0f} VA; spread {loads.spread_va:,.0f} VA;"
         f" imbalance {loads.imbalance_pct:.1f} %"
