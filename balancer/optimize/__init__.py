@@ -171,6 +171,8 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
     ``target_imbalance_pct`` the fewest moves reaching the target come first. The status is
     OPTIMAL only when the first goal and the move count are proven within their tolerances;
     tie-breaking current goals get a short time budget and say whether they were proven.
+    ``time_limit_s`` bounds the solver stages together, except that placing the chosen lines
+    into spaces always gets at least ``PLACEMENT_MIN_S``.
 
     Parameters
     ----------
