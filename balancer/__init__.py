@@ -23,6 +23,9 @@ _LAZY = {
     "BalanceResult": ("balancer.result", "BalanceResult"),
     "write_schedule": ("balancer.io.writer", "write_workbook"),
     "write_pdf": ("balancer.io.pdf", "write_pdf"),
+    "read_building": ("balancer.building", "read_building"),
+    "roll_up": ("balancer.building", "roll_up"),
+    "balance_building": ("balancer.building", "balance_building"),
 }
 
 __all__ = [
@@ -35,8 +38,11 @@ __all__ = [
     "System",
     "analyze",
     "balance",
+    "balance_building",
     "get_system",
+    "read_building",
     "read_schedule",
+    "roll_up",
     "write_pdf",
     "write_schedule",
 ]
