@@ -12,15 +12,17 @@ import os
 import sys
 import time
 from collections.abc import Callable, Iterable, Sequence
-from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from dataclasses import dataclass, replace
 from io import BytesIO
 from pathlib import Path
-from typing import Literal, TextIO
+from typing import TYPE_CHECKING, Literal, TextIO
 
 from balancer.errors import BalancerError
 from balancer.io.reader import PanelOverrides
 from balancer.result import BalanceOptions
+
+if TYPE_CHECKING:
+    from concurrent.futures import Future
 
 Mode = Literal["check", "balance"]
 SCHEDULE_SUFFIXES = (".xlsx", ".xlsm", ".csv")
@@ -190,6 +192,8 @@ def run_batch(
             rows[i] = runner(task)
             progress.step(task.path.name)
         return [r for r in rows if r is not None]
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+
     with ProcessPoolExecutor(max_workers=workers) as pool:
         pending: dict[Future[Row], int] = {pool.submit(runner, t): i for i, t in enumerate(tasks)}
         while pending:

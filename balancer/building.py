@@ -27,16 +27,15 @@ import os
 import textwrap
 import zipfile
 from collections.abc import Callable, Iterable, Mapping, Sequence
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 from openpyxl.utils.exceptions import InvalidFileException
 
 from balancer.analysis import share_by_line, spread_and_imbalance
-from balancer.demand import DemandOptions
 from balancer.errors import Problem, ScheduleError, SolverError
 from balancer.panel import Circuit, Panel
 from balancer.phasors import circuit_line_currents
@@ -49,6 +48,9 @@ from balancer.transformer import (
     primary_line_currents,
     primary_phase_va,
 )
+
+if TYPE_CHECKING:
+    from balancer.demand import DemandOptions
 
 VOLTAGE_RTOL = 0.02  # nominal voltages closer than 2 % are taken as the same system
 ANGLE_TOL_DEG = 1.0
@@ -771,6 +773,8 @@ def _solve_views(
 ) -> dict[str, BalanceResult]:
     if jobs <= 1 or len(views) <= 1:
         return {name: balance(view.panel, options) for name, view in views.items()}
+    from concurrent.futures import ProcessPoolExecutor
+
     with ProcessPoolExecutor(max_workers=min(jobs, len(views))) as pool:
         futures = {name: pool.submit(balance, view.panel, options) for name, view in views.items()}
         return {name: future.result() for name, future in futures.items()}
@@ -1423,7 +1427,7 @@ def run_command(args: argparse.Namespace) -> int:
         result = balance_building(building, options, jobs=max(1, args.jobs))
     demand = None
     if args.demand:
-        from balancer.demand import check_choices
+        from balancer.demand import DemandOptions, check_choices
 
         check_choices(args.rules, args.occupancy)
         choices = DemandOptions(rules=args.rules, occupancy=args.occupancy)
