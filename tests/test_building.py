@@ -445,3 +445,64 @@ def test_demand_of_a_lone_panel_matches_the_panel_calculation() -> None:
     for name in ("H1", "L1A", "P1"):  # panels feeding nothing
         expected = compute_demand(building.panel(name)).total_demand_va
         assert demand.panels[name].total_va == pytest.approx(expected)
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_conservation_through_transformers_and_single_phase_panels(seed: int) -> None:
+    # random trees mixing direct three-phase feeds, delta-wye and wye-wye transformers,
+    # single-phase transformers and single-phase panels on two lines of a wye
+    rng = random.Random(100 + seed)
+    panels = [
+        Panel(
+            "S0",
+            S480,
+            42,
+            (
+                multi_pole(1, 3, 0.0),
+                multi_pole(2, 3, 0.0),
+                multi_pole(7, 2, 0.0),
+                one_pole(11, rng.choice([500.0, 2770.0])),
+                one_pole(12, rng.choice([0.0, 1385.0])),
+            ),
+        )
+    ]
+    feeds: list[Feed] = []
+    kinds = {"S0": "480"}
+    open_slots = [("S0", "1", 3), ("S0", "2", 3), ("S0", "7", 2)]
+    count = 1
+    while open_slots and count < 14:
+        source, circuit_id, poles = open_slots.pop(rng.randrange(len(open_slots)))
+        parent_kind = kinds[source]
+        name = f"P{count}"
+        count += 1
+        loads = [one_pole(s, rng.choice([180.0, 360.0, 720.0, 1500.0])) for s in (13, 15, 17, 19)]
+        if poles == 2 and parent_kind == "480":
+            system, transformer = S240, make_transformer(f"T{name}", 25, S480, S240, "single-phase")
+        elif poles == 2:
+            system, transformer = S208_1PH, None
+        elif parent_kind == "480":
+            connection = rng.choice(["delta-wye", "wye-wye"])
+            system, transformer = S208, make_transformer(f"T{name}", 45, S480, S208, connection)
+        else:
+            system, transformer = S208, None
+        circuits = list(loads)
+        if system is S208:
+            circuits += [multi_pole(1, 3, 0.0), multi_pole(2, 2, 0.0)]
+            open_slots += [(name, "1", 3), (name, "2", 2)]
+            circuits.append(multi_pole(8, 2, rng.choice([0.0, 2400.0])))
+        kinds[name] = "208" if system is S208 else "1ph"
+        panels.append(Panel(name, system, 24, tuple(circuits)))
+        feeds.append(Feed(name, source, circuit_id, transformer, swapped=rng.random() < 0.5))
+    building = make_building(f"mixed-{seed}", panels, feeds)
+    figures = roll_up(building)
+    for name in building.order():
+        fig = figures.panels[name]
+        assert fig.total_va == pytest.approx(fig.tree_branch_va, abs=ATOL_VA)
+        below = math.fsum(figures.panels[f.panel].tree_branch_va for f in building.fed_from(name))
+        assert fig.tree_branch_va == pytest.approx(fig.branch_va + below, abs=ATOL_VA)
+        feed = building.feed_of(name)
+        through = feed.transformer if feed is not None else None
+        if through is not None and through.connection != "wye-wye":
+            # no neutral current crosses a delta or a single-phase winding across two lines
+            assert abs(sum(figures.feeders[name].line_current.values())) < ATOL_A
+    assert figures.panels["S0"].total_va == pytest.approx(own_branch_va(building), abs=ATOL_VA)
