@@ -506,3 +506,30 @@ def test_conservation_through_transformers_and_single_phase_panels(seed: int) ->
             # no neutral current crosses a delta or a single-phase winding across two lines
             assert abs(sum(figures.feeders[name].line_current.values())) < ATOL_A
     assert figures.panels["S0"].total_va == pytest.approx(own_branch_va(building), abs=ATOL_VA)
+
+
+def test_fixed_load_on_a_high_leg_cannot_be_seen_exactly_and_is_not_called_proven() -> None:
+    # The subpanel's 2-pole load on A-B and 1-pole load on A put more on B than on C; a
+    # line-to-neutral stand-in may not sit on the high leg B, so the optimiser sees the feeder
+    # as an even load, and the upstream result is reported as checked, not proven.
+    upstream = Panel(
+        "HL1",
+        HIGH_LEG,
+        18,
+        (
+            multi_pole(1, 3, 0.0),
+            one_pole(7, 1200.0),
+            one_pole(11, 400.0),
+            one_pole(12, 900.0),
+        ),
+    )
+    sub = Panel("HL2", HIGH_LEG, 12, (multi_pole(1, 2, 3000.0), one_pole(5, 800.0)))
+    building = make_building("hl", [upstream, sub], [Feed("HL2", "HL1", "1")])
+    result = balance_building(building, BalanceOptions(time_limit_s=20))
+    outcome = result.outcomes["HL1"]
+    assert not outcome.exact
+    assert not outcome.spread_proven
+    assert outcome.status is SolveStatus.FEASIBLE
+    assert any("not proven" in note for note in outcome.notes)
+    assert result.outcomes["HL2"].exact
+    assert result.after_figures.panels["HL1"].total_va == pytest.approx(6300.0)
