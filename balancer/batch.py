@@ -8,6 +8,7 @@ as a workbook (atomically).
 from __future__ import annotations
 
 import argparse
+import json
 import os
 import sys
 import time
@@ -327,6 +328,7 @@ def command(
     jobs: int | None = None,
     summary: Path | None = None,
     output_dir: Path | None = None,
+    json_output: bool = False,
 ) -> int:
     """``balancer check|balance`` over many files: run, print the summary, write the workbook."""
     from balancer.errors import Problem, ScheduleError
@@ -347,9 +349,13 @@ def command(
             Problem("--summary", f"{summary} is one of the inputs; balancer never writes its input")
         )
     rows = run_batch(tasks, jobs)
-    print(summary_text(rows, mode))
     written = write_summary(summary, rows, mode)
-    print(f"\nSummary workbook: {written}")
+    if json_output:
+        files = [{k: getattr(r, k) for k in Row.__dataclass_fields__} for r in rows]
+        print(json.dumps({"files": files, "summary_workbook": str(written)}, indent=2))
+    else:
+        print(summary_text(rows, mode))
+        print(f"\nSummary workbook: {written}")
     return exit_status(rows)
 
 

@@ -304,7 +304,13 @@ def run_check(args: argparse.Namespace) -> int:
 
         files = [args.schedule, *args.more]
         return batch.command(
-            files, "check", BalanceOptions(), _overrides(args), args.jobs, args.summary
+            files,
+            "check",
+            BalanceOptions(),
+            _overrides(args),
+            args.jobs,
+            args.summary,
+            json_output=args.json,
         )
     from balancer.field import FieldRun
 
@@ -481,7 +487,14 @@ def run_balance(args: argparse.Namespace) -> int:
     if batch.wanted(args):
         files = [args.schedule, *args.more]
         return batch.command(
-            files, "balance", _options(args), _overrides(args), args.jobs, args.summary, args.output
+            files,
+            "balance",
+            _options(args),
+            _overrides(args),
+            args.jobs,
+            args.summary,
+            args.output,
+            json_output=args.json,
         )
     from balancer.demand import check_choices, demand_to_dict, loads_section_lines
 

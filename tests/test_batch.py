@@ -178,3 +178,26 @@ def test_cli_batch_never_writes_the_summary_over_an_input(
     assert status == 2
     assert "never writes its input" in capsys.readouterr().err
     assert target.read_bytes() == before
+
+
+def test_cli_batch_json(folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    import json
+
+    from balancer.cli import main
+
+    summary = tmp_path / "s.xlsx"
+    status = main(
+        [
+            "check",
+            str(folder / "salon-208y120.csv"),
+            str(folder / "corrupt.xlsx"),
+            "--json",
+            "--summary",
+            str(summary),
+        ]
+    )
+    data = json.loads(capsys.readouterr().out)
+    assert status == 2
+    assert [Path(f["file"]).name for f in data["files"]] == ["salon-208y120.csv", "corrupt.xlsx"]
+    assert data["files"][1]["status"] == "error"
+    assert data["summary_workbook"] == str(summary)
