@@ -20,6 +20,7 @@ from dataclasses import replace
 from balancer.analysis import analyze
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.heuristics import (
+    fewer_changes_lines,
     greedy_lines,
     karmarkar_karp_lines,
     local_search_lines,
@@ -48,8 +49,9 @@ __all__ = ["balance"]
 CURRENT_GAP_A = 0.01  # absolute gap on the current stages (amperes)
 MOVES_GAP = 0.999  # moves are whole numbers: a gap below one proves the count
 PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
-LOCAL_SEARCH_S = 0.3  # improving the seed by single and paired changes: at most this, ...
+LOCAL_SEARCH_S = 0.1  # improving the seed by single and paired changes: at most this, ...
 LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
+UNDO_S = 1.5  # undoing needless changes from the schedule as it stands: at most this, ...
 TIEBREAK_MIN_S = 0.3  # time for each tie-breaking current goal: at least this, ...
 TIEBREAK_SHARE = 0.005  # ... or this share of the time limit
 SAFETY_NOTE = (
@@ -332,11 +334,8 @@ def _first_goal_on_lines(
             # The combinatorial bound proves it; no solver needed for this goal.
             value = pattern_spread_va(layout, seed)
             spent = time.perf_counter() - began
-            return (
-                StageResult("spread", value, floor, True, tuple(seed), spent, "bound"),
-                model,
-                goals,
-            )
+            stage = StageResult("spread", value, floor, True, tuple(seed), spent, "bound")
+            return _fewer_changes(layout, options, stage), model, goals
     stage = solve_goal(
         model,
         goals[0],
@@ -347,7 +346,27 @@ def _first_goal_on_lines(
     )
     if goals[0] == "spread":
         stage = replace(stage, bound=max(stage.bound, floor))
+        if options.max_moves is None:
+            stage = _fewer_changes(layout, options, stage)
     return stage, model, goals
+
+
+def _fewer_changes(layout: Layout, options: BalanceOptions, stage: StageResult) -> StageResult:
+    """Undo needless line changes from the schedule as it stands, keeping the spread proven.
+
+    The spread may move within the cap the later stages keep anyway, so what was proven stays
+    proven; this only gives the move-count stage a better start.
+    """
+    present = present_lines(layout) if layout.count_moves else None
+    if present is None:
+        return stage
+    limit_va = stage.value
+    if _proven(stage, options, stage.bound):
+        limit_va = max(stage.value, stage.bound + options.tolerance_va)
+    undo_s = min(UNDO_S, LOCAL_SEARCH_SHARE * options.time_limit_s)
+    picks = fewer_changes_lines(layout, stage.picks, present, limit_va, undo_s)
+    value = pattern_spread_va(layout, picks)
+    return replace(stage, picks=tuple(picks), value=max(value, stage.value))
 
 
 def _to_mixed(layout: Layout, exact: Model, placement: Model, picks: Sequence[int]) -> list[int]:

@@ -177,6 +177,7 @@ def pattern_spread_va(layout: Layout, picks: Sequence[int]) -> float:
 
 
 PATIENCE = 5  # shakes per unit without a better answer before the search gives up
+UNDO_TRIES = 400  # fruitless handfuls before undoing changes stops (each finds one ~1 in 50)
 
 
 class _LineState:
@@ -298,6 +299,43 @@ class _LineState:
         self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
         return True
 
+    def fewer_changes(self, units: Sequence[int], home: Sequence[int], goal_va: float) -> bool:
+        """Re-decide ``units`` jointly for the fewest patterns differing from ``home`` while the
+        spread stays within ``goal_va``; True when that count went down."""
+        chosen: list[int] = []
+        size = 1
+        for u in units:
+            count = len(self.patterns[u])
+            if count > 1 and size * count <= REOPT_COMBINATIONS:
+                chosen.append(u)
+                size *= count
+        if not chosen:
+            return False
+        n = len(self.load)
+        base = np.asarray(self.load, dtype=float)
+        room = np.asarray(self.room, dtype=float)
+        for u in chosen:
+            base -= self.share[u][self.picks[u]]
+            room += self.use[u][self.picks[u]]
+        loads = base[None, :]
+        used = np.zeros((1, n))
+        changed = np.zeros(1)
+        for u in chosen:
+            away = np.array([k != home[u] for k in range(len(self.patterns[u]))], dtype=float)
+            loads = (loads[:, None, :] + np.asarray(self.share[u])[None, :, :]).reshape(-1, n)
+            used = (used[:, None, :] + np.asarray(self.use[u])[None, :, :]).reshape(-1, n)
+            changed = (changed[:, None] + away[None, :]).reshape(-1)
+        ok = (used <= room).all(axis=1) & (loads.max(axis=1) - loads.min(axis=1) <= goal_va)
+        if not ok.any():
+            return False
+        now = sum(1 for u in chosen if self.picks[u] != home[u])
+        best = int(np.argmin(np.where(ok, changed, np.inf)))
+        if changed[best] >= now:
+            return False
+        ks = np.unravel_index(best, [len(self.patterns[u]) for u in chosen])
+        self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
+        return True
+
 
 REOPT_COMBINATIONS = 60_000  # joint choices tried at once by one re-decision (3^10 ≈ 59 000)
 
@@ -373,3 +411,26 @@ def present_lines(layout: Layout) -> list[int] | None:
                 picks[u] = greedy[u]
     state = _LineState(layout, picks)
     return picks if min(state.room) >= 0 else None
+
+
+def fewer_changes_lines(
+    layout: Layout, picks: Sequence[int], home: Sequence[int], goal_va: float, budget_s: float
+) -> list[int]:
+    """Undo changes from ``home`` (the schedule as it stands) while the spread stays in goal.
+
+    Random handfuls of changed units, with one unchanged unit, are re-decided jointly for the
+    fewest changes; the spread never leaves ``goal_va``. Seeded, so runs repeat.
+    """
+    state = _LineState(layout, picks)
+    rng = random.Random(1)
+    stop = time.perf_counter() + budget_s
+    stale = 0
+    while time.perf_counter() < stop and stale < UNDO_TRIES:
+        changed = [u for u, k in enumerate(state.picks) if k != home[u]]
+        if not changed:
+            break
+        kept = [u for u, k in enumerate(state.picks) if k == home[u]]
+        units = rng.sample(changed, min(len(changed), 9))
+        units += rng.sample(kept, min(len(kept), 1))
+        stale = 0 if state.fewer_changes(units, home, goal_va) else stale + 1
+    return state.picks
