@@ -184,3 +184,44 @@ def test_combinatorial_bound_largest_load_and_granularity() -> None:
         tuple(Circuit(f"c{i}", "demo", 1, v) for i, v in enumerate((3.0, 3.0, 3.0, 1.0))),
     )
     assert spread_lower_bound(build_layout(odd, BalanceOptions(fresh=True))) == pytest.approx(1.0)
+
+
+def test_panel_heuristics_respect_capacity_and_goal() -> None:
+    from balancer.optimize.heuristics import (
+        fewer_changes_lines,
+        greedy_lines,
+        karmarkar_karp_lines,
+        local_search_lines,
+        pattern_spread_va,
+        present_lines,
+    )
+    from balancer.optimize.model import build_layout
+
+    rng = random.Random(12)
+    system = get_system("208Y/120")
+    circuits = []
+    for i in range(30):  # every space on A today: badly unbalanced (demo data)
+        space = 1 + 6 * (i // 2) + (i % 2)
+        circuits.append(
+            Circuit(f"c{i}", "demo load", 1, float(rng.randint(100, 1500)), spaces=(space,))
+        )
+    panel = Panel("demo", system, 90, tuple(circuits))
+    layout = build_layout(panel, BalanceOptions())
+    free_on_a = sum(1 for s in layout.free_spaces if panel.geometry.line_of(s) == "A")
+    present = present_lines(layout)
+    assert present is not None
+    start = pattern_spread_va(layout, present)
+    for picks in (greedy_lines(layout), karmarkar_karp_lines(layout)):
+        assert picks is not None
+        on_a = sum(
+            1 for u, k in enumerate(picks) if layout.units[u].patterns()[k].lines == (("A",),)
+        )
+        assert on_a <= free_on_a
+        assert pattern_spread_va(layout, picks) < start
+    goal = 10.0
+    searched = local_search_lines(layout, present, goal, budget_s=2.0)
+    reached = pattern_spread_va(layout, searched)
+    undone = fewer_changes_lines(layout, searched, present, max(goal, reached), budget_s=1.0)
+    assert pattern_spread_va(layout, undone) <= max(goal, reached) + ATOL_VA
+    changes = sum(a != b for a, b in zip(searched, present, strict=True))
+    assert sum(a != b for a, b in zip(undone, present, strict=True)) <= changes
