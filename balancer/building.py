@@ -739,6 +739,11 @@ def _map_back(original: Panel, view: _View, arranged: Panel) -> tuple[Panel, dic
             by_line = member_spaces[circuit.id]
             first_line = min(by_line, key=lambda k: by_line[k])
             spaces = tuple(sorted(s for v in by_line.values() for s in v))
+            if spaces and spaces != original.geometry.span(spaces[0], len(spaces)):
+                raise SolverError(
+                    f"panel {original.name}: the stand-ins for feeder {circuit.id} came back in "
+                    f"spaces {spaces}, which no {len(spaces)}-pole breaker spans"
+                )
             swapped[circuit.id] = first_line != sorted(by_line)[0]
             circuits.append(circuit.moved_to(spaces))
         else:
