@@ -748,6 +748,12 @@ def _map_back(original: Panel, view: _View, arranged: Panel) -> tuple[Panel, dic
             circuits.append(circuit.moved_to(spaces))
         else:
             circuits.append(circuit.moved_to(spaces_of[circuit.id]))
+    taken = [s for c in circuits for s in c.spaces]
+    if len(taken) != len(set(taken)) or any(s > original.spaces for s in taken):
+        raise SolverError(
+            f"panel {original.name}: the arrangement returned double-books a space or uses one "
+            f"past space {original.spaces}"
+        )
     return original.with_circuits(circuits), swapped
 
 
