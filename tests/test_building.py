@@ -20,7 +20,7 @@ from balancer.building import (
 )
 from balancer.errors import ScheduleError
 from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
+from balancer.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.systems import System, get_system
 from balancer.transformer import make_transformer, primary_line_currents
 
@@ -533,3 +533,21 @@ def test_fixed_load_on_a_high_leg_cannot_be_seen_exactly_and_is_not_called_prove
     assert any("not proven" in note for note in outcome.notes)
     assert result.outcomes["HL2"].exact
     assert result.after_figures.panels["HL1"].total_va == pytest.approx(6300.0)
+
+
+def _double_booking_balance(panel: Panel, options: BalanceOptions) -> BalanceResult:
+    """A stand-in engine that puts every 1-pole circuit in space 1: the building must refuse it."""
+    from balancer.analysis import analyze
+
+    moved = panel.with_circuits(
+        [c.moved_to((1,)) if c.poles == 1 and not c.locked else c for c in panel.circuits]
+    )
+    loads = analyze(panel)
+    return BalanceResult(panel, moved, loads, loads, SolveStatus.OPTIMAL, "stand-in", 1.0, 0.0, ())
+
+
+def test_an_impossible_arrangement_from_the_engine_is_refused() -> None:
+    from balancer.errors import SolverError
+
+    with pytest.raises(SolverError, match="double-books a space"):
+        balance_building(sample_building(), balance=_double_booking_balance)
