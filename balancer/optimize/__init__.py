@@ -32,6 +32,7 @@ from balancer.optimize.model import (
     POLYGON_SIDES,
     Layout,
     Model,
+    Option,
     build_layout,
     build_model,
     has_neutral_goal,
@@ -111,9 +112,11 @@ def _lexicographic(
             try:
                 stage = solve_goal(model, goal, options.engine, budget, _gap(goal, options), picks)
             except SolverError:
-                if position < key or picks is None:
+                if picks is None or options.target_imbalance_pct is not None:
                     raise
-                break  # a tie-breaker that found nothing new leaves the previous answer
+                if position >= key:
+                    break  # a tie-breaker that found nothing new leaves the previous answer
+                stage = _unproven(model, goal, picks)  # keep the (legal) start, claim nothing
             picks = stage.picks
         stages.append(stage)
         if position == len(goals) - 1:
@@ -127,6 +130,20 @@ def _lexicographic(
     return stages
 
 
+def _unproven(model: Model, goal: str, picks: Sequence[int]) -> StageResult:
+    """The start kept as the answer when the engine found nothing in time: no bound."""
+    for (u, k), var in model.choice.items():
+        var.varValue = 1.0 if picks[u] == k else 0.0
+    if goal == "spread":
+        phase = [evaluate(expr) for expr in model.phase_va.values()]
+        value = max(phase) - min(phase)
+    elif goal == "moves":
+        value = evaluate(model.goals["moves"])
+    else:
+        raise SolverError(f"no arrangement found for the {goal} goal in time; raise the limit")
+    return StageResult(goal, value, -math.inf, False, tuple(picks), 0.0, "time limit, start kept")
+
+
 def _seed(layout: Layout) -> list[int] | None:
     candidates = [p for p in (greedy_lines(layout), karmarkar_karp_lines(layout)) if p is not None]
     if not candidates:
@@ -134,15 +151,15 @@ def _seed(layout: Layout) -> list[int] | None:
     return min(candidates, key=lambda p: pattern_spread_va(layout, p))
 
 
-def _placement_start(model: Model) -> list[int] | None:
-    """First fit into spaces, staying put where possible (a start for the placement model)."""
+def _placement_start(options: Sequence[Sequence[Option]]) -> list[int] | None:
+    """First fit into spaces, staying put where possible (a start for a placement model)."""
     used: set[int] = set()
-    picks = [-1] * len(model.options)
-    order = sorted(range(len(model.options)), key=lambda u: -len(model.options[u][0].spans[0]))
+    picks = [-1] * len(options)
+    order = sorted(range(len(options)), key=lambda u: -sum(len(x) for x in options[u][0].spans))
     for u in order:
-        ranked = sorted(range(len(model.options[u])), key=lambda k: model.options[u][k].moves)
+        ranked = sorted(range(len(options[u])), key=lambda k: options[u][k].moves)
         for k in ranked:
-            spaces = {s for span in model.options[u][k].spans for s in span}
+            spaces = {s for span in options[u][k].spans for s in span}
             if not spaces & used:
                 used |= spaces
                 picks[u] = k
@@ -238,12 +255,20 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
             options.engine,
             max(PLACEMENT_MIN_S, deadline - time.perf_counter()),
             MOVES_GAP,
-            _placement_start(placement),
+            _placement_start(placement.options),
         )
     except (InfeasibleError, SolverError):
         placed = None
     exact = build_model(layout, "mixed", options, target_imbalance_pct=target)
-    start = None if placed is None else _to_mixed(layout, exact, placement, placed.picks)
+    if placed is not None:
+        start = _to_mixed(exact, [placement.options[u][k] for u, k in enumerate(placed.picks)])
+    else:
+        # The schedule as it stands (first fit for the rest): within any move budget.
+        every = [unit.placements for unit in layout.units]
+        stay = _placement_start(every)
+        start = None
+        if stay is not None and target is None:
+            start = _to_mixed(exact, [every[u][k] for u, k in enumerate(stay)])
     preset: dict[str, StageResult] = {}
     if placed is not None and not (goals[0] == "moves" and placed.value > first.value + 0.5):
         preset[goals[0]] = first  # same lines, so the same proven value
@@ -369,11 +394,10 @@ def _fewer_changes(layout: Layout, options: BalanceOptions, stage: StageResult) 
     return replace(stage, picks=tuple(picks), value=max(value, stage.value))
 
 
-def _to_mixed(layout: Layout, exact: Model, placement: Model, picks: Sequence[int]) -> list[int]:
-    """Translate a placement-model answer into option indices of the mixed model."""
+def _to_mixed(exact: Model, chosen: Sequence[Option]) -> list[int]:
+    """Option indices of the mixed model for placements chosen elsewhere."""
     out = []
-    for u, k in enumerate(picks):
-        option = placement.options[u][k]
+    for u, option in enumerate(chosen):
         opts = exact.options[u]
         if option in opts:
             out.append(opts.index(option))
