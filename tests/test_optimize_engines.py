@@ -225,3 +225,19 @@ def test_panel_heuristics_respect_capacity_and_goal() -> None:
     assert pattern_spread_va(layout, undone) <= max(goal, reached) + ATOL_VA
     changes = sum(a != b for a, b in zip(searched, present, strict=True))
     assert sum(a != b for a, b in zip(undone, present, strict=True)) <= changes
+
+
+def test_granularity_leaves_out_circuits_on_every_line() -> None:
+    from balancer.optimize.model import build_layout, spread_lower_bound
+
+    # 30, 30 and 40 VA split 30/30/40 at best (shares of 10 VA, 100 VA is not three equal
+    # parts); a 3-pole load adds a third to every line and must not hide that: bound 10 VA.
+    circuits = (
+        Circuit("m", "demo motor", 3, 100.0, spaces=(1, 3, 5), locked=True),
+        *(Circuit(f"c{i}", "demo", 1, v) for i, v in enumerate((30.0, 30.0, 40.0))),
+    )
+    panel = Panel("demo", get_system("208Y/120"), 12, circuits)
+    assert spread_lower_bound(build_layout(panel, BalanceOptions())) == pytest.approx(10.0)
+    result = balance(panel, BalanceOptions(tolerance_va=0.1))
+    assert result.after.spread_va == pytest.approx(10.0)
+    assert result.status is SolveStatus.OPTIMAL

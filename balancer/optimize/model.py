@@ -490,26 +490,29 @@ def spread_lower_bound(layout: Layout) -> float:
     * largest piece: some line carries at least ``m`` (the heaviest single share on top of the
       lightest fixed line, a fixed line load, or the average), and the lightest line then has at
       most ``(total − m)/(n − 1)``, so spread ≥ m − (total − m)/(n − 1);
-    * granularity: when every share is a multiple of ``g`` (checked on a 1/6 VA grid, which
-      holds halves and thirds of whole-VA loads) and the total is not ``n`` equal multiples of
-      ``g``, the lines cannot all be equal, so spread ≥ g.
+    * granularity: when every share of a circuit not on every line is a multiple of ``g``
+      (checked on a 1/6 VA grid, which holds halves and thirds of whole-VA loads) and their
+      total is not ``n`` equal multiples of ``g``, the lines cannot all be equal, so spread ≥ g.
     """
     panel = layout.panel
     n = len(panel.lines)
     fixed = contribution(
         panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
     )
+    # A circuit on every line adds the same to each, so it changes neither the spread nor
+    # whether the lines can be equal: leave it out of the granularity argument.
     shares: list[float] = []
     for i in layout.fixed:
         circuit = panel.circuits[i]
-        shares += [circuit.load_va / circuit.poles] * circuit.poles
+        if circuit.poles < n:
+            shares += [circuit.load_va / circuit.poles] * circuit.poles
     heaviest = 0.0
     for unit in layout.units:
         for i in unit.members:
             circuit = panel.circuits[i]
             share = circuit.load_va / circuit.poles
-            shares += [share] * circuit.poles
-            if circuit.poles < n:  # a share on every line cannot unbalance them
+            if circuit.poles < n:
+                shares += [share] * circuit.poles
                 heaviest = max(heaviest, share)
     total = math.fsum(fixed.phase_va.values()) + math.fsum(
         panel.circuits[i].load_va for unit in layout.units for i in unit.members
