@@ -61,6 +61,16 @@ class Loads:
     phase_pf: dict[Line, float] = field(default_factory=dict)
 
     @property
+    def line_amps(self) -> dict[Line, float]:
+        """True RMS line currents (the fundamental where no harmonic figures were made)."""
+        return self.line_rms_a or self.line_a
+
+    @property
+    def neutral_amps(self) -> float:
+        """True RMS neutral current (the fundamental where no harmonic figures were made)."""
+        return self.neutral_rms_a or self.neutral_a
+
+    @property
     def heaviest_line(self) -> Line:
         return max(self.line_a, key=lambda line: self.line_a[line])
 

@@ -69,7 +69,7 @@ def test_summary_states_spread_imbalance_neutral_and_bound(written: Path) -> Non
     row, _ = _find(ws, "Imbalance % (NEMA MG 1 definition)")
     assert ws.cell(row, 2).value == pytest.approx(result.before.imbalance_pct)
     assert ws.cell(row, 3).value == pytest.approx(result.after.imbalance_pct)
-    row, _ = _find(ws, "Neutral current A")
+    row, _ = _find(ws, "Neutral current A RMS")
     assert ws.cell(row, 3).value == pytest.approx(result.after.neutral_a)
     row, _ = _find(ws, "Lower bound on spread VA")
     assert ws.cell(row, 2).value == pytest.approx(result.lower_bound_spread_va)
@@ -273,7 +273,7 @@ def test_unity_pf_neutral_closed_form(written: Path) -> None:
     ia, ib, ic = amps["A"], amps["B"], amps["C"]
     expected = math.sqrt(ia * ia + ib * ib + ic * ic - ia * ib - ib * ic - ic * ia)
     ws = load_workbook(written)["Summary"]
-    row, _ = _find(ws, "Neutral current A")
+    row, _ = _find(ws, "Neutral current A RMS")
     assert ws.cell(row, 3).value == pytest.approx(expected, rel=1e-9)
 
 

@@ -82,7 +82,7 @@ def test_delta_panel_has_no_neutral_anywhere(tmp_path: Path) -> None:
     out = write_workbook(result, tmp_path / "d.xlsx")
     wb = load_workbook(out)
     summary = {r[0]: r for r in wb["Summary"].iter_rows(values_only=True) if r[0]}
-    assert summary["Neutral current A"][1:3] == ("no neutral", "no neutral")
+    assert summary["Neutral current A RMS"][1:3] == ("no neutral", "no neutral")
     phasor_names = [r[0] for r in wb["Phasors"].iter_rows(min_row=3, max_row=6, values_only=True)]
     assert "Neutral" not in phasor_names
     _same_figures(analyze(read_schedule(out)), result.after)

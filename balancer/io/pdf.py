@@ -233,14 +233,14 @@ def _summary_page(
     page.heading("Per-line figures", size=11)
     lines = panel.lines
     if result is not None:
-        header = ["Line", "Before VA", "After VA", "Before A", "After A"]
+        header = ["Line", "Before VA", "After VA", "Before A RMS", "After A RMS"]
         rows: list[list[Any]] = [
             [
                 line,
                 _va(result.before.phase_va[line]),
                 _va(loads.phase_va[line]),
-                _amps(result.before.line_a[line]),
-                _amps(loads.line_a[line]),
+                _amps(result.before.line_amps[line]),
+                _amps(loads.line_amps[line]),
             ]
             for line in lines
         ]
@@ -250,25 +250,25 @@ def _summary_page(
                     "Neutral",
                     None,
                     None,
-                    _amps(result.before.neutral_a),
-                    _amps(loads.neutral_a),
+                    _amps(result.before.neutral_amps),
+                    _amps(loads.neutral_amps),
                 ]
             )
         widths = [0.9, 1.2, 1.2, 1.1, 1.1]
     else:
-        header = ["Line", "Load VA", "Current A", "Deviation from average"]
+        header = ["Line", "Load VA", "Current A RMS", "Deviation from average"]
         average = loads.total_va / len(lines)
         rows = [
             [
                 line,
                 _va(loads.phase_va[line]),
-                _amps(loads.line_a[line]),
+                _amps(loads.line_amps[line]),
                 f"{(loads.phase_va[line] - average) / average * 100 if average else 0.0:+.1f} %",
             ]
             for line in lines
         ]
         if panel.system.neutral:
-            rows.append(["Neutral", None, _amps(loads.neutral_a), ""])
+            rows.append(["Neutral", None, _amps(loads.neutral_amps), ""])
         widths = [0.9, 1.2, 1.1, 1.8]
     page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
 
@@ -279,9 +279,8 @@ def _summary_page(
     ]
     if loads.unbalance_factor_pct is not None:
         figures.append(("Current unbalance |I2|/|I1|", f"{loads.unbalance_factor_pct:.1f} %"))
-    rms = getattr(loads, "neutral_rms_a", None)
-    if panel.system.neutral and rms is not None and abs(rms - loads.neutral_a) > 0.05:
-        figures.append(("Neutral RMS with harmonics", f"{rms:,.1f} A"))
+    if panel.system.neutral and abs(loads.neutral_amps - loads.neutral_a) > 0.05:
+        figures.append(("Neutral at the fundamental only", f"{loads.neutral_a:,.1f} A"))
     if result is not None:
         figures += [
             ("Result", STATUS_TEXT[result.status]),

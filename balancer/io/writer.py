@@ -281,7 +281,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     _section(ws, row, "Per-line figures")
     row += 1
     header_row = row
-    _header(ws, row, ["Line", "Before VA", "After VA", "Average VA", "Before A", "After A"])
+    _header(ws, row, ["Line", "Before VA", "After VA", "Average VA", "Before A RMS", "After A RMS"])
     average = result.after.total_va / len(panel.lines)
     first_row = row + 1
     for line in panel.lines:
@@ -291,8 +291,8 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         _put(ws, row, 2, result.before.phase_va[line], VA)
         _put(ws, row, 3, result.after.phase_va[line], VA)
         _put(ws, row, 4, average, VA)
-        _put(ws, row, 5, result.before.line_a[line], AMPS)
-        _put(ws, row, 6, result.after.line_a[line], AMPS)
+        _put(ws, row, 5, result.before.line_amps[line], AMPS)
+        _put(ws, row, 6, result.after.line_amps[line], AMPS)
     table = _Table(header_row, first_row, row)
     row += CHART_ROWS  # the per-line chart is placed here, under its table
 
@@ -310,8 +310,8 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
             PCT,
         ),
         (
-            "Neutral current A",
-            lambda x: x.neutral_a if panel.system.neutral else "no neutral",
+            "Neutral current A RMS",
+            lambda x: x.neutral_amps if panel.system.neutral else "no neutral",
             AMPS,
         ),
         ("Heaviest line", lambda x: x.heaviest_line, ""),
@@ -434,17 +434,17 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
     row += 2
     _section(ws, row, "Line totals")
     row += 1
-    _header(ws, row, ["Line", "Load VA", "Amps"], col=2)
+    _header(ws, row, ["Line", "Load VA", "A RMS"], col=2)
     for line in panel.lines:
         row += 1
         _put(ws, row, 2, line)
         _put(ws, row, 3, totals[line], VA)
-        _put(ws, row, 4, result.after.line_a[line], AMPS)
+        _put(ws, row, 4, result.after.line_amps[line], AMPS)
     if panel.system.neutral:
         row += 1
         _put(ws, row, 2, "N")
         _put(ws, row, 3, None)
-        _put(ws, row, 4, result.after.neutral_a, AMPS)
+        _put(ws, row, 4, result.after.neutral_amps, AMPS)
     _widths(ws, [8, 30, 10, 7, 6, 7, 6, 7, 6, 7, 10, 30, 8])
     ws.freeze_panes = "A4"
     _print_setup(ws, landscape=True, title_rows="1:3")
