@@ -177,8 +177,8 @@ def work_order(before: Panel, after: Panel) -> WorkOrder:
     order = WorkOrder(
         panel_name=after.name,
         steps=tuple(steps),
-        expected_line_a=dict(loads.line_a),
-        expected_neutral_a=loads.neutral_a,
+        expected_line_a=dict(loads.line_amps),
+        expected_neutral_a=loads.neutral_amps,
         temporary_space_needed=temporary,
     )
     final = replay(before, order)
@@ -248,11 +248,14 @@ def work_order_lines(order: WorkOrder) -> list[str]:
         out.append("    done: ____")
     if order.temporary_space_needed:
         out += ["", "A temporary space is needed: at some step no free space fits the breaker."]
-    out += ["", "Expected after the work (fundamental, at the loads balanced on):"]
+    out += ["", "Expected after the work (true RMS amps, at the loads balanced on):"]
     out.append(
         "  "
         + "  ".join(f"line {line} {amps:,.1f} A" for line, amps in order.expected_line_a.items())
         + f"  neutral {order.expected_neutral_a:,.1f} A"
+    )
+    out.append(
+        "  (compare with a true-RMS clamp meter: harmonics add to what an averaging meter shows)"
     )
     return out
 
@@ -297,7 +300,7 @@ def work_order_rows(order: WorkOrder) -> list[list[Any]]:
     rows.append([])
     if order.temporary_space_needed:
         rows.append(["Note", "A temporary space is needed (see the set-aside steps)."])
-    rows.append(["Expected after the work", "Current (A)"])
+    rows.append(["Expected after the work", "Current (A, true RMS)"])
     rows += [[f"Line {line}", round(a, 1)] for line, a in order.expected_line_a.items()]
     rows.append(["Neutral", round(order.expected_neutral_a, 1)])
     return rows
