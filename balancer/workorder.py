@@ -255,7 +255,8 @@ def work_order_lines(order: WorkOrder) -> list[str]:
         + f"  neutral {order.expected_neutral_a:,.1f} A"
     )
     out.append(
-        "  (compare with a true-RMS clamp meter: harmonics add to what an averaging meter shows)"
+        "  (compare with a true-RMS clamp meter; an average-responding meter misreads "
+        "currents that carry harmonics)"
     )
     return out
 
