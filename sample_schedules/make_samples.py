@@ -631,6 +631,75 @@ BAKERY = [
     [17, "SPARE", "spare", 1, 20, None, None, None, None, None, None, None],
 ]
 
+# Old Mill machine shop: a 240/120 V 3-phase 4-wire delta panel; B is the high leg (208 V to
+# neutral), so 120 V circuits sit on A and C only.
+MILL = [
+    [1, "Shop lighting", "lighting", 1, 20, 1500, None, None, None, "12 AWG Cu", "shop", None],
+    [2, "Lathe L-1", "motor", 3, 30, 7200, 0.82, None, None, "10 AWG Cu", "shop", "5 hp"],
+    [3, "Air compressor", "motor", 3, 40, 11000, 0.85, None, None, "8 AWG Cu", "yard", "7.5 hp"],
+    [
+        8,
+        "Office receptacles",
+        "receptacle",
+        1,
+        20,
+        900,
+        None,
+        None,
+        None,
+        "12 AWG Cu",
+        "office",
+        None,
+    ],
+    [9, "Welder receptacle", "welder", 2, 50, 9600, 0.7, None, None, "6 AWG Cu", "shop", None],
+    [12, "Office lighting", "lighting", 1, 20, 600, None, None, None, "12 AWG Cu", "office", None],
+    [
+        13,
+        "Bench grinder receptacles",
+        "receptacle",
+        1,
+        20,
+        1440,
+        None,
+        None,
+        None,
+        "12 AWG Cu",
+        "shop",
+        None,
+    ],
+    [
+        14,
+        "Break room appliances",
+        "receptacle",
+        1,
+        20,
+        1500,
+        None,
+        None,
+        None,
+        "12 AWG Cu",
+        "break",
+        None,
+    ],
+    [
+        17,
+        "Exterior lighting",
+        "lighting",
+        1,
+        20,
+        800,
+        None,
+        None,
+        None,
+        "12 AWG Cu",
+        "yard",
+        "photocell",
+    ],
+    [18, "Water heater", "water heater", 2, 30, 4500, None, None, None, "10 AWG Cu", "break", None],
+    [19, "Unit heater UH-1", "heating", 2, 30, 5000, None, None, None, "10 AWG Cu", "shop", None],
+    [23, "SPARE", "spare", 1, 20, None, None, None, None, None, None, None],
+]
+
 # Pine Street barber and beauty: a bare CSV a contractor exported, 208Y/120 V, no panel sheet.
 SALON_CSV = [
     ["Circuit", "Description", "Pole", "Breaker", "VA"],
@@ -665,6 +734,12 @@ def main() -> None:
         "Corner bakery unit - Tenant panel T2 (demo data)",
         {"Name": "T2", "System": "120/240", "Spaces": 24, "Bus": 200, "Main": 150},
         BAKERY,
+    )
+    _write_xlsx(
+        HERE / "machine-shop-240-120-high-leg.xlsx",
+        "Old Mill machine shop - Panel MS (demo data)",
+        {"Name": "MS", "System": "240/120", "Spaces": 30, "Bus": 225, "Main": 200},
+        MILL,
     )
     with (HERE / "salon-208y120.csv").open("w", newline="", encoding="utf-8") as handle:
         csv.writer(handle).writerows(SALON_CSV)
