@@ -262,6 +262,13 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="VA",
         help="absolute tolerance on the phase spread in VA (default 1)",
     )
+    balance.add_argument(
+        "--objective",
+        choices=("spread", "line", "neutral"),
+        default="spread",
+        help="first goal: phase VA spread (default), worst line current, or neutral current; "
+        "the others break ties",
+    )
     _field_options(balance)
     _panel_options(balance)
     _demand_options(balance)
@@ -480,6 +487,7 @@ def _options(args: argparse.Namespace) -> Any:
         time_limit_s=args.time_limit,
         tolerance_va=args.tolerance,
         move_spares=args.move_spares,
+        objective=args.objective,
     )
 
 
