@@ -19,8 +19,8 @@ from typing import Literal
 import pulp
 
 from balancer.errors import InfeasibleError
+from balancer.harmonics import circuit_currents_by_order
 from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_line_currents
 from balancer.result import BalanceOptions
 from balancer.systems import Line
 
@@ -239,13 +239,12 @@ def contribution(
         circuit = panel.circuits[i]
         for line in member_lines:
             phase[line] += circuit.load_va / len(member_lines)
-        parts = circuit_line_currents(
-            panel.system, tuple(member_lines), circuit.load_va, circuit.power_factor
-        )
-        for line, value in parts.items():
+        # the same fundamental phasors analyze() reports (voltage, neutral share and the
+        # harmonic profile included), so a proven current is the current shown
+        fundamental = circuit_currents_by_order(panel.system, circuit, tuple(member_lines))[1]
+        for line, value in fundamental.lines.items():
             current[line] += value
-        if len(member_lines) == 1:
-            neutral += parts[member_lines[0]]
+        neutral += fundamental.neutral
     return Contribution(phase, neutral, current)
 
 
