@@ -11,7 +11,6 @@ from __future__ import annotations
 import math
 import re
 import textwrap
-import tomllib
 from collections import defaultdict
 from dataclasses import dataclass, field, replace
 from functools import cache
@@ -20,6 +19,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from balancer.analysis import share_by_line
+from balancer.datafiles import parse_toml
 from balancer.errors import Problem, ScheduleError
 from balancer.feeder import (
     BRANCH_DROP_GUIDE_PCT,
@@ -242,10 +242,7 @@ class _Reader:
 
 def parse_rule_set(text: str, where: str) -> RuleSet:
     """A rule set from TOML text; ``where`` names the file in every error message."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ScheduleError(Problem(where, f"not valid TOML: {exc}")) from exc
+    data = parse_toml(text, where)
     read = _Reader(where)
     base: RuleSet | None = None
     if "base" in data:

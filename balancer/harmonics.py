@@ -10,13 +10,12 @@ from __future__ import annotations
 
 import math
 import re
-import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import cache, lru_cache
-from importlib import resources
 from pathlib import Path
 
+from balancer.datafiles import array_of_tables, read_toml
 from balancer.errors import Problem, ScheduleError
 from balancer.panel import Circuit
 from balancer.phasors import CircuitCurrents, circuit_harmonic_currents
@@ -91,19 +90,8 @@ def load_profiles(path: Path | None = None) -> dict[str, Profile]:
     A file holds ``[[profile]]`` tables with ``name``, optional ``description``, ``aliases``
     and ``source``, and ``spectrum = { 3 = 0.8, 5 = 0.6 }`` (order = per-unit of fundamental).
     """
-    if path is None:
-        text = resources.files("balancer").joinpath("data/harmonics.toml").read_text("utf-8")
-        where = "harmonics.toml"
-    else:
-        text = path.read_text("utf-8")
-        where = str(path)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ScheduleError(Problem(where, f"not valid TOML: {exc}")) from exc
-    tables = data.get("profile", [])
-    if not isinstance(tables, list) or not tables:
-        raise ScheduleError(Problem(where, "no [[profile]] tables found"))
+    data, where = read_toml(path, "data/harmonics.toml")
+    tables = array_of_tables(data, "profile", where)
     profiles = [_profile_from_table(t, f"{where} profile {i + 1}") for i, t in enumerate(tables)]
     return {p.name: p for p in profiles}
 

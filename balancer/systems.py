@@ -6,13 +6,12 @@ from __future__ import annotations
 import cmath
 import math
 import re
-import tomllib
 from dataclasses import dataclass
 from functools import cache
-from importlib import resources
 from pathlib import Path
 from typing import Literal
 
+from balancer.datafiles import array_of_tables, read_toml
 from balancer.errors import Problem, ScheduleError
 
 Line = str  # "A", "B" or "C"
@@ -151,19 +150,8 @@ def load_systems(path: Path | None = None) -> dict[str, System]:
     ScheduleError
         Naming the file and the position of the system at fault.
     """
-    if path is None:
-        text = resources.files("balancer").joinpath("data/systems.toml").read_text("utf-8")
-        where = "systems.toml"
-    else:
-        text = path.read_text("utf-8")
-        where = str(path)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ScheduleError(Problem(where, f"not valid TOML: {exc}")) from exc
-    tables = data.get("system", [])
-    if not isinstance(tables, list) or not tables:
-        raise ScheduleError(Problem(where, "no [[system]] tables found"))
+    data, where = read_toml(path, "data/systems.toml")
+    tables = array_of_tables(data, "system", where)
     systems = [_system_from_table(t, f"{where} system {i + 1}") for i, t in enumerate(tables)]
     seen: dict[str, int] = {}
     for i, system in enumerate(systems):
