@@ -574,15 +574,20 @@ DEMO_SAMPLE = "office-208y120.xlsx"
 
 
 def run_demo(args: argparse.Namespace) -> int:
-    from balancer.result import BalanceOptions
-
+    """``balance`` on the bundled office sample, with every default, into ``--output-dir``."""
     schedule = sample_folder() / DEMO_SAMPLE
     args.output_dir.mkdir(parents=True, exist_ok=True)
-    output = args.output_dir / default_output(schedule).name
+    stem = default_output(schedule).stem
     print(f"Demo: balancing {schedule} (demo data)\n")
-    result, written = balance_file(schedule, output, BalanceOptions(), PanelOverrides())
-    print(balance_text(result, written))
-    return EXIT_OK
+    argv = [
+        "balance",
+        str(schedule),
+        "-o",
+        str(args.output_dir / f"{stem}.xlsx"),
+        "--pdf",
+        str(args.output_dir / f"{stem}.pdf"),
+    ]
+    return run_balance(build_parser().parse_args(argv))
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -69,3 +69,14 @@ def test_check_text_names_the_figures(capsys: pytest.CaptureFixture[str]) -> Non
         "de-energised",
     ):
         assert words in out
+
+
+@pytest.mark.slow
+def test_demo_writes_workbook_and_pdf(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["demo", "--output-dir", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert "demo data" in out
+    assert "Result: optimal" in out
+    for name in ("office-208y120-balanced.xlsx", "office-208y120-balanced.pdf"):
+        assert (tmp_path / name).stat().st_size > 0
+        assert f"Wrote {tmp_path / name}" in out
