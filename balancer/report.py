@@ -58,7 +58,8 @@ def panel_to_dict(panel: Panel) -> dict[str, Any]:
 def loads_to_dict(loads: Loads) -> dict[str, Any]:
     """Every field of :class:`Loads`, so new figures reach JSON without changes here."""
     out = {f.name: getattr(loads, f.name) for f in dataclasses.fields(loads)}
-    return _clean(out)  # type: ignore[no-any-return]
+    cleaned: dict[str, Any] = _clean(out)
+    return cleaned
 
 
 def circuits_to_list(panel: Panel) -> list[dict[str, Any]]:
@@ -79,7 +80,8 @@ def circuits_to_list(panel: Panel) -> list[dict[str, Any]]:
                 "group": c.group,
             }
         )
-    return _clean(rows)  # type: ignore[no-any-return]
+    cleaned: list[dict[str, Any]] = _clean(rows)
+    return cleaned
 
 
 def panel_heading(panel: Panel) -> str:

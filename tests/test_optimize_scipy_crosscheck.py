@@ -56,7 +56,9 @@ def _scipy_best_spread(circuits: list[Circuit]) -> float:
         upper += [0.0, np.inf]
     integrality = np.ones(n)
     integrality[-2:] = 0
-    bounds = Bounds(np.r_[np.zeros(n_pick), -np.inf, -np.inf], np.r_[np.ones(n_pick), np.inf, np.inf])
+    bounds = Bounds(
+        np.r_[np.zeros(n_pick), -np.inf, -np.inf], np.r_[np.ones(n_pick), np.inf, np.inf]
+    )
     result = milp(
         cost,
         constraints=LinearConstraint(np.array(rows), lower, upper),

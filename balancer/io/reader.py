@@ -121,7 +121,7 @@ def _read_csv(path: Path) -> _Grid:
     try:
         dialect = csv.Sniffer().sniff(text[:4096], delimiters=",;\t")
     except csv.Error:
-        dialect = csv.excel  # type: ignore[assignment]
+        dialect = csv.excel
     rows: list[list[Any]] = [list(r) for r in csv.reader(text.splitlines(), dialect)]
     return _Grid(path.name, [[c if c.strip() else None for c in r] for r in rows])
 
@@ -171,7 +171,8 @@ def _space_list(value: Any) -> list[int]:
 
 
 def _find_header(grid: _Grid) -> tuple[int, dict[int, tuple[ColumnSpec, float]]]:
-    best_row, best = -1, {}
+    best_row = -1
+    best: dict[int, tuple[ColumnSpec, float]] = {}
     for r, row in enumerate(grid.rows[:HEADER_SEARCH_ROWS]):
         found = {}
         for c, value in enumerate(row):
@@ -732,13 +733,14 @@ def _resolve_spaces(
     notices: list[str],
 ) -> int | None:
     if given is not None:
-        value, where = float(given), "--spaces"
+        value: float | None = float(given)
+        where = "--spaces"
     elif "spaces" in pairs:
         where = pairs["spaces"][1]
         try:
-            value = _number(pairs["spaces"][0])[0]  # type: ignore[assignment]
+            value = _number(pairs["spaces"][0])[0]
         except ValueError:
-            value = None  # type: ignore[assignment]
+            value = None
         if value is None:
             problems.append(
                 Problem(where, f"space count '{_text(pairs['spaces'][0])}' is not a number")
@@ -753,6 +755,7 @@ def _resolve_spaces(
             f"{poles} poles (use --spaces or a Panel sheet)"
         )
         return count
+    assert value is not None
     if value < 1 or not float(value).is_integer():
         problems.append(
             Problem(where, f"space count {value:g} must be a whole number of 1 or more")

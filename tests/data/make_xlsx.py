@@ -25,8 +25,13 @@ def titled_and_merged() -> None:
     book = Workbook()
     info = book.active
     info.title = "Panel"
-    for row in (["Name", "LP-7"], ["Voltage", "480Y/277 V"], ["Spaces", 30], ["Bus", "225 A"],
-                ["Main", "MLO"]):
+    for row in (
+        ["Name", "LP-7"],
+        ["Voltage", "480Y/277 V"],
+        ["Spaces", 30],
+        ["Bus", "225 A"],
+        ["Main", "MLO"],
+    ):
         info.append(row)
     sheet = book.create_sheet("Circuits")
     sheet.append(["Test panel with a merged title"])
