@@ -42,6 +42,12 @@ class TargetAnswer:
     result: BalanceResult | None = None  # the arrangement that reaches the target
 
 
+# Each row is a whole solve; these keep the table to minutes on a hard panel. A row stopped by
+# its time limit is marked not proven, never optimal.
+ROW_TIME_LIMIT_S = 10.0
+DEFAULT_MAX_ROWS = 12
+
+
 def count_moves(before: Panel, after: Panel) -> int:
     """Circuits that were placed before and sit in other spaces after (new breakers excluded)."""
     where = {c.id: c.spaces for c in after.circuits}
@@ -85,10 +91,11 @@ def tradeoff(
     """
     options = options or BalanceOptions()
     solve = balance_fn or _default_balance()
-    base = replace(options, fresh=False, target_imbalance_pct=None)
-    full = unlimited if unlimited is not None else solve(panel, replace(base, max_moves=None))
+    unlimited_options = replace(options, fresh=False, target_imbalance_pct=None, max_moves=None)
+    base = replace(unlimited_options, time_limit_s=min(options.time_limit_s, ROW_TIME_LIMIT_S))
+    full = unlimited if unlimited is not None else solve(panel, unlimited_options)
     full_moves = count_moves(panel, full.after_panel)
-    last = full_moves if max_moves is None else min(full_moves, max_moves)
+    last = min(full_moves, DEFAULT_MAX_ROWS if max_moves is None else max_moves)
     results: list[BalanceResult] = []
     rows: list[TradeoffRow] = []
     notes: list[str] = []
