@@ -1277,7 +1277,7 @@ def building_text(
     if result is None:
         panel_cols += [
             ("imbalance_before_pct", "Imbalance %"),
-            ("line_a_before", "Line A"),
+            ("line_a_before", "Amps per line"),
             ("neutral_before_a", "Neutral A"),
         ]
     else:
@@ -1285,7 +1285,7 @@ def building_text(
             ("imbalance_before_pct", "Imb. % before"),
             ("phase_va_after", "VA per line after"),
             ("imbalance_after_pct", "Imb. % after"),
-            ("line_a_after", "Line A after"),
+            ("line_a_after", "Amps per line after"),
             ("status", "Status"),
             ("moves", "Moves"),
         ]
