@@ -267,41 +267,12 @@ class _LineState:
         i, j = divmod(found, len(moves))
         return [moves[i], moves[j]]
 
-    def reopt(self, order: Sequence[int]) -> bool:
-        """Best joint choice for the first units of ``order`` (up to REOPT_COMBINATIONS
-        combinations), the others held; True when it improved the score."""
-        chosen: list[int] = []
-        size = 1
-        for u in order:
-            count = len(self.patterns[u])
-            if count > 1 and size * count <= REOPT_COMBINATIONS:
-                chosen.append(u)
-                size *= count
-        if not chosen:
-            return False
-        n = len(self.load)
-        base = np.asarray(self.load, dtype=float)
-        room = np.asarray(self.room, dtype=float)
-        for u in chosen:
-            base -= self.share[u][self.picks[u]]
-            room += self.use[u][self.picks[u]]
-        loads = base[None, :]
-        used = np.zeros((1, n))
-        for u in chosen:
-            loads = (loads[:, None, :] + np.asarray(self.share[u])[None, :, :]).reshape(-1, n)
-            used = (used[:, None, :] + np.asarray(self.use[u])[None, :, :]).reshape(-1, n)
-        ok: np.ndarray = np.asarray((used <= room).all(axis=1))
-        here = self.score(self.load)
-        found = _pick(loads, ok, here)
-        if found is None:
-            return False
-        ks = np.unravel_index(found, [len(self.patterns[u]) for u in chosen])
-        self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
-        return True
-
-    def fewer_changes(self, units: Sequence[int], home: Sequence[int], goal_va: float) -> bool:
-        """Re-decide ``units`` jointly for the fewest patterns differing from ``home`` while the
-        spread stays within ``goal_va``; True when that count went down."""
+    def _joint(
+        self, units: Sequence[int], home: Sequence[int] | None = None
+    ) -> tuple[list[int], np.ndarray, np.ndarray, np.ndarray] | None:
+        """Every joint choice for the first ``units`` (up to REOPT_COMBINATIONS), the others
+        held: (units chosen, line loads per combination, fits-the-room flags, patterns
+        differing from ``home`` per combination); None when no unit has a choice."""
         chosen: list[int] = []
         size = 1
         for u in units:
@@ -310,7 +281,7 @@ class _LineState:
                 chosen.append(u)
                 size *= count
         if not chosen:
-            return False
+            return None
         n = len(self.load)
         base = np.asarray(self.load, dtype=float)
         room = np.asarray(self.room, dtype=float)
@@ -321,19 +292,46 @@ class _LineState:
         used = np.zeros((1, n))
         changed = np.zeros(1)
         for u in chosen:
-            away = np.array([k != home[u] for k in range(len(self.patterns[u]))], dtype=float)
             loads = (loads[:, None, :] + np.asarray(self.share[u])[None, :, :]).reshape(-1, n)
             used = (used[:, None, :] + np.asarray(self.use[u])[None, :, :]).reshape(-1, n)
-            changed = (changed[:, None] + away[None, :]).reshape(-1)
-        ok = (used <= room).all(axis=1) & (loads.max(axis=1) - loads.min(axis=1) <= goal_va)
+            if home is not None:
+                away = np.array([k != home[u] for k in range(len(self.patterns[u]))], dtype=float)
+                changed = (changed[:, None] + away[None, :]).reshape(-1)
+        ok: np.ndarray = np.asarray((used <= room).all(axis=1))
+        return chosen, loads, ok, changed
+
+    def _apply_index(self, chosen: list[int], index: int) -> None:
+        ks = np.unravel_index(index, [len(self.patterns[u]) for u in chosen])
+        self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
+
+    def reopt(self, order: Sequence[int]) -> bool:
+        """Best joint choice for the first units of ``order`` (up to REOPT_COMBINATIONS
+        combinations), the others held; True when it improved the score."""
+        joint = self._joint(order)
+        if joint is None:
+            return False
+        chosen, loads, ok, _ = joint
+        found = _pick(loads, ok, self.score(self.load))
+        if found is None:
+            return False
+        self._apply_index(chosen, found)
+        return True
+
+    def fewer_changes(self, units: Sequence[int], home: Sequence[int], goal_va: float) -> bool:
+        """Re-decide ``units`` jointly for the fewest patterns differing from ``home`` while the
+        spread stays within ``goal_va``; True when that count went down."""
+        joint = self._joint(units, home)
+        if joint is None:
+            return False
+        chosen, loads, ok, changed = joint
+        ok = ok & (loads.max(axis=1) - loads.min(axis=1) <= goal_va)
         if not ok.any():
             return False
         now = sum(1 for u in chosen if self.picks[u] != home[u])
         best = int(np.argmin(np.where(ok, changed, np.inf)))
         if changed[best] >= now:
             return False
-        ks = np.unravel_index(best, [len(self.patterns[u]) for u in chosen])
-        self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
+        self._apply_index(chosen, best)
         return True
 
 
