@@ -83,3 +83,13 @@ def test_schedule_convention_splits_multipole_loads() -> None:
     heater_only = analyze(Panel("T", system, 12, circuits[:1]))
     assert heater_only.line_a["A"] == pytest.approx(3000 / 208)
     assert heater_only.neutral_a == pytest.approx(0.0, abs=ATOL_A)
+
+
+def test_network_single_phase_neutral_does_not_cancel() -> None:
+    # Two lines of a 208Y/120 wye are 120° apart, not 180°: 10 A and 5 A at unity PF leave
+    # √(10² + 5² − 10·5) = √75 A on the neutral (the phasor sum; common practice for network
+    # services), where a 120/240 V panel would carry the 5 A difference.
+    system = get_system("120/208 network")
+    circuits = (Circuit("1", "a", 1, 1200.0, (1,)), Circuit("3", "b", 1, 600.0, (3,)))
+    loads = analyze(Panel("T", system, 12, circuits))
+    assert loads.neutral_a == pytest.approx(math.sqrt(75.0))

@@ -99,7 +99,7 @@ def test_bundled_systems_are_consistent() -> None:
     # Nominal figures from ANSI C84.1 / IEC 60038 (REFERENCE.md, F): the loader checks that
     # line-to-neutral phasors reproduce the line-to-line voltage within 2 %.
     systems = builtin_systems()
-    assert len(systems) == 7
+    assert len(systems) == 8
     high_leg = systems["240/120"]
     # High leg ≈ 120·√3 = 208 V to neutral (REFERENCE.md, F).
     assert abs(high_leg.voltage_phasor("B")) == pytest.approx(120 * 3**0.5, rel=1e-5)
