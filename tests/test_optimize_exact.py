@@ -184,3 +184,29 @@ def test_move_budget_matches_exhaustive_search_and_is_monotone(seed: int) -> Non
         assert result.after.spread_va == pytest.approx(best, abs=ATOL_VA)
         assert result.after.spread_va <= previous + ATOL_VA
         previous = result.after.spread_va
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_residue_bound_is_valid_and_tight_on_coarse_loads(seed: int) -> None:
+    # Movable loads in steps of 250 VA and a locked load off that step: every line's load keeps
+    # its residue, so the spread cannot fall below the circular-gap bound; exhaustive search is
+    # the referee.
+    from balancer.optimize.model import build_layout, spread_lower_bound
+
+    rng = random.Random(1000 + seed)
+    system = get_system(rng.choice(["208Y/120", "120/240"]))
+    circuits = [
+        Circuit("fixed", "locked demo load", 1, float(rng.randint(1, 249)), (1,), locked=True)
+    ]
+    for i in range(rng.randint(3, 5)):
+        poles = rng.choice([1, 1, 2])
+        circuits.append(Circuit(f"m{i}", "demo load", poles, 250.0 * poles * rng.randint(1, 8)))
+    panel = Panel("residue", system, 12, tuple(circuits))
+    reachable = brute_force(panel, fresh=True)
+    best = min(_spread(p) for p in reachable)
+    bound = spread_lower_bound(build_layout(panel, BalanceOptions(fresh=True)))
+    assert bound <= best + ATOL_VA
+    assert bound > 0  # the locked load's residue keeps the lines apart
+    result = balance(panel, BalanceOptions(fresh=True, tolerance_va=TOL_VA))
+    assert result.after.spread_va == pytest.approx(best, abs=ATOL_VA)
+    assert result.lower_bound_spread_va <= best + ATOL_VA

@@ -481,6 +481,43 @@ def placed_circuits(layout: Layout, options: Sequence[Option]) -> list[Circuit]:
     return circuits
 
 
+def _on_grid(values: Sequence[float]) -> list[int] | None:
+    """Values in sixths of a VA (halves and thirds of whole-VA loads), or None when off it."""
+    sixths = [round(v * 6) for v in values]
+    ok = all(abs(v * 6 - k) < 1e-6 for v, k in zip(values, sixths, strict=True))
+    return sixths if ok else None
+
+
+def _residue_bound(panel: Panel, layout: Layout, fixed_va: Mapping[Line, float]) -> float:
+    """Spread bound from what the placed circuits cannot change.
+
+    Every share a movable circuit (not on every line) can put on a line is a multiple of ``g``,
+    so line L always carries F_L + a multiple of g, F_L its fixed load: the lines' loads sit on
+    the residues F_L mod g of a circle of circumference g, and no arrangement brings them
+    closer than g minus the widest gap between neighbouring residues. Circuits on every line
+    shift all lines alike and change no difference. With nothing movable the fixed spread is
+    the spread.
+    """
+    n = len(panel.lines)
+    movable = [
+        panel.circuits[i].load_va / panel.circuits[i].poles
+        for unit in layout.units
+        for i in unit.members
+        if panel.circuits[i].poles < n
+    ]
+    fixed = [fixed_va[line] for line in panel.lines]
+    fixed_sixths, movable_sixths = _on_grid(fixed), _on_grid(movable)
+    if fixed_sixths is None or movable_sixths is None:
+        return 0.0
+    g = math.gcd(*movable_sixths) if movable_sixths else 0
+    if g == 0:
+        return (max(fixed_sixths) - min(fixed_sixths)) / 6
+    residues = sorted(v % g for v in fixed_sixths)
+    gaps = [b - a for a, b in itertools.pairwise(residues)]
+    gaps.append(residues[0] + g - residues[-1])
+    return (g - max(gaps)) / 6
+
+
 def spread_lower_bound(layout: Layout) -> float:
     """A combinatorial lower bound on the phase spread of any legal arrangement (VA).
 
@@ -523,4 +560,5 @@ def spread_lower_bound(layout: Layout) -> float:
         g = math.gcd(*sixths) if sixths else 0
         if g and (sum(sixths) // g) % n:
             bound = max(bound, g / 6)
+    bound = max(bound, _residue_bound(panel, layout, fixed.phase_va))
     return bound if bound > 1e-9 * max(1.0, total) else 0.0  # float noise is not a bound
