@@ -36,15 +36,7 @@ ODD_LOADS = "--odd-loads" in sys.argv
 FEEDER_SPACES = (1, 2, 7)  # 3-pole feeders there take 1-3-5, 2-4-6 and 7-9-11
 S480 = get_system("480Y/277")
 S208 = get_system("208Y/120")
-S208_1PH = System(
-    designation="208/120 1PH",
-    description="single-phase 3-wire from two lines of a 208Y/120 wye",
-    lines=("A", "B"),
-    line_to_line_v=208.0,
-    neutral=True,
-    line_to_neutral_v=(120.0, 120.0),
-    angle_deg=(0.0, -120.0),
-)
+S208_1PH = get_system("120/208 network")
 
 
 def _loads(rng: random.Random, system: System, taken: set[int], fill: float) -> list[Circuit]:

@@ -21,7 +21,7 @@ from balancer.building import (
 from balancer.errors import ScheduleError
 from balancer.panel import Circuit, Panel
 from balancer.result import BalanceOptions, BalanceResult, SolveStatus
-from balancer.systems import System, get_system
+from balancer.systems import get_system
 from balancer.transformer import make_transformer, primary_line_currents
 
 ATOL_VA = 1e-6
@@ -32,16 +32,8 @@ S480 = get_system("480Y/277")
 S240 = get_system("120/240")
 HIGH_LEG = get_system("240/120")
 # Two lines and the neutral of a 208Y/120 wye: the usual supply of apartments on a network
-# (common practice). Not in the bundled table; built here for the tests.
-S208_1PH = System(
-    designation="208/120 1PH",
-    description="single-phase 3-wire from two lines of a 208Y/120 wye",
-    lines=("A", "B"),
-    line_to_line_v=208.0,
-    neutral=True,
-    line_to_neutral_v=(120.0, 120.0),
-    angle_deg=(0.0, -120.0),
-)
+# (common practice).
+S208_1PH = get_system("120/208 network")
 
 
 def one_pole(space: int, load_va: float, **kw: object) -> Circuit:
