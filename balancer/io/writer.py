@@ -355,7 +355,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     for note in SAFETY_NOTES:
         row += 1
         _long_text(ws, row, 1, note, last_col=6, chars_per_line=95)
-    _widths(ws, [36, 16, 16, 13, 11, 11])
+    _widths(ws, [36, 16, 16, 13, 14, 14])
     _print_setup(ws, landscape=False, title_rows=None)
     return table
 
