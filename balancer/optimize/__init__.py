@@ -173,7 +173,11 @@ def _placement_start(options: Sequence[Sequence[Option]]) -> list[int] | None:
 def _describe(stage: StageResult, proven: bool, bound: float, options: BalanceOptions) -> str:
     unit = {"spread": "VA", "moves": "moves"}.get(stage.goal, "A")
     digits = {"spread": 1, "moves": 0}.get(stage.goal, 2)
-    text = f"{stage.goal}: {stage.value:.{digits}f} {unit}"
+    # the current goals are optimised at the fundamental; say so beside RMS figures
+    label = {"neutral": "neutral (fundamental)", "line": "worst line (fundamental)"}.get(
+        stage.goal, stage.goal
+    )
+    text = f"{label}: {stage.value:.{digits}f} {unit}"
     if proven and stage.goal == "moves":
         return text + ", proven fewest"
     if proven:
