@@ -187,10 +187,10 @@ def test_move_budget_matches_exhaustive_search_and_is_monotone(seed: int) -> Non
 
 
 @pytest.mark.parametrize("seed", range(12))
-def test_residue_bound_is_valid_and_tight_on_coarse_loads(seed: int) -> None:
-    # Movable loads in steps of 250 VA and a locked load off that step: every line's load keeps
-    # its residue, so the spread cannot fall below the circular-gap bound; exhaustive search is
-    # the referee.
+def test_step_bound_is_valid_on_coarse_loads(seed: int) -> None:
+    # Movable loads in steps of 250 VA and a locked load off that step: every line keeps its
+    # fixed load plus whole steps, so the spread cannot fall below the water-filling bound;
+    # exhaustive search is the referee.
     from balancer.optimize.model import build_layout, spread_lower_bound
 
     rng = random.Random(1000 + seed)
@@ -210,3 +210,24 @@ def test_residue_bound_is_valid_and_tight_on_coarse_loads(seed: int) -> None:
     result = balance(panel, BalanceOptions(fresh=True, tolerance_va=TOL_VA))
     assert result.after.spread_va == pytest.approx(best, abs=ATOL_VA)
     assert result.lower_bound_spread_va <= best + ATOL_VA
+
+
+@pytest.mark.parametrize("seed", range(15))
+def test_step_bound_never_exceeds_the_optimum_with_one_step_loads(seed: int) -> None:
+    # Movable 1-pole loads all equal to the step: the relaxation behind the bound differs from
+    # the problem only by the spaces each line has, so the bound is a true floor (and often
+    # the optimum itself); exhaustive search is the referee.
+    from balancer.optimize.model import build_layout, spread_lower_bound
+
+    rng = random.Random(2000 + seed)
+    system = get_system(rng.choice(["208Y/120", "120/240"]))
+    step = float(rng.choice([100, 250, 360]))
+    circuits = [
+        Circuit(f"f{s}", "locked demo load", 1, float(rng.randint(0, 1500)), (s,), locked=True)
+        for s in (1, 3, 5)[: len(system.lines)]
+    ]
+    circuits += [Circuit(f"m{i}", "demo load", 1, step) for i in range(rng.randint(1, 6))]
+    panel = Panel("steps", system, 12, tuple(circuits))
+    best = min(_spread(p) for p in brute_force(panel, fresh=True))
+    bound = spread_lower_bound(build_layout(panel, BalanceOptions(fresh=True)))
+    assert bound <= best + ATOL_VA

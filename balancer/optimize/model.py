@@ -488,15 +488,17 @@ def _on_grid(values: Sequence[float]) -> list[int] | None:
     return sixths if ok else None
 
 
-def _residue_bound(panel: Panel, layout: Layout, fixed_va: Mapping[Line, float]) -> float:
-    """Spread bound from what the placed circuits cannot change.
+def _step_bound(panel: Panel, layout: Layout, fixed_va: Mapping[Line, float]) -> float:
+    """Spread bound from the step of the movable shares and what stays where it is.
 
-    Every share a movable circuit (not on every line) can put on a line is a multiple of ``g``,
-    so line L always carries F_L + a multiple of g, F_L its fixed load: the lines' loads sit on
-    the residues F_L mod g of a circle of circumference g, and no arrangement brings them
-    closer than g minus the widest gap between neighbouring residues. Circuits on every line
-    shift all lines alike and change no difference. With nothing movable the fixed spread is
-    the spread.
+    Every share a movable circuit (not on every line) puts on a line is a multiple of ``g``, so
+    line i carries F_i + g·k_i: F_i its fixed load, k_i ≥ 0 whole steps, and the k_i add up to
+    K, the movable load in steps. Forgetting which share may go where leaves a relaxation whose
+    least spread is exact to compute: water-filling, one step at a time onto the lightest line.
+    (It maximises the lightest line; and when the heaviest line was raised, every line sits in
+    a window of one step, where any other vector with the same residues and sum differs by a
+    whole step up on one line and down on another, so it spreads at least as wide.)
+    Circuits on every line shift all lines alike and change no difference.
     """
     n = len(panel.lines)
     movable = [
@@ -504,18 +506,27 @@ def _residue_bound(panel: Panel, layout: Layout, fixed_va: Mapping[Line, float])
         for unit in layout.units
         for i in unit.members
         if panel.circuits[i].poles < n
+        for _ in range(panel.circuits[i].poles)
     ]
-    fixed = [fixed_va[line] for line in panel.lines]
-    fixed_sixths, movable_sixths = _on_grid(fixed), _on_grid(movable)
-    if fixed_sixths is None or movable_sixths is None:
+    fixed, steps = _on_grid([fixed_va[line] for line in panel.lines]), _on_grid(movable)
+    if fixed is None or steps is None:
         return 0.0
-    g = math.gcd(*movable_sixths) if movable_sixths else 0
+    g = math.gcd(*steps) if steps else 0
     if g == 0:
-        return (max(fixed_sixths) - min(fixed_sixths)) / 6
-    residues = sorted(v % g for v in fixed_sixths)
-    gaps = [b - a for a, b in itertools.pairwise(residues)]
-    gaps.append(residues[0] + g - residues[-1])
-    return (g - max(gaps)) / 6
+        return (max(fixed) - min(fixed)) / 6
+    total_steps = sum(steps) // g
+
+    def needed(level: int) -> int:  # steps that bring every line to at least ``level``
+        return sum(max(0, -((v - level) // g)) for v in fixed)
+
+    low, high = min(fixed), max(fixed) + g * total_steps + 1
+    while high - low > 1:  # the highest level the steps can lift every line to
+        mid = (low + high) // 2
+        low, high = (mid, high) if needed(mid) <= total_steps else (low, mid)
+    final = [v + g * max(0, -((v - low) // g)) for v in fixed]
+    for _ in range(total_steps - needed(low)):  # fewer than n steps are left
+        final[final.index(min(final))] += g
+    return (max(final) - min(final)) / 6
 
 
 def spread_lower_bound(layout: Layout) -> float:
@@ -560,5 +571,5 @@ def spread_lower_bound(layout: Layout) -> float:
         g = math.gcd(*sixths) if sixths else 0
         if g and (sum(sixths) // g) % n:
             bound = max(bound, g / 6)
-    bound = max(bound, _residue_bound(panel, layout, fixed.phase_va))
+    bound = max(bound, _step_bound(panel, layout, fixed.phase_va))
     return bound if bound > 1e-9 * max(1.0, total) else 0.0  # float noise is not a bound
