@@ -23,7 +23,7 @@ _LAZY = {
     "BalanceResult": ("balancer.result", "BalanceResult"),
     "write_schedule": ("balancer.io.writer", "write_workbook"),
     "write_pdf": ("balancer.io.pdf", "write_pdf"),
-    "read_building": ("balancer.building", "read_building"),
+    "read_building": ("balancer.building_files", "read_building"),
     "roll_up": ("balancer.building", "roll_up"),
     "balance_building": ("balancer.building", "balance_building"),
 }

@@ -9,7 +9,7 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
-from balancer import batch, building, report
+from balancer import batch, building_report, report
 from balancer.analysis import analyze
 from balancer.errors import BalancerError, Problem, ScheduleError
 from balancer.io.reader import PanelOverrides, read_schedule
@@ -274,7 +274,7 @@ def build_parser() -> argparse.ArgumentParser:
     _demand_options(balance)
     _output_options(balance)
 
-    building.add_command(commands)
+    building_report.add_command(commands)
 
     demo = commands.add_parser(
         "demo",
@@ -597,7 +597,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         "check": run_check,
         "balance": run_balance,
         "demo": run_demo,
-        "building": building.run_command,
+        "building": building_report.run_command,
     }
     try:
         return handlers[args.command](args)

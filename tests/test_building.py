@@ -311,7 +311,7 @@ def test_whole_tree_balancing_proves_every_panel_and_conserves_loads() -> None:
     assert result.after_figures.panels["MDP"].total_va == pytest.approx(
         own_branch_va(building), abs=ATOL_VA
     )
-    from balancer.building import move_rows
+    from balancer.building_report import move_rows
 
     rows = move_rows(result)
     assert len(rows) == sum(len(o.moves) + len(o.swapped_feeds) for o in result.outcomes.values())

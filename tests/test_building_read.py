@@ -10,7 +10,8 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook, load_workbook
 
-from balancer.building import read_building, roll_up
+from balancer.building import roll_up
+from balancer.building_files import read_building
 from balancer.cli import main
 from balancer.errors import ScheduleError
 

@@ -1,0 +1,209 @@
+"""Building files: reading a building (an index of panels and feeds) and writing it back.
+
+A building is read from a workbook with a ``Building`` index sheet and one sheet per panel, or
+from an index file (``building.xlsx``/``building.csv``, or the folder holding it) whose
+``Schedule`` column names one schedule file per panel. :func:`write_building_schedules` writes a
+building in the first form, so a revised building can be read again.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import math
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+
+from openpyxl import load_workbook
+from openpyxl.utils import get_column_letter
+from openpyxl.utils.exceptions import InvalidFileException
+
+from balancer.building import Building, Feed, make_building
+from balancer.errors import Problem, ScheduleError
+from balancer.panel import Panel
+from balancer.transformer import make_transformer
+
+INDEX_SHEET = "Building"
+INDEX_FILES = ("building.xlsx", "building.csv")
+# column key → accepted spellings (compared lower-case with spaces and punctuation removed)
+INDEX_COLUMNS: dict[str, tuple[str, ...]] = {
+    "panel": ("panel", "panelname", "name"),
+    "schedule": ("schedule", "sheet", "file", "schedulefile"),
+    "fed_from": ("fedfrom", "source", "upstream", "suppliedfrom", "feedingpanel"),
+    "circuit": ("feedercircuit", "circuit", "feeder", "viacircuit", "ckt"),
+    "transformer": ("transformer", "xfmr", "transformername"),
+    "kva": ("kva", "transformerkva", "ratingkva"),
+    "connection": ("connection", "transformerconnection", "winding", "windings"),
+    "swapped": ("linesswapped", "swapped", "swaplines"),
+}
+
+
+def _norm(text: object) -> str:
+    return "".join(ch for ch in str(text).lower() if ch.isalnum())
+
+
+def _cell_text(value: object) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value).strip()
+
+
+def _index_rows(path: Path) -> tuple[str, list[list[object]]]:
+    """(sheet or file name used in messages, rows of cell values) of a building index."""
+    if path.suffix.lower() == ".csv":
+        text = path.read_text("utf-8-sig")
+        return path.name, [list(r) for r in csv.reader(text.splitlines())]
+    try:
+        book = load_workbook(path, read_only=True, data_only=True)
+    except (InvalidFileException, zipfile.BadZipFile, KeyError, OSError) as exc:
+        raise ScheduleError(Problem(str(path), f"is not a readable Excel workbook: {exc}")) from exc
+    try:
+        names = book.sheetnames
+        sheet = next((n for n in names if _norm(n) == _norm(INDEX_SHEET)), None)
+        if sheet is None:
+            raise ScheduleError(
+                Problem(str(path), f"no sheet named '{INDEX_SHEET}' saying which panel feeds which")
+            )
+        return sheet, [list(r) for r in book[sheet].iter_rows(values_only=True)]
+    finally:
+        book.close()
+
+
+@dataclass(frozen=True, slots=True)
+class _IndexRow:
+    cells: dict[str, str]
+    where: dict[str, str]
+
+
+def _parse_index(place: str, rows: list[list[object]]) -> list[_IndexRow]:
+    spelled = {s: key for key, spellings in INDEX_COLUMNS.items() for s in spellings}
+    for r, row in enumerate(rows[:20]):  # noqa: B007 (r is the header row after the loop)
+        columns = {c: spelled[_norm(v)] for c, v in enumerate(row) if _norm(v) in spelled}
+        if "panel" in columns.values():
+            break
+    else:
+        raise ScheduleError(
+            Problem(place, "no header row with a 'Panel' column found in the first 20 rows")
+        )
+    problems = []
+    for c, v in enumerate(row):
+        if _cell_text(v) and c not in columns:
+            near = difflib.get_close_matches(_norm(v), list(spelled), n=1)
+            hint = f" (did you mean '{near[0]}'?)" if near else ""
+            problems.append(
+                Problem(
+                    f"{place}!{get_column_letter(c + 1)}{r + 1}",
+                    f"column '{v}' is not one balancer reads{hint}",
+                )
+            )
+    if problems:
+        raise ScheduleError(problems)
+    out = []
+    for rr in range(r + 1, len(rows)):
+        values = rows[rr]
+        cells = {
+            key: _cell_text(values[c]) if c < len(values) else "" for c, key in columns.items()
+        }
+        if not any(cells.values()):
+            continue
+        where = {key: f"{place}!{get_column_letter(c + 1)}{rr + 1}" for c, key in columns.items()}
+        out.append(_IndexRow(cells, where))
+    return out
+
+
+def read_building(path: str | Path) -> Building:
+    """Read a building: a workbook with a ``Building`` index sheet and one sheet per panel, or
+    an index file (``.csv``/``.xlsx``, or a folder holding ``building.xlsx``/``building.csv``)
+    whose ``Schedule`` column names one schedule file per panel, relative to the index.
+
+    Raises
+    ------
+    ScheduleError
+        With every problem in the index and in every panel's schedule, each with its place.
+    """
+    from balancer.io.reader import PanelOverrides, read_schedule, read_workbook_sheets
+
+    path = Path(path)
+    if path.is_dir():
+        found = [path / n for n in INDEX_FILES if (path / n).is_file()]
+        if not found:
+            raise ScheduleError(
+                Problem(str(path), f"the folder holds no {' or '.join(INDEX_FILES)}")
+            )
+        path = found[0]
+    if not path.is_file():
+        raise ScheduleError(Problem(str(path), "no such file"))
+    place, rows = _index_rows(path)
+    entries = _parse_index(place, rows)
+    problems: list[Problem] = []
+    if not entries:
+        raise ScheduleError(Problem(place, "the index lists no panels"), str(path))
+    names = [e.cells["panel"] for e in entries]
+    for e in entries:
+        if not e.cells["panel"]:
+            problems.append(Problem(e.where["panel"], "a row with no panel name"))
+    schedules = [e.cells.get("schedule") or e.cells["panel"] for e in entries]
+    overrides = [PanelOverrides(name=n) for n in names]
+    panels: list[Panel] = []
+    # an .xlsx index whose Schedule entries are not file names holds the panels on its sheets
+    in_workbook = path.suffix.lower() != ".csv" and not any(Path(s).suffix for s in schedules)
+    if in_workbook:
+        try:
+            panels = read_workbook_sheets(path, schedules, overrides)
+        except ScheduleError as exc:
+            problems += exc.problems
+    else:
+        for entry, schedule, given in zip(entries, schedules, overrides, strict=True):
+            try:
+                panels.append(read_schedule(path.parent / schedule, given))
+            except ScheduleError as exc:
+                problems += [
+                    Problem(p.where or entry.where.get("schedule", place), p.what)
+                    for p in exc.problems
+                ]
+    if problems:
+        raise ScheduleError(problems, str(path))
+    systems = {p.name: p.system for p in panels}
+    feeds: list[Feed] = []
+    for entry in entries:
+        source = entry.cells.get("fed_from", "")
+        if not source:
+            continue
+        circuit = entry.cells.get("circuit", "")
+        where = entry.where.get("fed_from", place)
+        if not circuit:
+            problems.append(
+                Problem(
+                    entry.where.get("circuit", where),
+                    f"panel '{entry.cells['panel']}' is fed from '{source}' but no feeder "
+                    "circuit is given",
+                )
+            )
+            continue
+        transformer = None
+        if entry.cells.get("kva") or entry.cells.get("connection"):
+            try:
+                kva = float(entry.cells.get("kva") or "nan")
+            except ValueError:
+                kva = math.nan
+            if source in systems:
+                try:
+                    transformer = make_transformer(
+                        entry.cells.get("transformer", ""),
+                        kva,
+                        systems[source],
+                        systems[entry.cells["panel"]],
+                        entry.cells.get("connection", ""),
+                        entry.where.get("connection", where),
+                    )
+                except ScheduleError as exc:
+                    problems += exc.problems
+                    continue
+        swapped = entry.cells.get("swapped", "").lower() in ("yes", "y", "true", "1", "x")
+        feeds.append(Feed(entry.cells["panel"], source, circuit, transformer, swapped, where))
+    if problems:
+        raise ScheduleError(problems, str(path))
+    return make_building(path.stem, panels, feeds)

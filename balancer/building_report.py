@@ -1,0 +1,424 @@
+"""Building figures for people: tables, terminal text, the figures workbook and the
+``balancer building`` command."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import textwrap
+from collections.abc import Mapping, Sequence
+from pathlib import Path
+
+from balancer.building import (
+    Building,
+    BuildingResult,
+    RollUp,
+    balance_building,
+    demand_roll_up,
+    roll_up,
+)
+from balancer.building_files import read_building
+from balancer.errors import Problem, ScheduleError
+from balancer.result import BalanceOptions, SolveStatus
+from balancer.systems import Line
+
+SAFETY = (
+    "An engineering aid, not a design approval: moving breakers or re-landing feeder conductors "
+    "is work for qualified persons with the equipment de-energised and absence of voltage "
+    "verified with a meter. The adopted code, local amendments and the authority having "
+    "jurisdiction govern."
+)
+
+
+def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
+    return " / ".join(f"{v:,.{digits}f}" for v in values.values())
+
+
+def panel_rows(
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
+) -> list[dict[str, object]]:
+    """One row per panel, service first: figures before and (when balanced) after."""
+    rows: list[dict[str, object]] = []
+    for name in reversed(building.order()):
+        panel = building.panel(name)
+        feed = building.feed_of(name)
+        fig = before.panels[name]
+        row: dict[str, object] = {
+            "panel": name,
+            "system": panel.system.designation,
+            "fed_from": f"{feed.source} ckt {feed.circuit_id}" if feed else "service",
+            "total_va": fig.total_va,
+            "phase_va_before": _lines_text(fig.phase_va),
+            "imbalance_before_pct": fig.imbalance_pct,
+            "spread_before_va": fig.spread_va,
+            "line_a_before": _lines_text(fig.line_a, 1),
+            "neutral_before_a": fig.neutral_a,
+        }
+        if demand is not None:
+            row["demand_va"] = demand[0].panels[name].total_va
+            row["demand_phase_va_before"] = _lines_text(demand[0].panels[name].phase_va)
+            if demand[1] is not None:
+                row["demand_phase_va_after"] = _lines_text(demand[1].panels[name].phase_va)
+        if result is not None:
+            after = result.after_figures.panels[name]
+            outcome = result.outcomes[name]
+            row |= {
+                "phase_va_after": _lines_text(after.phase_va),
+                "imbalance_after_pct": after.imbalance_pct,
+                "spread_after_va": after.spread_va,
+                "line_a_after": _lines_text(after.line_a, 1),
+                "neutral_after_a": after.neutral_a,
+                "status": outcome.status.value,
+                "moves": len(outcome.moves),
+                "moved": ", ".join(outcome.moves),
+                "re_landed": ", ".join(outcome.swapped_feeds),
+            }
+        rows.append(row)
+    return rows
+
+
+def feeder_rows(
+    building: Building, before: RollUp, result: BuildingResult | None = None
+) -> list[dict[str, object]]:
+    """One row per feed: what the subpanel puts on its feeder circuit upstream."""
+    rows: list[dict[str, object]] = []
+    for name in reversed(building.order()):
+        feed = building.feed_of(name)
+        if feed is None:
+            continue
+        fig = before.feeders[name]
+        row: dict[str, object] = {
+            "panel": name,
+            "fed_from": feed.source,
+            "circuit": feed.circuit_id,
+            "transformer": (
+                f"{feed.transformer.name} {feed.transformer.kva:g} kVA "
+                f"{feed.transformer.connection}"
+            )
+            if feed.transformer
+            else "",
+            "lines_before": "-".join(fig.lines),
+            "upstream_va_before": _lines_text({k: fig.phase_va[k] for k in fig.lines}),
+            "upstream_a_before": _lines_text(fig.line_a, 1),
+            "transformer_loading_before_pct": fig.transformer_loading_pct,
+        }
+        if result is not None:
+            after = result.after_figures.feeders[name]
+            row |= {
+                "lines_after": "-".join(after.lines),
+                "upstream_va_after": _lines_text({k: after.phase_va[k] for k in after.lines}),
+                "upstream_a_after": _lines_text(after.line_a, 1),
+                "transformer_loading_after_pct": after.transformer_loading_pct,
+            }
+        rows.append(row)
+    return rows
+
+
+def move_rows(result: BuildingResult) -> list[dict[str, object]]:
+    """One row per breaker that moves and per feeder to re-land, service first."""
+    rows: list[dict[str, object]] = []
+    for name in reversed(result.before.order()):
+        outcome = result.outcomes[name]
+        before = result.before.panel(name)
+        after = result.after.panel(name)
+        for circuit_id in outcome.moves:
+            old, new = before.circuit(circuit_id), after.circuit(circuit_id)
+            rows.append(
+                {
+                    "panel": name,
+                    "circuit": circuit_id,
+                    "description": old.description,
+                    "from_spaces": ", ".join(str(s) for s in old.spaces),
+                    "to_spaces": ", ".join(str(s) for s in new.spaces),
+                    "from_lines": "-".join(before.lines_of(old)),
+                    "to_lines": "-".join(after.lines_of(new)),
+                }
+            )
+        for fed in outcome.swapped_feeds:
+            feed = result.after.feed_of(fed)
+            assert feed is not None
+            rows.append(
+                {
+                    "panel": name,
+                    "circuit": feed.circuit_id,
+                    "description": f"re-land the feeder conductors of {fed}: its line A to the "
+                    + ("second" if feed.swapped else "first")
+                    + " pole",
+                    "from_spaces": "",
+                    "to_spaces": "",
+                    "from_lines": "",
+                    "to_lines": "",
+                }
+            )
+    return rows
+
+
+def summary_lines(
+    building: Building, before: RollUp, result: BuildingResult | None = None
+) -> list[str]:
+    out = []
+    figures = result.after_figures if result else before
+    for service in building.services():
+        fig = figures.panels[service]
+        out.append(
+            f"Service {service}: {fig.total_va / 1000:,.1f} kVA connected over "
+            f"{sum(1 for n in building.order() if _root_of(building, n) == service)} panels; "
+            f"lines {_lines_text(fig.line_a, 1)} A, neutral {fig.neutral_a:.1f} A"
+        )
+    worst_before = max(before.panels.values(), key=lambda f: f.imbalance_pct)
+    out.append(
+        f"Most unbalanced panel as found: {worst_before.name} at {worst_before.imbalance_pct:.1f} %"
+    )
+    if result is not None:
+        worst_after = max(result.after_figures.panels.values(), key=lambda f: f.imbalance_pct)
+        proven = sum(1 for o in result.outcomes.values() if o.status is SolveStatus.OPTIMAL)
+        spread_proven = sum(1 for o in result.outcomes.values() if o.spread_proven)
+        moves = sum(len(o.moves) for o in result.outcomes.values())
+        relands = sum(len(o.swapped_feeds) for o in result.outcomes.values())
+        out.append(
+            f"Most unbalanced panel after balancing: {worst_after.name} at "
+            f"{worst_after.imbalance_pct:.1f} %"
+        )
+        out.append(
+            f"{proven} of {len(result.outcomes)} panels proven best on every goal, "
+            f"{spread_proven} on phase spread within the tolerance; "
+            f"{moves} breaker moves, {relands} feeders re-landed"
+        )
+    for name, feeder in figures.feeders.items():
+        loading = feeder.transformer_loading_pct
+        if loading is not None and loading > 100.0:
+            out.append(
+                f"WARNING: the transformer feeding {name} is loaded to "
+                f"{loading:.0f} % of one winding's rating"
+            )
+    return out
+
+
+def _root_of(building: Building, name: str) -> str:
+    feed = building.feed_of(name)
+    while feed is not None:
+        name = feed.source
+        feed = building.feed_of(name)
+    return name
+
+
+def _table(rows: list[dict[str, object]], columns: Sequence[tuple[str, str]]) -> list[str]:
+    def text(value: object) -> str:
+        if value is None:
+            return "-"
+        if isinstance(value, float):
+            return f"{value:,.1f}"
+        return str(value)
+
+    cells = [[title for _, title in columns]] + [[text(r.get(k)) for k, _ in columns] for r in rows]
+    widths = [max(len(row[i]) for row in cells) for i in range(len(columns))]
+    return [
+        "  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip() for row in cells
+    ]
+
+
+def building_text(
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
+) -> str:
+    """The terminal report: panels, feeders, summary, caution."""
+    basis = "connected basis" + ("; demand per the rule set where shown" if demand else "")
+    lines = [f"Building {building.name}: {len(building.panels)} panels ({basis})", ""]
+    panel_cols = [
+        ("panel", "Panel"),
+        ("system", "System"),
+        ("fed_from", "Fed from"),
+        ("phase_va_before", "VA per line"),
+    ]
+    if result is None:
+        panel_cols += [
+            ("imbalance_before_pct", "Imbalance %"),
+            ("line_a_before", "Amps per line"),
+            ("neutral_before_a", "Neutral A"),
+        ]
+    else:
+        panel_cols += [
+            ("imbalance_before_pct", "Imb. % before"),
+            ("phase_va_after", "VA per line after"),
+            ("imbalance_after_pct", "Imb. % after"),
+            ("line_a_after", "Amps per line after"),
+            ("status", "Status"),
+            ("moves", "Moves"),
+        ]
+    if demand is not None:
+        panel_cols.append(("demand_va", "Demand VA"))
+        panel_cols.append(("demand_phase_va_before", "Demand VA per line"))
+        if demand[1] is not None:
+            panel_cols.append(("demand_phase_va_after", "Demand per line after"))
+    lines += _table(panel_rows(building, before, result, demand), panel_cols)
+    feeds = feeder_rows(building, before, result)
+    if feeds:
+        feeder_cols = [
+            ("panel", "Feeds"),
+            ("fed_from", "From"),
+            ("circuit", "Ckt"),
+            ("transformer", "Transformer"),
+            ("lines_before", "Lines"),
+            ("upstream_a_before", "Amps upstream"),
+            ("transformer_loading_before_pct", "Loading %"),
+        ]
+        if result is not None:
+            feeder_cols += [
+                ("lines_after", "Lines after"),
+                ("upstream_a_after", "Amps after"),
+                ("transformer_loading_after_pct", "Loading % after"),
+            ]
+        lines += ["", *_table(feeds, feeder_cols)]
+    lines += ["", *summary_lines(building, before, result)]
+    if result is not None:
+        for name, outcome in result.outcomes.items():
+            if outcome.swapped_feeds:
+                lines.append(
+                    f"{name}: re-land the feeder conductors of {', '.join(outcome.swapped_feeds)} "
+                    "(line A of the subpanel to the other pole)"
+                )
+            if not outcome.exact or outcome.status is SolveStatus.FEASIBLE:
+                lines += [f"{name}: {n}" for n in outcome.notes if "proven" in n or "exactly" in n]
+    lines += ["", textwrap.fill(SAFETY, 88)]
+    return "\n".join(lines)
+
+
+def write_building_workbook(
+    path: str | Path,
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
+) -> Path:
+    """The figures as a workbook (sheets Panels, Feeders, Moves when balanced, Summary), written
+    atomically."""
+    from io import BytesIO
+
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    from balancer.io.writer import atomic_write_bytes
+
+    book = Workbook()
+    sheets = [
+        ("Panels", panel_rows(building, before, result, demand)),
+        ("Feeders", feeder_rows(building, before, result)),
+    ]
+    if result is not None:
+        sheets.append(("Moves", move_rows(result)))
+    first = True
+    for title, rows in sheets:
+        sheet = book.active if first else book.create_sheet(title)
+        sheet.title = title
+        first = False
+        header = list(rows[0]) if rows else ["panel"]
+        sheet.append(header)
+        for cell in sheet[1]:
+            cell.font = Font(bold=True)
+        for row in rows:
+            sheet.append([row.get(k) for k in header])
+    summary = book.create_sheet("Summary")
+    for line in [*summary_lines(building, before, result), "", SAFETY]:
+        summary.append([line])
+    buffer = BytesIO()
+    book.save(buffer)
+    return atomic_write_bytes(Path(path), buffer.getvalue())
+
+
+# ---------------------------------------------------------------- command line
+
+
+def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    """The ``building`` subcommand's arguments."""
+    parser = commands.add_parser(
+        "building",
+        help="roll up and balance a whole building: panels feeding panels",
+        description="Read a building (a workbook with a 'Building' sheet and one sheet per "
+        "panel, or a building.xlsx/building.csv index naming one schedule file per panel), roll "
+        "every subpanel's per-line loads up to its feeder circuit, and with --balance balance "
+        "every panel, subpanels first. The inputs are never changed.",
+    )
+    parser.add_argument("index", type=Path, help="the building workbook, index file or folder")
+    parser.add_argument(
+        "--balance", action="store_true", help="balance every panel (default: figures only)"
+    )
+    parser.add_argument(
+        "-o", "--output", type=Path, help="also write the figures to this workbook (.xlsx)"
+    )
+    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
+    parser.add_argument(
+        "--engine", choices=("highs", "cbc"), default="highs", help="MILP engine (default: highs)"
+    )
+    parser.add_argument(
+        "--time-limit", type=float, default=60.0, metavar="S", help="per panel (default 60)"
+    )
+    parser.add_argument(
+        "--tolerance", type=float, default=1.0, metavar="VA", help="spread tolerance (default 1)"
+    )
+    parser.add_argument(
+        "--demand",
+        action="store_true",
+        help="also roll up code demand loads (each feeder over all the loads it serves)",
+    )
+    parser.add_argument("--rules", help="demand rule set: nec2023, nec2020, connected, or a file")
+    parser.add_argument(
+        "--occupancy", default="other", help="dwelling, hotel, warehouse or other (default: other)"
+    )
+    parser.add_argument(
+        "--jobs",
+        type=int,
+        default=os.cpu_count() or 1,
+        metavar="N",
+        help="panels balanced at once (default: one per core)",
+    )
+
+
+def run_command(args: argparse.Namespace) -> int:
+    """``balancer building``: returns the exit status (0 done; errors raise)."""
+    if args.time_limit <= 0:
+        raise ScheduleError(Problem("--time-limit", "must be more than 0 seconds"))
+    building = read_building(args.index)
+    if args.output is not None:
+        sources = {Path(p.source).resolve() for p in building.panels if p.source}
+        sources.add(Path(args.index).resolve())
+        if args.output.resolve() in sources:
+            raise ScheduleError(
+                Problem("--output", f"{args.output} is an input; balancer never writes its input")
+            )
+    before = roll_up(building)
+    result = None
+    if args.balance:
+        options = BalanceOptions(
+            engine=args.engine, time_limit_s=args.time_limit, tolerance_va=args.tolerance
+        )
+        result = balance_building(building, options, jobs=max(1, args.jobs))
+    demand = None
+    if args.demand:
+        from balancer.demand import DemandOptions, check_choices
+
+        check_choices(args.rules, args.occupancy)
+        choices = DemandOptions(rules=args.rules, occupancy=args.occupancy)
+        after = demand_roll_up(result.after, choices) if result else None
+        demand = (demand_roll_up(building, choices), after)
+    if args.json:
+        data = {
+            "building": building.name,
+            "panels": panel_rows(building, before, result, demand),
+            "feeders": feeder_rows(building, before, result),
+            "summary": summary_lines(building, before, result),
+            "caution": SAFETY,
+        }
+        print(json.dumps(data, indent=2, ensure_ascii=False))
+    else:
+        print(building_text(building, before, result, demand))
+    if args.output is not None:
+        written = write_building_workbook(args.output, building, before, result, demand)
+        if not args.json:
+            print(f"\nFigures written to {written}")
+    return 0
