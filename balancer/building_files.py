@@ -12,8 +12,10 @@ import csv
 import difflib
 import math
 import zipfile
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
@@ -23,6 +25,9 @@ from balancer.building import Building, Feed, make_building
 from balancer.errors import Problem, ScheduleError
 from balancer.panel import Panel
 from balancer.transformer import make_transformer
+
+if TYPE_CHECKING:
+    from openpyxl import Workbook
 
 INDEX_SHEET = "Building"
 INDEX_FILES = ("building.xlsx", "building.csv")
@@ -207,3 +212,103 @@ def read_building(path: str | Path) -> Building:
     if problems:
         raise ScheduleError(problems, str(path))
     return make_building(path.stem, panels, feeds)
+
+
+# ---------------------------------------------------------------- writing a building
+
+_SHEET_FORBIDDEN = set("[]:*?/\\.")  # Excel's forbidden characters, and '.' (read as a suffix)
+
+
+def panel_sheet_names(building: Building, taken: Iterable[str] = ()) -> dict[str, str]:
+    """A sheet name for every panel: its own name where Excel allows it and no other sheet of
+    the workbook (``taken``, compared ignoring case) has it, else an adjusted one."""
+    used = {t.lower() for t in taken} | {INDEX_SHEET.lower()}
+    out: dict[str, str] = {}
+    for panel in building.panels:
+        base = "".join("-" if ch in _SHEET_FORBIDDEN else ch for ch in panel.name).strip("'")
+        base = base[:31] or "panel"
+        name, n = base, 1
+        while name.lower() in used:
+            n += 1
+            suffix = f" ({n})"
+            name = base[: 31 - len(suffix)] + suffix
+        used.add(name.lower())
+        out[panel.name] = name
+    return out
+
+
+def _index_rows_of(building: Building, sheets: Mapping[str, str]) -> list[list[object]]:
+    header: list[object] = ["Panel", "Schedule", "Fed from", "Feeder circuit", "Transformer", "kVA"]
+    header += ["Connection", "Lines swapped"]
+    rows: list[list[object]] = [header]
+    for panel in building.panels:
+        feed = building.feed_of(panel.name)
+        if feed is None:
+            rows.append([panel.name, sheets[panel.name], None, None, None, None, None, None])
+            continue
+        feeder = building.feeder_circuit(feed)
+        t = feed.transformer
+        rows.append(
+            [
+                panel.name,
+                sheets[panel.name],
+                feed.source,
+                feeder.first_space if feeder.placed else feeder.id,
+                (t.name or None) if t else None,
+                t.kva if t else None,
+                t.connection if t else None,
+                "yes" if feed.swapped else None,
+            ]
+        )
+    return rows
+
+
+def write_building_sheets(
+    book: Workbook,
+    building: Building,
+    title: str,
+    shaded: Mapping[str, frozenset[str]] | None = None,
+) -> dict[str, str]:
+    """Add to ``book`` a ``Building`` index sheet and one schedule sheet per panel, in the form
+    :func:`read_building` reads, so the workbook can be read again as a building.
+
+    Each panel sheet holds the panel's attributes in title rows and its circuits in space
+    order; the circuits of ``shaded[panel]`` (ids) are filled. Returns panel → sheet name.
+    """
+    from openpyxl.styles import Font
+
+    from balancer.io.writer import panel_title_rows, print_setup, write_circuit_table
+
+    sheets = panel_sheet_names(building, book.sheetnames)
+    index = book.create_sheet(INDEX_SHEET)
+    index.append([title])
+    index["A1"].font = Font(bold=True, size=12)
+    index.append(["Each panel's schedule is on the sheet named in the Schedule column."])
+    for row in _index_rows_of(building, sheets):
+        index.append(row)
+    for cell in index[3]:
+        cell.font = Font(bold=True)
+    for col, width in zip("ABCDEFGH", (14, 16, 12, 14, 14, 8, 14, 13), strict=True):
+        index.column_dimensions[col].width = width
+    print_setup(index, landscape=False, title_rows=None)
+    shaded = shaded or {}
+    for panel in building.panels:
+        ws = book.create_sheet(sheets[panel.name])
+        facts = panel_title_rows(panel)
+        for label, value in facts:
+            ws.append([label, value])
+            ws.cell(row=ws.max_row, column=1).font = Font(bold=True)
+        feed = building.feed_of(panel.name)
+        if feed is not None:
+            feeder = building.feeder_circuit(feed)
+            ws.append([f"Fed from {feed.source}, circuit {feeder.first_space or feeder.id}"])
+        marked = shaded.get(panel.name, frozenset())
+        if marked:
+            ws.append(["Shaded rows: breakers that move (see the Work order sheet)."])
+        ordered = sorted(panel.circuits, key=lambda c: (not c.placed, c.first_space or 0, c.id))
+        table_panel = panel.with_circuits(ordered)
+        header_row = ws.max_row + 2
+        write_circuit_table(ws, table_panel, header_row, marked)
+        ws.freeze_panes = ws.cell(row=header_row + 1, column=3)
+        print_setup(ws, landscape=True, title_rows=f"{header_row}:{header_row}")
+    return sheets

@@ -289,6 +289,95 @@ def building_text(
     return "\n".join(lines)
 
 
+# Column titles of the figures workbook; any key not listed is shown with spaces for "_".
+SHEET_TITLES: dict[str, str] = {
+    "panel": "Panel",
+    "system": "System",
+    "fed_from": "Fed from",
+    "total_va": "Total VA",
+    "phase_va_before": "VA per line before",
+    "phase_va_after": "VA per line after",
+    "spread_before_va": "Spread VA before",
+    "spread_after_va": "Spread VA after",
+    "imbalance_before_pct": "Imbalance % before",
+    "imbalance_after_pct": "Imbalance % after",
+    "line_a_before": "Amps per line before",
+    "line_a_after": "Amps per line after",
+    "neutral_before_a": "Neutral A before",
+    "neutral_after_a": "Neutral A after",
+    "status": "Status",
+    "moves": "Moves",
+    "moved": "Moved",
+    "re_landed": "Re-landed",
+    "circuit": "Circuit",
+    "description": "Description",
+    "transformer": "Transformer",
+    "lines_before": "Lines before",
+    "lines_after": "Lines after",
+    "upstream_va_before": "VA upstream before",
+    "upstream_va_after": "VA upstream after",
+    "upstream_a_before": "Amps upstream before",
+    "upstream_a_after": "Amps upstream after",
+    "transformer_loading_before_pct": "Transformer loading % before",
+    "transformer_loading_after_pct": "Transformer loading % after",
+    "from_spaces": "From spaces",
+    "to_spaces": "To spaces",
+    "from_lines": "From lines",
+    "to_lines": "To lines",
+}
+
+
+def work_order_rows(result: BuildingResult) -> list[list[object]]:
+    """The field steps of every panel that changes, service first: the cautions, then per panel
+    its breaker steps (one free space at a time), the feeder conductors to re-land and the
+    currents to expect afterwards (fundamental, with everything the panel feeds)."""
+    from balancer.workorder import CAUTIONS, STEP_HEADER, step_rows, work_order
+
+    rows: list[list[object]] = [[f"Work order — building {result.before.name}"], []]
+    rows += [["Caution", c] for c in CAUTIONS]
+    changed = [
+        name
+        for name in reversed(result.before.order())
+        if result.outcomes[name].moves or result.outcomes[name].swapped_feeds
+    ]
+    if not changed:
+        return [*rows, [], ["No breaker moves and no feeder is re-landed."]]
+    for name in changed:
+        outcome = result.outcomes[name]
+        order = work_order(result.before.panel(name), result.after.panel(name))
+        rows += [[], [f"Panel {name}"], list(STEP_HEADER), *step_rows(order)]
+        step = len(order.steps)
+        for fed in outcome.swapped_feeds:
+            feed = result.after.feed_of(fed)
+            assert feed is not None
+            step += 1
+            circuit = result.after.panel(name).circuit(feed.circuit_id)
+            spaces = ", ".join(str(s) for s in circuit.spaces)
+            lines = "-".join(result.after.panel(name).lines_of(circuit))
+            rows.append(
+                [
+                    step,
+                    "re-land",
+                    feed.circuit_id,
+                    f"feeder to {fed}: exchange its two line conductors on the breaker",
+                    spaces,
+                    lines,
+                    spaces,
+                    lines,
+                    f"{fed} line A then lands on the "
+                    + ("second" if feed.swapped else "first")
+                    + " pole; mark both ends",
+                    "",
+                ]
+            )
+        figures = result.after_figures.panels[name]
+        rows.append(["Expected after the work", "A, fundamental, with all it feeds"])
+        rows += [[f"Line {k}", round(a, 1)] for k, a in figures.line_a.items()]
+        if result.after.panel(name).system.neutral:
+            rows.append(["Neutral", round(figures.neutral_a, 1)])
+    return rows
+
+
 def write_building_workbook(
     path: str | Path,
     building: Building,
@@ -296,39 +385,108 @@ def write_building_workbook(
     result: BuildingResult | None = None,
     demand: tuple[RollUp, RollUp | None] | None = None,
 ) -> Path:
-    """The figures as a workbook (sheets Panels, Feeders, Moves when balanced, Summary), written
-    atomically."""
+    """The figures as a workbook, written atomically: Summary, Panels, Feeders and, when
+    balanced, Moves, a Work order and the revised building itself (a ``Building`` index sheet
+    and one schedule sheet per panel, breakers that move shaded), which ``balancer building``
+    reads again."""
     from io import BytesIO
 
     from openpyxl import Workbook
-    from openpyxl.styles import Font
+    from openpyxl.styles import Alignment, Font
 
-    from balancer.io.writer import atomic_write_bytes
+    from balancer.building_files import write_building_sheets
+    from balancer.io.writer import atomic_write_bytes, print_setup, write_rows_sheet
 
     book = Workbook()
-    sheets = [
+    summary = book.active
+    assert summary is not None
+    summary.title = "Summary"
+    summary.append([f"Building {building.name}"])
+    summary["A1"].font = Font(bold=True, size=14)
+    for line in ["", *summary_lines(building, before, result), "", SAFETY]:
+        summary.append([line])
+    if result is not None:
+        summary.append([])
+        summary.append(
+            [
+                "The revised building is in this workbook: the Building sheet and one sheet per "
+                "panel. `balancer building` reads it again."
+            ]
+        )
+    summary.column_dimensions["A"].width = 84
+    for (cell,) in summary.iter_rows(min_row=2, max_col=1):
+        cell.alignment = Alignment(wrap_text=True, vertical="top")
+        # the row height is not worked out when the file is opened: give wrapped text room
+        lines = -(-len(str(cell.value or "")) // 80)
+        if lines > 1:
+            summary.row_dimensions[cell.row].height = 15 * lines + 2
+    print_setup(summary, landscape=False, title_rows=None)
+    tables = [
         ("Panels", panel_rows(building, before, result, demand)),
         ("Feeders", feeder_rows(building, before, result)),
     ]
     if result is not None:
-        sheets.append(("Moves", move_rows(result)))
-    first = True
-    for title, rows in sheets:
-        sheet = book.active if first else book.create_sheet(title)
-        sheet.title = title
-        first = False
-        header = list(rows[0]) if rows else ["panel"]
-        sheet.append(header)
+        tables.append(("Moves", move_rows(result)))
+    for title, rows in tables:
+        sheet = book.create_sheet(title)
+        keys = list(rows[0]) if rows else ["panel"]
+        sheet.append([SHEET_TITLES.get(k, k.replace("_", " ")) for k in keys])
         for cell in sheet[1]:
             cell.font = Font(bold=True)
         for row in rows:
-            sheet.append([row.get(k) for k in header])
-    summary = book.create_sheet("Summary")
-    for line in [*summary_lines(building, before, result), "", SAFETY]:
-        summary.append([line])
+            sheet.append([row.get(k) for k in keys])
+        for col, key in enumerate(keys, start=1):
+            fmt = _number_format(key)
+            if fmt:
+                for (cell,) in sheet.iter_rows(min_row=2, min_col=col, max_col=col):
+                    cell.number_format = fmt
+        for col, key in enumerate(keys, start=1):
+            header = sheet.cell(row=1, column=col)
+            header.alignment = Alignment(wrap_text=True, vertical="top")
+            longest = max([len(_shown(r.get(key))) for r in rows] + [9])
+            words = max(len(w) for w in str(header.value).split())
+            width = min(36, max(words, longest) + 2)
+            sheet.column_dimensions[header.column_letter].width = width
+        sheet.row_dimensions[1].height = 30  # room for a header on two lines
+        sheet.freeze_panes = "B2"
+        print_setup(sheet, landscape=True, title_rows="1:1")
+    if result is not None:
+        write_rows_sheet(book.create_sheet(), "Work order", work_order_rows(result))
+        shaded = {
+            name: frozenset(o.moves) | _feeder_ids(result, name)
+            for name, o in result.outcomes.items()
+        }
+        write_building_sheets(book, result.after, f"{building.name}, revised", shaded)
     buffer = BytesIO()
     book.save(buffer)
     return atomic_write_bytes(Path(path), buffer.getvalue())
+
+
+def _shown(value: object) -> str:
+    """About what a cell shows, for its column width."""
+    if value is None:
+        return ""
+    return f"{value:,.1f}" if isinstance(value, float) else str(value)
+
+
+def _number_format(key: str) -> str | None:
+    """Cell format by the unit a key ends in: one decimal for % and A, whole VA."""
+    if key.endswith("_pct") or key.endswith("_a"):
+        return "0.0"
+    if key.endswith("_va"):
+        return "#,##0"
+    return None
+
+
+def _feeder_ids(result: BuildingResult, name: str) -> frozenset[str]:
+    """Feeder breakers of ``name`` whose conductors are re-landed."""
+    outcome = result.outcomes[name]
+    ids = set()
+    for fed in outcome.swapped_feeds:
+        feed = result.after.feed_of(fed)
+        if feed is not None:
+            ids.add(feed.circuit_id)
+    return frozenset(ids)
 
 
 # ---------------------------------------------------------------- command line
@@ -420,5 +578,6 @@ def run_command(args: argparse.Namespace) -> int:
     if args.output is not None:
         written = write_building_workbook(args.output, building, before, result, demand)
         if not args.json:
-            print(f"\nFigures written to {written}")
+            what = "Figures, work order and revised schedules" if result else "Figures"
+            print(f"\n{what} written to {written}")
     return 0

@@ -280,7 +280,18 @@ def work_order_rows(order: WorkOrder) -> list[list[Any]]:
     expected figures. Spaces and lines are text ("3, 5"; "B-C"); blank for "not in the panel"."""
     rows: list[list[Any]] = [[f"Work order — panel {order.panel_name}"], []]
     rows += [["Caution", c] for c in order.cautions]
-    rows += [[], list(STEP_HEADER)]
+    rows += [[], list(STEP_HEADER), *step_rows(order), []]
+    if order.temporary_space_needed:
+        rows.append(["Note", "A temporary space is needed (see the set-aside steps)."])
+    rows.append(["Expected after the work", "Current (A, true RMS)"])
+    rows += [[f"Line {line}", round(a, 1)] for line, a in order.expected_line_a.items()]
+    rows.append(["Neutral", round(order.expected_neutral_a, 1)])
+    return rows
+
+
+def step_rows(order: WorkOrder) -> list[list[Any]]:
+    """One row per breaker of every step, in the columns of ``STEP_HEADER``."""
+    rows: list[list[Any]] = []
     for step in order.steps:
         for item in step.items:
             notes = "; ".join(x for x in (item.notes, step.remark) if x)
@@ -298,12 +309,6 @@ def work_order_rows(order: WorkOrder) -> list[list[Any]]:
                     "",
                 ]
             )
-    rows.append([])
-    if order.temporary_space_needed:
-        rows.append(["Note", "A temporary space is needed (see the set-aside steps)."])
-    rows.append(["Expected after the work", "Current (A, true RMS)"])
-    rows += [[f"Line {line}", round(a, 1)] for line, a in order.expected_line_a.items()]
-    rows.append(["Neutral", round(order.expected_neutral_a, 1)])
     return rows
 
 

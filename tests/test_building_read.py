@@ -135,9 +135,10 @@ def test_building_command_balances_and_writes_figures(
     assert "qualified persons" in text
     assert book.read_bytes() == before  # the input is never written
     sheets = load_workbook(out).sheetnames
-    assert sheets == ["Panels", "Feeders", "Moves", "Summary"]
+    figures = ["Summary", "Panels", "Feeders", "Moves", "Work order", "Building"]
+    assert sheets == [*figures, "MDP", "H1", "L1", "L2", "K1"]
     moves = list(load_workbook(out)["Moves"].iter_rows(values_only=True))
-    assert moves[0][:3] == ("panel", "circuit", "description")
+    assert moves[0][:3] == ("Panel", "Circuit", "Description")
     assert len(moves) > 1  # the demo panels start unbalanced, so some breakers move
 
 

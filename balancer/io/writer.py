@@ -195,7 +195,7 @@ def _section(ws: Worksheet, row: int, text: str) -> None:
     ws.cell(row=row, column=1, value=text).font = _SECTION_FONT
 
 
-def _print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> None:
+def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> None:
     ws.page_setup.orientation = "landscape" if landscape else "portrait"
     ws.page_setup.fitToWidth = 1
     ws.page_setup.fitToHeight = 0
@@ -239,6 +239,22 @@ def _panel_facts(panel: Panel) -> list[tuple[str, Any, str | None]]:
     ]
 
 
+def panel_title_rows(panel: Panel) -> list[tuple[str, Any]]:
+    """(label, value) rows above a schedule's header that the reader takes the panel's
+    attributes from; bus and main only when known."""
+    rows: list[tuple[str, Any]] = [
+        ("Panel", panel.name),
+        ("System", panel.system.designation),
+        ("Spaces", panel.spaces),
+    ]
+    if panel.bus_a is not None:
+        rows.append(("Bus", panel.bus_a))
+    main = _main_text(panel)
+    if main is not None:
+        rows.append(("Main", main))
+    return rows
+
+
 def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
     """Key/value rows the reader takes the panel's attributes from."""
     ws.title = PANEL_SHEET
@@ -254,7 +270,7 @@ def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
         _put(ws, row, 1, label)
         _put(ws, row, 2, value, fmt)
     _widths(ws, [14, 24])
-    _print_setup(ws, landscape=False, title_rows=None)
+    print_setup(ws, landscape=False, title_rows=None)
 
 
 # --- sheets -----------------------------------------------------------------------------------
@@ -356,7 +372,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         row += 1
         _long_text(ws, row, 1, note, last_col=6, chars_per_line=95)
     _widths(ws, [36, 16, 16, 13, 14, 14])
-    _print_setup(ws, landscape=False, title_rows=None)
+    print_setup(ws, landscape=False, title_rows=None)
     return table
 
 
@@ -447,7 +463,7 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
         _put(ws, row, 4, result.after.neutral_amps, AMPS)
     _widths(ws, [8, 30, 10, 7, 6, 7, 6, 7, 6, 7, 10, 30, 8])
     ws.freeze_panes = "A4"
-    _print_setup(ws, landscape=True, title_rows="1:3")
+    print_setup(ws, landscape=True, title_rows="1:3")
 
 
 def _changes(ws: Worksheet, result: BalanceResult) -> None:
@@ -492,11 +508,21 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
     ws.auto_filter.ref = f"A2:I{row}"
     _widths(ws, [9, 32, 6, 10, 11, 9, 11, 9, 8])
     ws.freeze_panes = "A3"
-    _print_setup(ws, landscape=True, title_rows="2:2")
+    print_setup(ws, landscape=True, title_rows="2:2")
 
 
 def _circuits(ws: Worksheet, panel: Panel) -> None:
     ws.title = CIRCUITS_SHEET
+    write_circuit_table(ws, panel, 1)
+    ws.freeze_panes = "C2"
+    print_setup(ws, landscape=True, title_rows="1:1")
+
+
+def write_circuit_table(
+    ws: Worksheet, panel: Panel, header_row: int, shaded: frozenset[str] = frozenset()
+) -> int:
+    """The panel's circuits as a list the reader takes back: a header at ``header_row``, one
+    row per circuit in the panel's order, the ids in ``shaded`` filled. Returns the last row."""
     columns = [
         column
         for i, column in enumerate(_circuit_columns())
@@ -510,17 +536,20 @@ def _circuits(ws: Worksheet, panel: Panel) -> None:
         for header, _ in circuit.extra:
             if header not in extra_headers:
                 extra_headers.append(header)
-    _header(ws, 1, [name for name, _, _ in columns] + extra_headers)
-    for row, circuit in enumerate(panel.circuits, start=2):
+    _header(ws, header_row, [name for name, _, _ in columns] + extra_headers)
+    row = header_row
+    for row, circuit in enumerate(panel.circuits, start=header_row + 1):
         for col, (_, get, fmt) in enumerate(columns, start=1):
             _put(ws, row, col, get(circuit), fmt)
         extra = dict(circuit.extra)
         for col, header in enumerate(extra_headers, start=len(columns) + 1):
             _put(ws, row, col, extra.get(header))
+        if circuit.id in shaded:
+            for col in range(1, len(columns) + len(extra_headers) + 1):
+                ws.cell(row=row, column=col).fill = _MOVED_FILL
     width = {"Description": 32, "Notes": 24}
     _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
-    ws.freeze_panes = "C2"
-    _print_setup(ws, landscape=True, title_rows="1:1")
+    return row
 
 
 def _tradeoff(ws: Worksheet, result: BalanceResult) -> None:
@@ -543,7 +572,7 @@ def _tradeoff(ws: Worksheet, result: BalanceResult) -> None:
         ws, header_row=2, first_row=3, last_row=row, moves_col=1, imbalance_col=3
     )
     ws.add_chart(chart, "G2")
-    _print_setup(ws, landscape=True, title_rows="2:2")
+    print_setup(ws, landscape=True, title_rows="2:2")
 
 
 def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | None] | None) -> None:
@@ -576,7 +605,7 @@ def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | No
     )
     image = Image(io.BytesIO(phasor_figure_bytes(fig, "png", dpi=90)))
     ws.add_image(image, f"A{row + 3}")
-    _print_setup(ws, landscape=True, title_rows=None)
+    print_setup(ws, landscape=True, title_rows=None)
 
 
 def _notes(ws: Worksheet) -> None:
@@ -600,7 +629,7 @@ def _notes(ws: Worksheet) -> None:
         cell.alignment = _WRAP
         ws.row_dimensions[row].height = 15 * math.ceil(len(text) / 70) + 3
     ws.column_dimensions["A"].width = 80
-    _print_setup(ws, landscape=False, title_rows=None)
+    print_setup(ws, landscape=False, title_rows=None)
     ws.print_options.horizontalCentered = False
 
 
@@ -625,7 +654,7 @@ LONG_TEXT_CHARS = 40
 COLUMN_CHARS_MAX = 40
 
 
-def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
+def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
     ws.title = title[:31]
     span = max([len(v) for v in rows if row_role(v) == "header"] + [4])
     widths: list[float] = [10.0] * span
@@ -666,7 +695,7 @@ def _extra(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
                 widths.append(10.0)
             widths[c - 1] = max(widths[c - 1], min(COLUMN_CHARS_MAX, len(str(value)) + 2))
     _widths(ws, widths)
-    _print_setup(ws, landscape=True, title_rows=None)
+    print_setup(ws, landscape=True, title_rows=None)
 
 
 HARMONIC_MARGIN_A = 0.05  # below this the RMS and fundamental neutral currents count as equal
@@ -766,7 +795,7 @@ def write_workbook(
         if name in taken:
             raise ValueError(f"extra sheet {title!r} would repeat a sheet name")
         taken.add(name)
-        _extra(wb.create_sheet(), name, rows)
+        write_rows_sheet(wb.create_sheet(), name, rows)
     _notes(wb.create_sheet())
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
