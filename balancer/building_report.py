@@ -437,9 +437,13 @@ def write_building_workbook(
             sheet.append([row.get(k) for k in keys])
         for col, key in enumerate(keys, start=1):
             fmt = _number_format(key)
-            if fmt:
-                for (cell,) in sheet.iter_rows(min_row=2, min_col=col, max_col=col):
+            for (cell,) in sheet.iter_rows(min_row=2, min_col=col, max_col=col):
+                if fmt:
                     cell.number_format = fmt
+                # figures (numbers, and "a / b / c" per line) to the right with a gap before
+                # the next column, words to the left
+                figures = not isinstance(cell.value, str) or " / " in cell.value
+                cell.alignment = Alignment(horizontal="right" if figures else "left", indent=1)
         for col, key in enumerate(keys, start=1):
             header = sheet.cell(row=1, column=col)
             header.alignment = Alignment(wrap_text=True, vertical="top")
@@ -572,6 +576,8 @@ def run_command(args: argparse.Namespace) -> int:
             "summary": summary_lines(building, before, result),
             "caution": SAFETY,
         }
+        if result is not None:
+            data["moves"] = move_rows(result)
         print(json.dumps(data, indent=2, ensure_ascii=False))
     else:
         print(building_text(building, before, result, demand))
