@@ -7,7 +7,6 @@ Panels here are invented test data built in code or the bundled demo building.
 from __future__ import annotations
 
 import json
-import shutil
 from dataclasses import replace
 from pathlib import Path
 
@@ -222,18 +221,11 @@ def test_swapped_feeder_is_a_re_land_step() -> None:
     assert swaps[0][4] == "1, 3"
 
 
-def test_building_command_output_reads_back_and_input_is_untouched(
+def test_building_command_output_reads_back_with_the_figures_after(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    book = tmp_path / "demo.xlsx"
-    shutil.copy(DEMO_BOOK, book)
-    before = book.read_bytes()
-    out = tmp_path / "out.xlsx"
-    assert main(["building", str(book), "--balance", "-o", str(out), "--time-limit", "20"]) == 0
-    assert "revised schedules written to" in capsys.readouterr().out
-    assert book.read_bytes() == before
     again_path = tmp_path / "again.xlsx"
-    args = ["building", str(book), "--balance", "--json", "-o", str(again_path)]
+    args = ["building", str(DEMO_BOOK), "--balance", "--json", "-o", str(again_path)]
     assert main([*args, "--time-limit", "20"]) == 0
     balanced = json.loads(capsys.readouterr().out)
     assert balanced["moves"]

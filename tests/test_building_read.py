@@ -133,6 +133,7 @@ def test_building_command_balances_and_writes_figures(
     assert "Service MDP" in text
     assert "panels proven best on every goal" in text
     assert "qualified persons" in text
+    assert "revised schedules written to" in text
     assert book.read_bytes() == before  # the input is never written
     sheets = load_workbook(out).sheetnames
     figures = ["Summary", "Panels", "Feeders", "Moves", "Work order", "Building"]
