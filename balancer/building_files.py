@@ -119,6 +119,27 @@ def _parse_index(place: str, rows: list[list[object]]) -> list[_IndexRow]:
     return out
 
 
+def index_file(path: str | Path) -> Path:
+    """The building's index: ``path`` itself, or the index file in the folder ``path``.
+
+    Raises
+    ------
+    ScheduleError
+        When there is no such file, or the folder holds no index file.
+    """
+    path = Path(path)
+    if path.is_dir():
+        found = [path / n for n in INDEX_FILES if (path / n).is_file()]
+        if not found:
+            raise ScheduleError(
+                Problem(str(path), f"the folder holds no {' or '.join(INDEX_FILES)}")
+            )
+        path = found[0]
+    if not path.is_file():
+        raise ScheduleError(Problem(str(path), "no such file"))
+    return path
+
+
 def read_building(path: str | Path) -> Building:
     """Read a building: a workbook with a ``Building`` index sheet and one sheet per panel, or
     an index file (``.csv``/``.xlsx``, or a folder holding ``building.xlsx``/``building.csv``)
@@ -131,16 +152,7 @@ def read_building(path: str | Path) -> Building:
     """
     from balancer.io.reader import PanelOverrides, read_schedule, read_workbook_sheets
 
-    path = Path(path)
-    if path.is_dir():
-        found = [path / n for n in INDEX_FILES if (path / n).is_file()]
-        if not found:
-            raise ScheduleError(
-                Problem(str(path), f"the folder holds no {' or '.join(INDEX_FILES)}")
-            )
-        path = found[0]
-    if not path.is_file():
-        raise ScheduleError(Problem(str(path), "no such file"))
+    path = index_file(path)
     place, rows = _index_rows(path)
     entries = _parse_index(place, rows)
     problems: list[Problem] = []

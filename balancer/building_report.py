@@ -18,7 +18,7 @@ from balancer.building import (
     demand_roll_up,
     roll_up,
 )
-from balancer.building_files import read_building
+from balancer.building_files import index_file, read_building
 from balancer.errors import Problem, ScheduleError
 from balancer.result import BalanceOptions, SolveStatus
 from balancer.systems import Line
@@ -511,7 +511,11 @@ def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -
         "--balance", action="store_true", help="balance every panel (default: figures only)"
     )
     parser.add_argument(
-        "-o", "--output", type=Path, help="also write the figures to this workbook (.xlsx)"
+        "-o",
+        "--output",
+        type=Path,
+        help="workbook to write (.xlsx): the figures, and with --balance the moves, work order "
+        "and revised building (default with --balance: <index>-balanced.xlsx beside the index)",
     )
     parser.add_argument("--json", action="store_true", help="print one JSON object instead")
     parser.add_argument(
@@ -546,6 +550,9 @@ def run_command(args: argparse.Namespace) -> int:
     if args.time_limit <= 0:
         raise ScheduleError(Problem("--time-limit", "must be more than 0 seconds"))
     building = read_building(args.index)
+    if args.output is None and args.balance:
+        index = index_file(args.index)
+        args.output = index.with_name(f"{index.stem}-balanced.xlsx")
     if args.output is not None:
         sources = {Path(p.source).resolve() for p in building.panels if p.source}
         sources.add(Path(args.index).resolve())

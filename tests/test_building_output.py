@@ -235,3 +235,16 @@ def test_building_command_output_reads_back_with_the_figures_after(
     assert "moves" not in again  # figures only: nothing was balanced
     after = {p["panel"]: p["phase_va_after"] for p in balanced["panels"]}
     assert {p["panel"]: p["phase_va_before"] for p in again["panels"]} == after
+
+
+def test_building_balance_writes_beside_the_index_by_default(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    book = tmp_path / "site.xlsx"
+    book.write_bytes(DEMO_BOOK.read_bytes())
+    assert main(["building", str(book), "--time-limit", "20"]) == 0  # figures only: no file
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["site.xlsx"]
+    assert main(["building", str(book), "--balance", "--time-limit", "20"]) == 0
+    written = tmp_path / "site-balanced.xlsx"
+    assert f"written to {written}" in capsys.readouterr().out
+    assert read_building(written).panel("MDP").spaces == 42
