@@ -26,6 +26,7 @@ from balancer.optimize.heuristics import (
     local_search_lines,
     pattern_spread_va,
     present_lines,
+    split_search_lines,
 )
 from balancer.optimize.model import (
     POLYGON_ERROR,
@@ -53,6 +54,8 @@ PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
 LOCAL_SEARCH_S = 0.1  # improving the seed by single and paired changes: at most this, ...
 LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
 FRESH_SEARCH_S = 0.05  # the same search on a fresh layout
+SPLIT_SEARCH_S = 1.0  # then re-deciding many units at once when that missed: at most this, ...
+SPLIT_SEARCH_SHARE = 0.1  # ... and at most this share of the time limit
 UNDO_S = 1.5  # undoing needless changes from the schedule as it stands: at most this, ...
 TIEBREAK_MIN_S = 0.3  # time for each tie-breaking current goal: at least this, ...
 TIEBREAK_SHARE = 0.005  # ... or this share of the time limit
@@ -373,6 +376,23 @@ def _first_goal_on_lines(
             spent = time.perf_counter() - began
             stage = StageResult("spread", value, floor, True, tuple(seed), spent, "bound")
             return _fewer_changes(layout, options, stage), model, goals
+        if not reached and options.max_moves is None and target is None:
+            split = split_search_lines(
+                layout,
+                seeds[spreads.index(min(spreads))],
+                goal_va,
+                min(SPLIT_SEARCH_S, SPLIT_SEARCH_SHARE * options.time_limit_s),
+            )
+            seed = split.picks  # the solver's start (and incumbent) when this proves nothing
+            value = pattern_spread_va(layout, seed)
+            if value <= goal_va or split.exhaustive:
+                # Proven by the combinatorial bound, or by having tried every line assignment
+                # of the relaxation (whose least spread bounds every arrangement).
+                bound = floor if value <= goal_va else max(floor, min(value, split.spread_va))
+                how = "bound" if value <= goal_va else "every line assignment tried"
+                spent = time.perf_counter() - began
+                stage = StageResult("spread", value, bound, True, tuple(seed), spent, how)
+                return _fewer_changes(layout, options, stage), model, goals
     stage = solve_goal(
         model,
         goals[0],
@@ -383,6 +403,11 @@ def _first_goal_on_lines(
     )
     if goals[0] == "spread":
         stage = replace(stage, bound=max(stage.bound, floor))
+        legal = options.max_moves is None and target is None
+        if legal and seed is not None and pattern_spread_va(layout, seed) < stage.value - 1e-9:
+            # the engine may drop its start (see solve_goal): keep the better seed, which
+            # meets every rule of the line model when no move budget or target applies
+            stage = replace(stage, picks=tuple(seed), value=pattern_spread_va(layout, seed))
         if options.max_moves is None:
             stage = _fewer_changes(layout, options, stage)
     return stage, model, goals
