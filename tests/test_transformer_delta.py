@@ -223,6 +223,9 @@ def test_a_120_volt_load_loads_the_tapped_half_most() -> None:
     assert a_half == pytest.approx(-500.0 / 6, abs=ATOL_A)
     # loading from the heavier half: 240 V · 83.3 A = 20 kVA of the 25 kVA share
     assert loading_pct(t, currents) == pytest.approx(80.0)
+    # the same load on a 45 kVA bank: 20 kVA of a 15 kVA share, 133 % (docs/building.md)
+    small = make_transformer("T2", 45, P480D, HIGH_LEG, "delta-delta")
+    assert loading_pct(small, currents) == pytest.approx(400.0 / 3)
     # on the primary it is a 12 kVA load across A-C: 25 A in A and C, nothing in B
     out = primary_line_currents(t, currents, ABC)
     assert [abs(out[k]) for k in ABC] == pytest.approx([25.0, 0.0, 25.0], abs=FRAME_RTOL * 25.0)
