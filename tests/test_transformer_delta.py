@@ -606,11 +606,14 @@ def test_building_through_a_delta_delta_bank_rolls_up_and_balances() -> None:
             _circuit(5, 1, 1200.0),
             _circuit(7, 1, 2000.0),
             _circuit(8, 1, 600.0),
-            _circuit(3, 2, 5000.0, 0.9),
+            _circuit(4, 2, 5000.0, 0.9),
             _circuit(9, 3, 9000.0, 0.85),
             _circuit(14, 2, 2400.0),
         ),
     )
+    for panel in (service, lighting):  # the invented schedules book each space once
+        spaces = [space for circuit in panel.circuits for space in circuit.spaces]
+        assert len(spaces) == len(set(spaces))
     bank = make_transformer("T1", 45, P480D, HIGH_LEG, "delta-delta")
     building = make_building("delta demo", [service, lighting], [Feed("LP", "MDP", "1", bank)])
     figures = roll_up(building)
