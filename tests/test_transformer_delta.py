@@ -254,8 +254,8 @@ class _Network:
             names += [first, second]
         names += [x for x, _ in self.sources]
         for core in self.cores:
-            for x, y, _ in core:
-                names += [x, y]
+            for x, y_node, _ in core:
+                names += [x, y_node]
         nodes = [n for n in dict.fromkeys(names) if n != "g"]
         index = {n: i for i, n in enumerate(nodes)}
         windings = [w for core in self.cores for w in core]
