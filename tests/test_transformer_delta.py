@@ -262,12 +262,12 @@ class _Network:
         size = len(nodes) + len(self.sources) + len(windings) + len(self.cores)
         m = np.zeros((size, size), dtype=complex)
         rhs = np.zeros(size, dtype=complex)
-        for first, second, y in self.admittances:
+        for first, second, admittance in self.admittances:
             for a, b in ((first, second), (second, first)):
                 if a in index:
-                    m[index[a], index[a]] += y
+                    m[index[a], index[a]] += admittance
                     if b in index:
-                        m[index[a], index[b]] -= y
+                        m[index[a], index[b]] -= admittance
         row = len(nodes)
         for k, (node, voltage) in enumerate(self.sources):
             m[index[node], row + k] -= 1.0  # injected into the node
