@@ -425,7 +425,7 @@ def feeder_figures(building: Building, feed: Feed, child: PanelFigures) -> Feede
             loading_pct(t, child.line_current) if t else None,
         )
     if t is not None:
-        va = primary_phase_va(t, child.phase_va, lines)
+        va = primary_phase_va(t, child.phase_va, lines, child.line_current)
         current = primary_line_currents(t, child.line_current, lines)
         return FeederFigures(
             feed.panel,
@@ -675,7 +675,7 @@ def _placed_anywhere(building: Building, feed: Feed, child: PanelFigures) -> dic
     lines = parent.geometry.lines_of(1, 3)
     t = feed.transformer
     if t is not None:
-        return primary_phase_va(t, child.phase_va, lines)
+        return primary_phase_va(t, child.phase_va, lines, child.line_current)
     return {line: child.phase_va.get(line, 0.0) for line in parent.lines}
 
 
