@@ -243,12 +243,21 @@ def make_transformer(
             )
         windings = tuple(Winding((k,), (k,)) for k in ("A", "B", "C"))
     elif key == "single-phase":
-        if secondary.lines != ("A", "B") or not secondary.neutral:
+        # one centre-tapped winding: its two halves are in phase opposition (120/240 V); two
+        # lines of a wye (120/208 V) need two windings and so cannot come from this unit
+        opposed = (
+            secondary.lines == ("A", "B")
+            and secondary.neutral
+            and abs(secondary.voltage_phasor("A") + secondary.voltage_phasor("B"))
+            < 1e-6 * abs(secondary.voltage_phasor("A"))
+        )
+        if not opposed:
             problems.append(
                 Problem(
                     where,
-                    f"{label}: a single-phase transformer here feeds a single-phase 3-wire panel; "
-                    f"got {secondary.designation}",
+                    f"{label}: a single-phase transformer feeds a single-phase 3-wire panel "
+                    f"from one centre-tapped winding (such as 120/240); got "
+                    f"{secondary.designation}",
                 )
             )
         windings = (Winding(("A", "B")),)
@@ -514,7 +523,8 @@ def loading_pct(transformer: Transformer, secondary_currents: Mapping[Line, comp
     delta as two of S/2), so an unbalanced load can overload one winding while the total is
     within the rating. A winding's load is its apparent power |S|; for a delta winding, its
     voltage times the heavier current in it, which on a centre-tapped winding is the heavier
-    half (the two halves differ by the neutral current).
+    half (the two halves differ by the neutral current). A single-phase unit's centre-tapped
+    winding is treated the same way: 240 V times the heavier of its two line currents.
     """
     if any(w.across for w in transformer.windings):
         system = transformer.secondary
@@ -524,6 +534,12 @@ def loading_pct(transformer: Transformer, secondary_currents: Mapping[Line, comp
                 transformer.windings, winding_currents(transformer, secondary_currents), strict=True
             )
         )
+    elif transformer.connection == "single-phase":
+        # each half of the centre-tapped winding is rated for the unit's full-load current, so
+        # the heavier line current counts against the whole winding's voltage (common practice)
+        system = transformer.secondary
+        voltage = abs(system.voltage_between("A", "B"))
+        heaviest_va = voltage * max(abs(secondary_currents.get(k, 0j)) for k in ("A", "B"))
     else:
         heaviest_va = max(abs(p) for p in winding_powers(transformer, secondary_currents))
     return heaviest_va / 1000.0 / transformer.winding_kva * 100.0

@@ -178,3 +178,21 @@ def test_phase_shift_is_thirty_degrees_lagging() -> None:
     # Secondary a-n in phase with primary A-C: 30° behind primary A-N (see module comment).
     angle = cmath.phase(P480D.voltage_between("A", "C")) - cmath.phase(P480D.voltage_phasor("A"))
     assert math.degrees(angle) == pytest.approx(-30.0)
+
+
+def test_single_phase_loading_counts_the_heavier_half_of_the_winding() -> None:
+    """A 25 kVA 120/240 V unit: full-load current 25,000 / 240 = 104.2 A in each secondary line
+    conductor (common practice). 12 kVA all on one 120 V half draws 100 A there: 96 %, not the
+    48 % its kVA alone would suggest; the same 12 kVA at 240 V draws 50 A: 48 %."""
+    unit = make_transformer("T", 25, P480Y, S240, "single-phase")
+    one_half = {"A": current_phasor(12_000, S240.voltage_phasor("A"), 1.0)}
+    assert abs(one_half["A"]) == pytest.approx(100.0)
+    assert loading_pct(unit, one_half) == pytest.approx(96.0)
+    across = current_phasor(12_000, S240.voltage_between("A", "B"), 1.0)
+    assert loading_pct(unit, {"A": across, "B": -across}) == pytest.approx(48.0)
+
+
+def test_single_phase_unit_cannot_feed_two_lines_of_a_wye() -> None:
+    network = get_system("120/208 network")
+    with pytest.raises(ScheduleError, match="centre-tapped winding"):
+        make_transformer("T", 25, P480Y, network, "single-phase")
