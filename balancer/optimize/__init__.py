@@ -388,7 +388,7 @@ def _first_goal_on_lines(
             if value <= goal_va or split.exhaustive:
                 # Proven by the combinatorial bound, or by having tried every line assignment
                 # of the relaxation (whose least spread bounds every arrangement).
-                bound = floor if value <= goal_va else max(floor, min(value, split.spread_va))
+                bound = floor if value <= goal_va else max(floor, value)
                 how = "bound" if value <= goal_va else "every line assignment tried"
                 spent = time.perf_counter() - began
                 stage = StageResult("spread", value, bound, True, tuple(seed), spent, how)

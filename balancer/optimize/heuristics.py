@@ -8,6 +8,7 @@ On panels they pick lines only (no space numbers); the exact model seeds from th
 
 from __future__ import annotations
 
+import functools
 import heapq
 import itertools
 import math
@@ -442,10 +443,12 @@ def fewer_changes_lines(
 # take each pattern, so a panel of a few repeated load sizes is searched exhaustively.
 HALF_COMBINATIONS = 20_000  # joint choices per half in one step on a handful of units
 EXACT_HALF_COMBINATIONS = 250_000  # per half, when the whole panel is enumerated at once
-PAIR_LIMIT = 4_000_000  # candidate pairs one step evaluates at most
+PAIR_LIMIT = 300_000  # candidate pairs one step on a handful evaluates at most
+EXACT_PAIR_LIMIT = 3_000_000  # ... and the widest window of the whole enumeration
 PAIR_CHUNK = 400_000  # candidate pairs evaluated at once (memory)
 SPLIT_ROUNDS = 60  # steps on random handfuls (seeded) before the search gives up
-STALE_BEFORE_WHOLE = 3  # fruitless steps before a panel that can be enumerated whole is
+STALE_BEFORE_WHOLE = 2  # fruitless steps before a panel that can be enumerated whole is
+STALE_LIMIT = 4  # fruitless steps before the search gives up (a step seldom fails near balance)
 SPLIT_SEED = 2
 
 
@@ -572,13 +575,16 @@ def _best_pair(
             ia = np.repeat(rows, per)
             offsets = np.arange(int(per.sum())) - np.repeat(np.cumsum(per) - per, per)
             ib = order[np.repeat(low[rows], per) + offsets]
-            load = base + first.load[ia] + second.load[ib]
+            # the room first: on a full panel it rules out most pairs before any arithmetic
             fits = ((first.use[ia] + second.use[ib]) <= room).all(axis=1)
-            spread = load.max(axis=1) - load.min(axis=1)
-            fits &= spread <= radius
-            if fits.any():
+            ia, ib = ia[fits], ib[fits]
+            load = base + first.load[ia] + second.load[ib]
+            columns = [load[:, j] for j in range(load.shape[1])]
+            spread = functools.reduce(np.maximum, columns) - functools.reduce(np.minimum, columns)
+            near = spread <= radius
+            if near.any():
+                ia, ib, load, spread = ia[near], ib[near], load[near], spread[near]
                 deviation = ((load - load.mean(axis=1, keepdims=True)) ** 2).sum(axis=1)
-                spread = np.where(fits, spread, np.inf)
                 k = int(np.lexsort((deviation, spread))[0])
                 found = (float(spread[k]), float(deviation[k]), int(ia[k]), int(ib[k]))
                 if best is None or found[:2] < best[:2]:
@@ -613,8 +619,13 @@ class _Pairing:
         self.base, self.room = base, room
         self.first, self.second = _half(state, halves[0]), _half(state, halves[1])
 
-    def best(self, radius: float) -> tuple[int, int, float, float] | None:
-        return _best_pair(self.base, self.room, self.first, self.second, radius, PAIR_LIMIT)
+    def count(self, radius: float) -> int:
+        """How many candidate pairs a window of ``radius`` holds."""
+        _, low, high = _pair_windows(self.base, self.first, self.second, radius)
+        return int((high - low).sum())
+
+    def best(self, radius: float, pair_limit: int) -> tuple[int, int, float, float] | None:
+        return _best_pair(self.base, self.room, self.first, self.second, radius, pair_limit)
 
     def apply(self, found: tuple[int, int, float, float]) -> None:
         ia, ib = found[0], found[1]
@@ -632,9 +643,9 @@ def _exact_halves(state: _LineState, half_limit: int) -> tuple[list[list[int]], 
 
 def _exhaustive(state: _LineState, halves: Sequence[list[list[int]]], first_radius: float) -> bool:
     """Apply the least spread over every line assignment to ``state``; False (``state``
-    unchanged) when a window would hold too many pairs.
+    unchanged) when the widest window would hold too many pairs.
 
-    The window starts at ``first_radius`` and widens fourfold until it holds a pair: the best
+    The window starts at ``first_radius`` and doubles until it holds a pair: the best
     pair inside a window that holds any is the best of all. At the present spread it holds the
     present choice itself.
     """
@@ -642,10 +653,12 @@ def _exhaustive(state: _LineState, halves: Sequence[list[list[int]]], first_radi
     pairing = _Pairing(state, movable, halves)
     here = max(state.load) - min(state.load)
     widest = here + 1e-9 * max(1.0, max(abs(v) for v in state.load))  # rounding kept in
+    if pairing.count(widest) > EXACT_PAIR_LIMIT:
+        return False  # settling it may need the widest window: too many pairs
     radius = min(max(first_radius, 1e-6), widest)
     while True:
         try:
-            found = pairing.best(radius)
+            found = pairing.best(radius, EXACT_PAIR_LIMIT)
         except _TooManyPairs:
             return False
         if found is not None:
@@ -653,7 +666,7 @@ def _exhaustive(state: _LineState, halves: Sequence[list[list[int]]], first_radi
             return True
         if radius >= widest:
             return True  # nothing inside the present spread but by rounding: it is the best
-        radius = min(4 * radius, widest)
+        radius = min(2 * radius, widest)
 
 
 def split_search_lines(
@@ -682,7 +695,7 @@ def split_search_lines(
     begin = time.perf_counter()
     cheap = _exact_halves(state, HALF_COMBINATIONS)
     if cheap is not None and _exhaustive(state, cheap, goal_spread_va):
-        return SplitResult(list(state.picks), max(state.load) - min(state.load), True)
+        return SplitResult(list(state.picks), pattern_spread_va(layout, state.picks), True)
     whole = _exact_halves(state, EXACT_HALF_COMBINATIONS)
     stop = begin + (budget_s / 2 if whole is not None else budget_s)
     spread = max(state.load) - min(state.load)
@@ -693,7 +706,13 @@ def split_search_lines(
         if spread <= goal_spread_va or time.perf_counter() >= stop:
             break
         if whole is not None and stale >= STALE_BEFORE_WHOLE:
-            break  # repeated loads: the whole enumeration settles it sooner
+            # repeated loads: the whole enumeration settles it sooner, if its window allows
+            if _exhaustive(state, whole, goal_spread_va):
+                return SplitResult(list(state.picks), pattern_spread_va(layout, state.picks), True)
+            whole, stop = None, begin + budget_s
+            continue
+        if stale >= STALE_LIMIT:
+            break  # far from an even split (a full line, or a heavy load): leave it to the solver
         halves: tuple[list[int], list[int]] = ([], [])
         products = [1, 1]
         for u in rng.sample(movable, len(movable)):
@@ -707,12 +726,12 @@ def split_search_lines(
         )
         radius = spread
         found: tuple[int, int, float, float] | None = None
-        for _ in range(8):  # narrow the window until the candidate pairs fit the limit
+        for _ in range(12):  # narrow the window until the candidate pairs fit the limit
             try:
-                found = pairing.best(radius)
+                found = pairing.best(radius, PAIR_LIMIT)
                 break
             except _TooManyPairs:
-                radius /= 4
+                radius /= 2
         stale += 1
         if found is not None and found[2:] < state.score(state.load):
             pairing.apply(found)
@@ -725,4 +744,4 @@ def split_search_lines(
         and time.perf_counter() < begin + budget_s
         and _exhaustive(state, whole, goal_spread_va)
     )
-    return SplitResult(list(state.picks), max(state.load) - min(state.load), exhaustive)
+    return SplitResult(list(state.picks), pattern_spread_va(layout, state.picks), exhaustive)
