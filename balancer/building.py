@@ -31,6 +31,7 @@ from balancer.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.systems import Line, System
 from balancer.transformer import (
     Transformer,
+    Winding,
     loading_pct,
     primary_line_currents,
     primary_phase_va,
@@ -354,6 +355,8 @@ class PanelFigures:
     line_current: dict[Line, complex]
     neutral_a: float
     unplaced: tuple[str, ...] = ()
+    # the part of phase_va that is line-to-neutral load (1-pole circuits, whole), per line
+    neutral_side_va: dict[Line, float] = field(default_factory=dict)
 
     @property
     def total_va(self) -> float:
@@ -383,6 +386,7 @@ class FeederFigures:
     phase_va: dict[Line, float]
     line_current: dict[Line, complex]
     transformer_loading_pct: float | None = None
+    neutral_side_va: dict[Line, float] = field(default_factory=dict)  # upstream, per line
 
     @property
     def line_a(self) -> dict[Line, float]:
@@ -425,8 +429,10 @@ def feeder_figures(building: Building, feed: Feed, child: PanelFigures) -> Feede
             loading_pct(t, child.line_current) if t else None,
         )
     if t is not None:
-        va = primary_phase_va(t, child.phase_va, lines, child.line_current)
+        va = primary_phase_va(t, child.phase_va, lines, child.line_current, child.neutral_side_va)
         current = primary_line_currents(t, child.line_current, lines)
+        # primary windings from a line to neutral carry line-to-neutral load upstream
+        to_neutral = all(len(_winding_lines(w, lines)) == 1 for w in t.windings)
         return FeederFigures(
             feed.panel,
             feed.source,
@@ -435,13 +441,22 @@ def feeder_figures(building: Building, feed: Feed, child: PanelFigures) -> Feede
             va,
             current,
             loading_pct(t, child.line_current),
+            dict(va) if to_neutral else dict.fromkeys(parent.lines, 0.0),
         )
     mapping = direct_line_map(child_system, parent.system, lines, feed.swapped)
     va = dict.fromkeys(parent.lines, 0.0)
+    neutral_side = dict.fromkeys(parent.lines, 0.0)
     for k, u in mapping.items():
         va[u] += child.phase_va[k]
+        neutral_side[u] += child.neutral_side_va.get(k, 0.0)
     current = _move_currents(child_system, parent.system, child.line_current, mapping)
-    return FeederFigures(feed.panel, feed.source, feed.circuit_id, lines, va, current)
+    return FeederFigures(
+        feed.panel, feed.source, feed.circuit_id, lines, va, current, None, neutral_side
+    )
+
+
+def _winding_lines(winding: Winding, feeder_lines: Sequence[Line]) -> tuple[Line, ...]:
+    return winding.primary_lines or tuple(feeder_lines)
 
 
 def roll_up(building: Building) -> RollUp:
@@ -452,6 +467,7 @@ def roll_up(building: Building) -> RollUp:
         panel = building.panel(name)
         outgoing = {f.circuit_id: f for f in building.fed_from(name)}
         phase_va = dict.fromkeys(panel.lines, 0.0)
+        neutral_side = dict.fromkeys(panel.lines, 0.0)
         current = dict.fromkeys(panel.lines, 0j)
         branch_parts: list[float] = []
         below: list[float] = []
@@ -465,6 +481,8 @@ def roll_up(building: Building) -> RollUp:
                 if not figures.lines:
                     unplaced.append(circuit.id)
                 parts_va, parts_i = figures.phase_va, figures.line_current
+                for line, va in figures.neutral_side_va.items():
+                    neutral_side[line] += va
             else:
                 branch_parts.append(circuit.load_va)
                 lines = panel.lines_of(circuit)
@@ -476,6 +494,8 @@ def roll_up(building: Building) -> RollUp:
                 parts_i = circuit_line_currents(
                     panel.system, lines, circuit.load_va, circuit.power_factor
                 )
+                if len(lines) == 1:  # a 1-pole load is line to neutral (circuit_line_currents)
+                    neutral_side[lines[0]] += circuit.load_va
             for line, va in parts_va.items():
                 phase_va[line] += va
             for line, i in parts_i.items():
@@ -490,6 +510,7 @@ def roll_up(building: Building) -> RollUp:
             current,
             neutral,
             tuple(unplaced),
+            neutral_side,
         )
     return RollUp(panels, feeders)
 
@@ -675,7 +696,7 @@ def _placed_anywhere(building: Building, feed: Feed, child: PanelFigures) -> dic
     lines = parent.geometry.lines_of(1, 3)
     t = feed.transformer
     if t is not None:
-        return primary_phase_va(t, child.phase_va, lines, child.line_current)
+        return primary_phase_va(t, child.phase_va, lines, child.line_current, child.neutral_side_va)
     return {line: child.phase_va.get(line, 0.0) for line in parent.lines}
 
 

@@ -437,13 +437,15 @@ def _equivalent_va(
     transformer: Transformer,
     secondary_phase_va: Mapping[Line, float],
     secondary_currents: Mapping[Line, complex] | None,
+    secondary_neutral_va: Mapping[Line, float] | None = None,
 ) -> dict[Line, float]:
     """Per-line VA of a delta secondary re-expressed as line-to-line loads only.
 
     On a high-leg secondary, the line-to-neutral VA on the tap-end lines p, q is moved half to
     each end of the tapped winding: the lines then carry L_p − D/2 and L_q + D/2, D = N_p − N_q
-    being the difference of the two lines' line-to-neutral VA. D is read from the neutral
-    current when the currents are given (|V_p|·|I_N|, signed by the side it is in phase with;
+    being the difference of the two lines' line-to-neutral VA. D is taken from
+    ``secondary_neutral_va`` when given, else read from the neutral current when the currents
+    are given (|V_p|·|I_N|, signed by the side it is in phase with;
     exact when the line-to-neutral loads share one power factor) and otherwise taken as close to
     0 as the figures allow. Either way it is kept where every line-to-line equivalent is
     possible (no line above the sum of the other two), so no winding share comes out negative.
@@ -455,7 +457,9 @@ def _equivalent_va(
     p, q = tapped.secondary_lines
     (r,) = (k for k in transformer.secondary.lines if k not in (p, q))
     difference = 0.0
-    if secondary_currents is not None:
+    if secondary_neutral_va is not None:
+        difference = secondary_neutral_va.get(p, 0.0) - secondary_neutral_va.get(q, 0.0)
+    elif secondary_currents is not None:
         neutral = _neutral_current(transformer, secondary_currents)
         voltage = transformer.secondary.voltage_phasor(p)
         sign = 1.0 if (neutral * voltage.conjugate()).real >= 0 else -1.0
@@ -473,6 +477,7 @@ def primary_phase_va(
     secondary_phase_va: Mapping[Line, float],
     feeder_lines: Sequence[Line],
     secondary_currents: Mapping[Line, complex] | None = None,
+    secondary_neutral_va: Mapping[Line, float] | None = None,
 ) -> dict[Line, float]:
     """Schedule-convention VA per primary line; the total is the secondary's, exactly.
 
@@ -490,8 +495,11 @@ def primary_phase_va(
       power each winding carries at unity power factor (a single line-to-line load puts 2/3 on
       the winding across it and 1/6 on each of the other two).
 
-    ``secondary_currents``, when given, let a high-leg secondary's line-to-neutral VA be split
-    between its two 120 V lines as the neutral current shows (see :func:`_equivalent_va`).
+    On a high-leg secondary the 120 V loads on the two ends of the tapped winding count across
+    the whole winding. ``secondary_neutral_va`` (the line-to-neutral VA on each secondary line)
+    says exactly how much is on each end; failing that, ``secondary_currents`` let it be read
+    from the neutral current (exact when those loads share one power factor), and failing both
+    the difference is taken as small as the figures allow (see :func:`_equivalent_va`).
     """
     out: dict[Line, float] = dict.fromkeys(transformer.primary.lines, 0.0)
     if not any(w.across for w in transformer.windings):
@@ -501,7 +509,9 @@ def primary_phase_va(
             for line in lines:
                 out[line] += va / len(lines)
         return out
-    equivalent = _equivalent_va(transformer, secondary_phase_va, secondary_currents)
+    equivalent = _equivalent_va(
+        transformer, secondary_phase_va, secondary_currents, secondary_neutral_va
+    )
     if transformer.connection != "wye-delta":
         for line, va in equivalent.items():
             out[line] += va

@@ -169,6 +169,47 @@ def test_transformer_feeder_uses_the_winding_mapping_and_blocks_the_neutral() ->
     assert feeder.transformer_loading_pct == pytest.approx(heaviest_va / 15000.0 * 100.0)
 
 
+def test_high_leg_120_volt_loads_count_across_the_tapped_winding_upstream() -> None:
+    """A 240/120 V high-leg panel behind a delta-delta bank: its 120 V loads (A-N, C-N) all sit
+    on the tapped C-A winding, so upstream they count half on primary A and half on C wherever
+    they are on the panel, as the primary currents show (moving one from A-N to C-N changes no
+    primary current: both ends of the winding carry the same ampere-turns)."""
+    p480d = get_system("480 delta")
+
+    def shop(first_120_v_space: int) -> Panel:
+        return Panel(
+            "W1",
+            HIGH_LEG,
+            30,
+            (
+                one_pole(first_120_v_space, 1500.0),  # A-N (space 2) or C-N (space 6)
+                one_pole(11, 900.0, power_factor=0.8),  # C-N
+                multi_pole(7, 2, 2400.0),  # A-B, 240 V
+            ),
+        )
+
+    service = Panel("MDP", p480d, 30, (multi_pole(1, 3, 0.0),))
+    bank = make_transformer("T3", 30, p480d, HIGH_LEG, "delta-delta")
+    figures = {}
+    for space in (2, 6):
+        building = make_building("shop", [service, shop(space)], [Feed("W1", "MDP", "1", bank)])
+        figures[space] = roll_up(building)
+    on_a, on_c = figures[2], figures[6]
+    assert on_a.panels["W1"].neutral_side_va == {"A": 1500.0, "B": 0.0, "C": 900.0}
+    assert on_c.panels["W1"].neutral_side_va == {"A": 0.0, "B": 0.0, "C": 2400.0}
+    # 2,400 VA of 120 V load: 1,200 on A and on C; the 240 V load 1,200 on A and on B
+    expected = {"A": 2400.0, "B": 1200.0, "C": 1200.0}
+    for rolled in (on_a, on_c):
+        assert rolled.feeders["W1"].phase_va == pytest.approx(expected, abs=ATOL_VA)
+        assert rolled.panels["MDP"].phase_va == pytest.approx(expected, abs=ATOL_VA)
+    for line in "ABC":
+        assert on_a.feeders["W1"].line_current[line] == pytest.approx(
+            on_c.feeders["W1"].line_current[line], abs=ATOL_A
+        )
+    # ... but the C half of the tapped winding carries more, so its loading is higher
+    assert on_c.feeders["W1"].transformer_loading_pct > on_a.feeders["W1"].transformer_loading_pct
+
+
 def test_single_phase_subpanel_lands_on_its_breaker_lines() -> None:
     hl = Panel(
         "HL", HIGH_LEG, 30, (multi_pole(5, 2, 0.0), one_pole(1, 1000.0))

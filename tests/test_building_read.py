@@ -20,9 +20,9 @@ DEMO_BOOK = DEMO / "building-demo.xlsx"
 CSV_HEADER = "Ckt,Load Description,Poles,Load (VA)\n"
 
 
-def test_demo_workbook_reads_as_a_tree_with_two_transformers() -> None:
+def test_demo_workbook_reads_as_a_tree_with_three_transformers() -> None:
     building = read_building(DEMO_BOOK)
-    assert {p.name for p in building.panels} == {"MDP", "H1", "L1", "L2", "K1"}
+    assert {p.name for p in building.panels} == {"MDP", "H1", "L1", "L2", "K1", "W1"}
     assert building.services() == ["MDP"]
     l1 = building.feed_of("L1")
     assert l1 is not None
@@ -32,6 +32,11 @@ def test_demo_workbook_reads_as_a_tree_with_two_transformers() -> None:
     assert k1 is not None
     assert k1.transformer is not None
     assert k1.transformer.connection == "single-phase"
+    w1 = building.feed_of("W1")
+    assert w1 is not None
+    assert w1.transformer is not None
+    assert w1.transformer.connection == "delta-delta"
+    assert building.panel("W1").system.high_leg == "B"
     assert building.order()[-1] == "MDP"
 
 
@@ -137,7 +142,7 @@ def test_building_command_balances_and_writes_figures(
     assert book.read_bytes() == before  # the input is never written
     sheets = load_workbook(out).sheetnames
     figures = ["Summary", "Panels", "Feeders", "Moves", "Work order", "Building"]
-    assert sheets == [*figures, "MDP", "H1", "L1", "L2", "K1"]
+    assert sheets == [*figures, "MDP", "H1", "L1", "L2", "K1", "W1"]
     moves = list(load_workbook(out)["Moves"].iter_rows(values_only=True))
     assert moves[0][:3] == ("Panel", "Circuit", "Description")
     assert len(moves) > 1  # the demo panels start unbalanced, so some breakers move
@@ -149,7 +154,7 @@ def test_building_command_json_and_refusal_to_overwrite_input(
     assert main(["building", str(DEMO_BOOK), "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["panels"][0]["panel"] == "MDP"
-    assert {row["panel"] for row in data["feeders"]} == {"H1", "L1", "L2", "K1"}
+    assert {row["panel"] for row in data["feeders"]} == {"H1", "L1", "L2", "K1", "W1"}
     assert main(["building", str(DEMO_BOOK), "-o", str(DEMO_BOOK)]) == 2
     assert "never writes its input" in capsys.readouterr().err
 

@@ -2,8 +2,9 @@
 
 Kestrel Row community centre (an imagined site): a 480Y/277 V main distribution panel feeding a
 480 V mechanical panel, a 45 kVA delta-wye transformer to a 208Y/120 V lighting and receptacle
-panel (which feeds an upstairs panel), and a 25 kVA single-phase transformer to a 120/240 V
-kitchen annex panel. Run ``python sample_schedules/building-demo/make_building_demo.py`` to
+panel (which feeds an upstairs panel), a 25 kVA single-phase transformer to a 120/240 V
+kitchen annex panel, and a 30 kVA delta-delta transformer to a 240/120 V high-leg workshop
+panel. Run ``python sample_schedules/building-demo/make_building_demo.py`` to
 regenerate ``building-demo.xlsx`` beside this script.
 """
 
@@ -35,6 +36,7 @@ PANELS: dict[str, tuple[str, int, list[list[object]]]] = {
             [11, "Stair lighting", "lighting", 1, 20, 800, None],
             [12, "Exterior signage", "lighting", 1, 20, 1500, None],
             [13, "Rooftop unit RTU-1", "motor", 3, 40, 18000, 0.85],
+            [19, "Feeder to T3 30 kVA", "feeder", 3, 45, 0, None],
         ],
     ),
     "H1": (
@@ -77,6 +79,21 @@ PANELS: dict[str, tuple[str, int, list[list[object]]]] = {
             [8, "Corridor lighting", "lighting", 1, 20, 650, None],
         ],
     ),
+    # 240/120 V high-leg delta: B is the high leg, so 1-pole loads sit on A or C only
+    "W1": (
+        "240/120",
+        30,
+        [
+            [1, "Air compressor", "motor", 3, 30, 7500, 0.85],
+            [2, "Workbench receptacles", "receptacle", 1, 20, 1440, None],
+            [6, "Tool room receptacles", "receptacle", 1, 20, 1080, None],
+            [7, "Welding receptacle (240 V)", "other", 2, 50, 9600, None],
+            [8, "Shop lighting", "lighting", 1, 20, 1200, None],
+            [11, "Bench grinder", "motor", 1, 20, 1200, 0.8],
+            [12, "Overhead door opener", "motor", 1, 20, 600, 0.8],
+            [14, "Battery chargers (240 V)", "other", 2, 20, 2000, None],
+        ],
+    ),
     "K1": (
         "120/240",
         24,
@@ -98,6 +115,7 @@ INDEX = [
     ["L1", "L1", "MDP", 2, "T1", 45, "delta-wye"],
     ["L2", "L2", "L1", 1, None, None, None],
     ["K1", "K1", "MDP", 7, "T2", 25, "single-phase"],
+    ["W1", "W1", "MDP", 19, "T3", 30, "delta-delta"],
 ]
 
 
