@@ -33,6 +33,7 @@ from balancer.transformer import (
     Transformer,
     Winding,
     loading_pct,
+    loading_terms,
     primary_line_currents,
     primary_phase_va,
 )
@@ -596,6 +597,7 @@ class PanelOutcome:
     view_spread_va: float  # the spread the optimiser reached on the panel as it saw it
     spread_proven: bool  # the spread is proven best within the tolerance (moves may not be)
     notes: tuple[str, ...] = ()
+    first_goal: str = "spread"  # "transformer": the feeding transformer's heaviest winding
 
 
 @dataclass(frozen=True, slots=True)
@@ -787,15 +789,33 @@ def levels(building: Building) -> list[list[str]]:
     return out
 
 
+def panel_options(building: Building, name: str, options: BalanceOptions) -> BalanceOptions:
+    """The options a panel is balanced with: behind a transformer with a delta secondary the
+    first goal is the transformer's heaviest winding, since there the per-line VA and the
+    winding loads part ways (a high-leg panel's 120 V loads all sit on one winding; a 240 V
+    load on a closed delta loads all three windings, two thirds on the one across it).
+    Elsewhere each winding carries one line's load and the phase spread comes first."""
+    feed = building.feed_of(name)
+    t = feed.transformer if feed is not None else None
+    if t is None or not any(w.across for w in t.windings):
+        return options
+    return replace(options, objective="transformer", transformer_terms=loading_terms(t))
+
+
 def _solve_views(
-    views: Mapping[str, _View], options: BalanceOptions, balance: BalanceFunction, jobs: int
+    views: Mapping[str, _View],
+    options: Mapping[str, BalanceOptions],
+    balance: BalanceFunction,
+    jobs: int,
 ) -> dict[str, BalanceResult]:
     if jobs <= 1 or len(views) <= 1:
-        return {name: balance(view.panel, options) for name, view in views.items()}
+        return {name: balance(view.panel, options[name]) for name, view in views.items()}
     from concurrent.futures import ProcessPoolExecutor
 
     with ProcessPoolExecutor(max_workers=min(jobs, len(views))) as pool:
-        futures = {name: pool.submit(balance, view.panel, options) for name, view in views.items()}
+        futures = {
+            name: pool.submit(balance, view.panel, options[name]) for name, view in views.items()
+        }
         return {name: future.result() for name, future in futures.items()}
 
 
@@ -820,7 +840,8 @@ def balance_building(
     for level in levels(building):
         figures = roll_up(current)
         views = {name: _optimiser_view(current, name, figures) for name in level}
-        results = _solve_views(views, options, balance, jobs)
+        chosen = {name: panel_options(current, name, options) for name in level}
+        results = _solve_views(views, chosen, balance, jobs)
         for name in level:
             view, result = views[name], results[name]
             original = current.panel(name)
@@ -833,7 +854,10 @@ def balance_building(
             current = current.with_panels(
                 [arranged if p.name == name else p for p in current.panels], feeds
             )
-            outcomes[name] = _outcome(name, view, result, original, arranged, previous, feeds)
+            outcomes[name] = replace(
+                _outcome(name, view, result, original, arranged, previous, feeds),
+                first_goal=chosen[name].objective,
+            )
     ordered = {name: outcomes[name] for name in building.order()}
     return BuildingResult(building, current, before, roll_up(current), ordered)
 

@@ -188,6 +188,15 @@ def summary_lines(
             f"{spread_proven} on phase spread within the tolerance; "
             f"{moves} breaker moves, {relands} feeders re-landed"
         )
+        for name, outcome in result.outcomes.items():
+            if outcome.first_goal == "transformer":
+                found = before.feeders[name].transformer_loading_pct or 0.0
+                now = result.after_figures.feeders[name].transformer_loading_pct or 0.0
+                out.append(
+                    f"{name} is behind a delta-secondary transformer: balanced first for its "
+                    f"heaviest winding ({found:.1f} % → {now:.1f} % of rating), then moves, "
+                    "then phase spread"
+                )
     for name, feeder in figures.feeders.items():
         loading = feeder.transformer_loading_pct
         if loading is not None and loading > 100.0:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import enum
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Literal
 
@@ -11,7 +12,7 @@ from balancer.panel import Panel
 from balancer.systems import Line
 
 Engine = Literal["highs", "cbc"]
-Objective = Literal["spread", "line", "neutral"]
+Objective = Literal["spread", "line", "neutral", "transformer"]
 
 
 class SolveStatus(enum.Enum):
@@ -23,8 +24,26 @@ class SolveStatus(enum.Enum):
 
 
 @dataclass(frozen=True, slots=True)
+class CurrentTerm:
+    """A weighted sum of a panel's line current phasors, Σ w_k·I_k; ``scale`` times its
+    magnitude is the figure kept low (for a transformer winding: its loading in %)."""
+
+    name: str
+    weights: tuple[tuple[Line, complex], ...]
+    scale: float
+
+    def value(self, currents: Mapping[Line, complex]) -> complex:
+        return self.scale * sum((w * currents.get(k, 0j) for k, w in self.weights), 0j)
+
+
+@dataclass(frozen=True, slots=True)
 class BalanceOptions:
-    """Choices for one balancing run; passed explicitly, never global."""
+    """Choices for one balancing run; passed explicitly, never global.
+
+    ``transformer_terms`` describe the windings of the transformer feeding the panel (see
+    :func:`balancer.transformer.loading_terms`); with them, objective ``"transformer"`` keeps
+    the heaviest winding's loading lowest.
+    """
 
     fresh: bool = False
     max_moves: int | None = None
@@ -34,6 +53,7 @@ class BalanceOptions:
     tolerance_va: float = 1.0
     move_spares: bool = False
     objective: Objective = "spread"
+    transformer_terms: tuple[CurrentTerm, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)

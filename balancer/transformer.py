@@ -30,6 +30,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 from balancer.errors import Problem, ScheduleError
+from balancer.result import CurrentTerm
 from balancer.systems import Line, System
 
 Connection = Literal[
@@ -553,3 +554,29 @@ def loading_pct(transformer: Transformer, secondary_currents: Mapping[Line, comp
     else:
         heaviest_va = max(abs(p) for p in winding_powers(transformer, secondary_currents))
     return heaviest_va / 1000.0 / transformer.winding_kva * 100.0
+
+
+def loading_terms(transformer: Transformer) -> tuple[CurrentTerm, ...]:
+    """The transformer's loading as terms linear in the secondary line currents: the largest
+    ``scale·|Σ w_k·I_k|`` over the terms is :func:`loading_pct` for those currents.
+
+    One term per winding, or per half of a centre-tapped winding: every winding or half
+    current is a fixed linear combination of the line currents (the neutral current is minus
+    their sum), found here by putting 1 A on each line in turn.
+    """
+    system = transformer.secondary
+    rating_va = transformer.winding_kva * 1000.0
+    unit = {k: winding_currents(transformer, {k: 1 + 0j}) for k in system.lines}
+    terms: list[CurrentTerm] = []
+    for index, winding in enumerate(transformer.windings):
+        if winding.across:
+            voltage = abs(_winding_voltage(system, winding))
+        elif transformer.connection == "single-phase":
+            voltage = abs(system.voltage_between("A", "B"))
+        else:
+            voltage = abs(system.voltage_phasor(winding.secondary_lines[0]))
+        for part in range(len(unit[system.lines[0]][index])):
+            weights = tuple((k, unit[k][index][part]) for k in system.lines)
+            name = "-".join(winding.secondary_lines) + (f" part {part + 1}" if part else "")
+            terms.append(CurrentTerm(name, weights, voltage / rating_va * 100.0))
+    return tuple(terms)

@@ -174,12 +174,14 @@ def _placement_start(options: Sequence[Sequence[Option]]) -> list[int] | None:
 
 
 def _describe(stage: StageResult, proven: bool, bound: float, options: BalanceOptions) -> str:
-    unit = {"spread": "VA", "moves": "moves"}.get(stage.goal, "A")
+    unit = {"spread": "VA", "moves": "moves", "transformer": "%"}.get(stage.goal, "A")
     digits = {"spread": 1, "moves": 0}.get(stage.goal, 2)
     # the current goals are optimised at the fundamental; say so beside RMS figures
-    label = {"neutral": "neutral (fundamental)", "line": "worst line (fundamental)"}.get(
-        stage.goal, stage.goal
-    )
+    label = {
+        "neutral": "neutral (fundamental)",
+        "line": "worst line (fundamental)",
+        "transformer": "heaviest winding of the feeding transformer (fundamental, % of rating)",
+    }.get(stage.goal, stage.goal)
     text = f"{label}: {stage.value:.{digits}f} {unit}"
     if proven and stage.goal == "moves":
         return text + ", proven fewest"
@@ -302,7 +304,7 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         )
     key_goals = goals[: _key_count(goals)]
     status = SolveStatus.OPTIMAL if all(proven[g] for g in key_goals) else SolveStatus.FEASIBLE
-    if "neutral" in goals or "line" in goals:
+    if {"neutral", "line", "transformer"} & set(goals):
         notes.append(
             f"currents are minimised through a {POLYGON_SIDES}-sided polygon: the true value is at "
             f"most {POLYGON_ERROR * 100:.2f} % above the proven figure"
@@ -346,6 +348,8 @@ def _first_goal_on_lines(
 ) -> tuple[StageResult, Model, list[str]]:
     """The first goal on the line-level relaxation: its bound holds for every arrangement."""
     available = ["spread", "moves", "line"] + (["neutral"] if has_neutral_goal(layout) else [])
+    if options.transformer_terms:
+        available.append("transformer")
     goals = _goal_order(
         replace(options, target_imbalance_pct=target), layout.count_moves, available
     )

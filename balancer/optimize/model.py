@@ -352,7 +352,8 @@ def build_model(
     answer into spaces); ``include`` limits the current goals built (their polygon rows are
     dense), by default those ``options`` needs. Goal expressions: ``spread`` (max − min phase
     VA), ``moves``, ``neutral`` and ``line`` (polygon bounds on |I_N| and the largest |I_line|,
-    amperes).
+    amperes), and with ``options.transformer_terms`` ``transformer`` (polygon bound on the
+    heaviest winding of the feeding transformer, % of its rating).
     """
     panel = layout.panel
     lines = panel.lines
@@ -468,6 +469,16 @@ def build_model(
             ]
             _polygon_rows(prob, worst, terms, fixed.line_current[line], f"line_{j}")
         goals["line"] = pulp.LpAffineExpression([(worst, 1.0)])
+    if "transformer" in wanted and options.transformer_terms:
+        heaviest = prob.add_variable("z_t", 0, None)
+        for j, term in enumerate(options.transformer_terms):
+            terms = [
+                (choice[u, k], term.value(part.line_current))
+                for u, unit_parts in enumerate(parts)
+                for k, part in enumerate(unit_parts)
+            ]
+            _polygon_rows(prob, heaviest, terms, term.value(fixed.line_current), f"winding_{j}")
+        goals["transformer"] = pulp.LpAffineExpression([(heaviest, 1.0)])
     prob.setObjective(goals["spread"])
     return Model(kind, layout, prob, tuple(unit_options), choice, phase_va, goals)
 
