@@ -31,6 +31,9 @@ SAFETY = (
 )
 
 
+GOAL_TEXT = {"spread": "phase spread", "transformer": "transformer winding"}
+
+
 def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
     return " / ".join(f"{v:,.{digits}f}" for v in values.values())
 
@@ -73,6 +76,7 @@ def panel_rows(
                 "line_a_after": _lines_text(after.line_a, 1),
                 "neutral_after_a": after.neutral_a,
                 "status": outcome.status.value,
+                "first_goal": GOAL_TEXT.get(outcome.first_goal, outcome.first_goal),
                 "moves": len(outcome.moves),
                 "moved": ", ".join(outcome.moves),
                 "re_landed": ", ".join(outcome.swapped_feeds),
@@ -315,6 +319,7 @@ SHEET_TITLES: dict[str, str] = {
     "neutral_before_a": "Neutral A before",
     "neutral_after_a": "Neutral A after",
     "status": "Status",
+    "first_goal": "Balanced for",
     "moves": "Moves",
     "moved": "Moved",
     "re_landed": "Re-landed",
