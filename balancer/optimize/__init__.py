@@ -371,7 +371,7 @@ def _first_goal_on_lines(
         spreads = [pattern_spread_va(layout, p) for p in seeds]
         reached = [p for p, v in zip(seeds, spreads, strict=True) if v <= goal_va]
         # A fresh layout that missed the goal starts the solver from the plain heuristic answer
-        # (measured quicker there than from the searched one).
+        # (measured quicker there than from the searched one), unless the split search runs.
         if reached or layout.count_moves:
             seed = reached[0] if reached else seeds[spreads.index(min(spreads))]
         if reached and options.max_moves is None:
@@ -381,6 +381,8 @@ def _first_goal_on_lines(
             stage = StageResult("spread", value, floor, True, tuple(seed), spent, "bound")
             return _fewer_changes(layout, options, stage), model, goals
         if not reached and options.max_moves is None and target is None:
+            # Re-deciding many units at once: near-perfect splits of odd loads, and with few
+            # distinct loads every line assignment (the least spread, so a proof).
             split = split_search_lines(
                 layout,
                 seeds[spreads.index(min(spreads))],

@@ -4,6 +4,11 @@ Karmarkar & Karp, "The differencing method of set partitioning", UCB/CSD 82/113 
 k-way form combines the two partial partitions with the largest spread, pairing the heaviest
 subset of one with the lightest of the other. Graham (1969) bounds greedy at 4/3 − 1/(3m).
 On panels they pick lines only (no space numbers); the exact model seeds from the better one.
+
+Searches improve such a choice: single and paired changes, then (``split_search_lines``) meet in
+the middle over many units at once (Horowitz & Sahni, JACM 21(2), 1974, from memory), which
+finds near-perfect splits of odd loads and, when the loads take few distinct sizes, tries every
+line assignment of the relaxation.
 """
 
 from __future__ import annotations
@@ -536,6 +541,8 @@ def _pair_windows(
     gap_second = second.load[:, 0] - second.load[:, 1]
     order = np.argsort(gap_second, kind="stable")
     ordered = gap_second[order]
+    # a little wider than asked, so rounding never leaves a pair out; the spread decides
+    radius += 1e-9 * (1.0 + float(np.abs(base).max()) + abs(radius))
     low = np.searchsorted(ordered, -gap_first - radius, side="left")
     high = np.searchsorted(ordered, -gap_first + radius, side="right")
     return order, low, high
