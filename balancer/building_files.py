@@ -314,6 +314,15 @@ def write_building_sheets(
         if feed is not None:
             feeder = building.feeder_circuit(feed)
             ws.append([f"Fed from {feed.source}, circuit {feeder.first_space or feeder.id}"])
+        leg = panel.system.high_leg
+        if leg:
+            to_neutral_v = abs(panel.system.voltage_phasor(leg))
+            ws.append(
+                [
+                    f"High leg: line {leg}, {to_neutral_v:.0f} V to neutral; no line-to-neutral "
+                    "loads on it; marked orange or by other effective means (NEC 110.15)."
+                ]
+            )
         marked = shaded.get(panel.name, frozenset())
         if marked:
             ws.append(["Shaded rows: breakers that move (see the Work order sheet)."])

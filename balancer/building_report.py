@@ -465,7 +465,15 @@ def write_building_workbook(
             words = max(len(w) for w in str(header.value).split())
             width = min(36, max(words, longest) + 2)
             sheet.column_dimensions[header.column_letter].width = width
-        sheet.row_dimensions[1].height = 30  # room for a header on two lines
+        # room for the longest header wrapped in its column
+        wrapped = max(
+            -(
+                -len(str(cell.value))
+                // max(1, int(sheet.column_dimensions[cell.column_letter].width) - 2)
+            )
+            for cell in sheet[1]
+        )
+        sheet.row_dimensions[1].height = 14 * max(1, wrapped) + 4
         sheet.freeze_panes = "B2"
         print_setup(sheet, landscape=True, title_rows="1:1")
     if result is not None:
