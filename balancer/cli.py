@@ -264,10 +264,24 @@ def build_parser() -> argparse.ArgumentParser:
     )
     balance.add_argument(
         "--objective",
-        choices=("spread", "line", "neutral"),
+        choices=("spread", "line", "neutral", "transformer"),
         default="spread",
-        help="first goal: phase VA spread (default), worst line current, or neutral current; "
-        "the others break ties",
+        help="first goal: phase VA spread (default), worst line current, neutral current, or "
+        "the heaviest winding of the supply transformer (needs --bank-kva); the others break "
+        "ties",
+    )
+    balance.add_argument(
+        "--bank-kva",
+        type=float,
+        metavar="KVA",
+        help="with --objective transformer: the supply transformer's rating (a bank: the sum "
+        "of its units); delta-wye for a wye panel, a delta bank for a delta or high-leg panel, "
+        "single-phase for 120/240 V",
+    )
+    balance.add_argument(
+        "--open-delta",
+        action="store_true",
+        help="with --objective transformer: the delta bank is open (two units)",
     )
     _field_options(balance)
     _panel_options(balance)
@@ -374,10 +388,12 @@ def balance_file(
     overrides: PanelOverrides,
     demand_for: Callable[[Panel], Any] | None = None,
     field_run: Any = None,
+    bank: tuple[float, bool] | None = None,
 ) -> tuple[Any, Path]:
     """Read → balance → write; returns the result and the workbook written.
 
     ``demand_for`` computes the demand and feeder check of the revised panel for the workbook.
+    ``bank`` (kVA, open delta) describes the supply transformer for objective ``transformer``.
     """
     output = output or default_output(schedule)
     if _same_file(schedule, output):
@@ -389,6 +405,13 @@ def balance_file(
     panel = read_schedule(schedule, overrides)
     if field_run is not None:
         panel = field_run.prepare(panel)
+    if bank is not None:
+        from dataclasses import replace
+
+        from balancer.transformer import loading_terms, supply_bank
+
+        supply = supply_bank(panel.system, bank[0], bank[1], "--bank-kva")
+        options = replace(options, transformer_terms=loading_terms(supply))
     # the optimiser and writer load only once the schedule is known to be good
     from balancer.io.writer import write_workbook
     from balancer.optimize import balance
@@ -405,6 +428,7 @@ def balance_json(result: Any, written: Path) -> dict[str, Any]:
     return {
         "panel": report.panel_to_dict(result.after_panel),
         "status": result.status.value,
+        "first_goal": result.first_goal,
         "engine": result.engine,
         "tolerance_va": result.tolerance_va,
         "lower_bound_spread_va": result.lower_bound_spread_va,
@@ -445,12 +469,20 @@ def balance_text(
     lines += ["", *report.loads_table(before, title="Before")]
     lines += ["", *report.loads_table(after, title="After")]
     status = result.status.value
-    lines += [
-        "",
-        f"Result: {status} ({result.engine}); spread {after.spread_va:,.1f} VA, "
-        f"lower bound {result.lower_bound_spread_va:,.1f} VA, tolerance {result.tolerance_va:g} VA"
-        + (f", gap {result.gap_va:,.1f} VA" if status != "optimal" else ""),
-    ]
+    if result.first_goal == "spread":
+        lines += [
+            "",
+            f"Result: {status} ({result.engine}); spread {after.spread_va:,.1f} VA, lower bound "
+            f"{result.lower_bound_spread_va:,.1f} VA, tolerance {result.tolerance_va:g} VA"
+            + (f", gap {result.gap_va:,.1f} VA" if status != "optimal" else ""),
+        ]
+    else:
+        goal = report.GOAL_NAMES.get(result.first_goal, result.first_goal)
+        lines += [
+            "",
+            f"Result: {status} ({result.engine}) on the first goal, {goal} (see the notes); "
+            f"spread {after.spread_va:,.1f} VA, a tie-breaker here",
+        ]
     if result.moves:
         lines += ["", f"Moves ({len(result.moves)}):"]
         for m in result.moves:
@@ -491,7 +523,31 @@ def _options(args: argparse.Namespace) -> Any:
     )
 
 
+def _bank(args: argparse.Namespace) -> tuple[float, bool] | None:
+    """The supply transformer asked for, checked against the objective."""
+    if args.objective != "transformer":
+        if args.bank_kva is not None or args.open_delta:
+            raise ScheduleError(
+                Problem("--bank-kva", "the supply transformer is used by --objective transformer")
+            )
+        return None
+    if args.bank_kva is None:
+        raise ScheduleError(
+            Problem("--bank-kva", "--objective transformer needs the transformer's kVA rating")
+        )
+    if batch.wanted(args):
+        raise ScheduleError(
+            Problem(
+                "--objective",
+                "transformer applies to one schedule at a time (each panel has its own supply); "
+                "for panels fed from panels use `balancer building`",
+            )
+        )
+    return float(args.bank_kva), bool(args.open_delta)
+
+
 def run_balance(args: argparse.Namespace) -> int:
+    bank = _bank(args)
     if batch.wanted(args):
         files = [args.schedule, *args.more]
         return batch.command(
@@ -515,6 +571,7 @@ def run_balance(args: argparse.Namespace) -> int:
         _overrides(args),
         demand_for=lambda panel: _demand(args, panel),
         field_run=field_run,
+        bank=bank,
     )
     demand = _demand(args, result.after_panel)
     pdf = _pdf_path(args, "-balanced")

@@ -10,6 +10,13 @@ from typing import Any
 from balancer.analysis import Loads
 from balancer.panel import Panel
 
+GOAL_NAMES = {
+    "spread": "the phase spread",
+    "line": "the worst line current",
+    "neutral": "the neutral current",
+    "transformer": "the supply transformer's heaviest winding",
+}
+
 SAFETY_NOTE = (
     "An engineering aid, not a design approval. Work inside a panelboard is for qualified "
     "persons, with the equipment de-energised and absence of voltage verified with a meter. "

@@ -95,6 +95,7 @@ class BalanceResult:
     solve_seconds: float = 0.0
     notes: tuple[str, ...] = ()
     tradeoff: tuple[TradeoffRow, ...] = field(default=())
+    first_goal: str = "spread"  # what the status speaks of: spread, line, neutral, transformer
 
     @property
     def gap_va(self) -> float:

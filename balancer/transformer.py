@@ -31,7 +31,7 @@ from typing import Literal
 
 from balancer.errors import Problem, ScheduleError
 from balancer.result import CurrentTerm
-from balancer.systems import Line, System
+from balancer.systems import Line, System, find_system
 
 Connection = Literal[
     "delta-wye", "wye-wye", "single-phase", "delta-delta", "wye-delta", "open-delta"
@@ -580,3 +580,43 @@ def loading_terms(transformer: Transformer) -> tuple[CurrentTerm, ...]:
             name = "-".join(winding.secondary_lines) + (f" part {part + 1}" if part else "")
             terms.append(CurrentTerm(name, weights, voltage / rating_va * 100.0))
     return tuple(terms)
+
+
+def supply_bank(
+    system: System, kva: float, open_delta: bool = False, where: str = ""
+) -> Transformer:
+    """The transformer that usually supplies a panel of ``system``, for balancing one panel
+    against its windings: delta-wye for a wye, a delta bank (closed, or open with
+    ``open_delta``) for a delta or high-leg delta, single-phase for 120/240 V. Only the
+    secondary matters to the loading, so the primary is a nominal 480 V.
+
+    Raises
+    ------
+    ScheduleError
+        When no single such transformer supplies the system (two lines of a wye) or the rating
+        is not a positive number.
+    """
+    if system.phase_count != 3 and abs(
+        system.voltage_phasor(system.lines[0]) + system.voltage_phasor(system.lines[1])
+    ) > 1e-6 * abs(system.voltage_phasor(system.lines[0])):
+        raise ScheduleError(
+            Problem(
+                where,
+                f"a {system.designation} panel takes two lines of a wye, so no one transformer "
+                "winding supplies it; balance it for the spread, the worst line or the neutral",
+            )
+        )
+    delta_secondary = system.phase_count == 3 and (not system.neutral or system.high_leg)
+    if open_delta and not delta_secondary:
+        raise ScheduleError(
+            Problem(where, f"an open delta bank supplies a delta system, not {system.designation}")
+        )
+    if system.phase_count == 3:
+        connection = (
+            "open-delta" if open_delta else "delta-delta" if delta_secondary else "delta-wye"
+        )
+        primary = find_system("480 delta")
+    else:
+        connection, primary = "single-phase", find_system("480Y/277")
+    assert primary is not None
+    return make_transformer("supply", kva, primary, system, connection, where)

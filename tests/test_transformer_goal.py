@@ -161,3 +161,63 @@ def test_three_wire_delta_secondary_goal_in_a_tree() -> None:
     after = roll_up(result.after).feeders["D"].transformer_loading_pct
     assert after is not None
     assert least - 1e-9 <= after <= least * (1 + POLYGON_ERROR) + 1e-9
+
+
+HIGH_LEG_SAMPLE = ROOT / "sample_schedules" / "machine-shop-240-120-high-leg.xlsx"
+
+
+def test_balance_command_for_the_supply_bank(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    import json
+
+    from balancer.cli import main
+    from balancer.io.reader import read_schedule
+    from balancer.transformer import supply_bank
+
+    out = tmp_path / "shop.xlsx"
+    args = ["balance", str(HIGH_LEG_SAMPLE), "-o", str(out), "--no-tradeoff", "--json"]
+    assert main([*args, "--objective", "transformer", "--bank-kva", "75"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["first_goal"] == "transformer"
+    assert data["status"] == "optimal"
+    assert any("heaviest winding" in n for n in data["notes"])
+    bank = supply_bank(get_system("240/120"), 75)
+    assert bank.connection == "delta-delta"
+    found = loading_pct(bank, _currents(read_schedule(HIGH_LEG_SAMPLE)))
+    balanced = loading_pct(bank, _currents(read_schedule(out)))
+    assert balanced < found
+    # the spread goal on the same panel leaves the bank's heaviest winding higher
+    assert main([*args, "-o", str(tmp_path / "spread.xlsx")]) == 0
+    capsys.readouterr()
+    by_spread = loading_pct(bank, _currents(read_schedule(tmp_path / "spread.xlsx")))
+    assert balanced < by_spread
+
+
+@pytest.mark.parametrize(
+    ("extra", "message"),
+    [
+        (["--objective", "transformer"], "needs the transformer's kVA rating"),
+        (["--bank-kva", "75"], "used by --objective transformer"),
+        (["--objective", "transformer", "--bank-kva", "-5"], "must be a positive number"),
+    ],
+)
+def test_balance_command_refuses_an_incomplete_supply_bank(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], extra: list[str], message: str
+) -> None:
+    from balancer.cli import main
+
+    out = tmp_path / "x.xlsx"
+    assert main(["balance", str(HIGH_LEG_SAMPLE), "-o", str(out), *extra]) == 2
+    assert message in capsys.readouterr().err
+    assert not out.exists()
+
+
+def test_no_single_bank_supplies_two_lines_of_a_wye() -> None:
+    from balancer.errors import ScheduleError
+    from balancer.transformer import supply_bank
+
+    with pytest.raises(ScheduleError, match="two lines of a wye"):
+        supply_bank(get_system("120/208 network"), 25)
+    with pytest.raises(ScheduleError, match="open delta bank supplies a delta system"):
+        supply_bank(get_system("208Y/120"), 50, open_delta=True)

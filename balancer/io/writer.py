@@ -342,6 +342,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     _section(ws, row, "Result")
     facts: list[tuple[str, Any, str | None]] = [
         ("Status", STATUS_TEXT[result.status], None),
+        ("First goal", result.first_goal, None),
         ("Engine", result.engine, None),
         ("Lower bound on spread VA", result.lower_bound_spread_va, VA),
         ("Gap to lower bound VA", result.gap_va, VA),

@@ -340,6 +340,7 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         moves=moves,
         solve_seconds=time.perf_counter() - begin,
         notes=tuple(notes),
+        first_goal=next(g for g in goals if g != "moves"),
     )
 
 
