@@ -483,6 +483,12 @@ def balance_text(
             f"Result: {status} ({result.engine}) on the first goal, {goal} (see the notes); "
             f"spread {after.spread_va:,.1f} VA, a tie-breaker here",
         ]
+    if result.after_panel.system.high_leg and result.first_goal == "spread":
+        lines += report.wrap(
+            f"High leg: the 120 V loads on A and C share one winding of the supply bank "
+            f"(neutral after: {after.neutral_a:.1f} A); --objective transformer --bank-kva KVA "
+            "balances for that winding instead."
+        )
     if result.moves:
         lines += ["", f"Moves ({len(result.moves)}):"]
         for m in result.moves:
