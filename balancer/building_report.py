@@ -8,6 +8,7 @@ import json
 import os
 import textwrap
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
 from pathlib import Path
 
 from balancer.building import (
@@ -20,6 +21,7 @@ from balancer.building import (
 )
 from balancer.building_files import index_file, read_building
 from balancer.errors import Problem, ScheduleError
+from balancer.panel import Panel
 from balancer.result import BalanceOptions, SolveStatus
 from balancer.systems import Line
 
@@ -392,6 +394,60 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
     return rows
 
 
+def pdf_work_rows(result: BuildingResult) -> dict[str, list[list[object]]]:
+    """Per panel that changes, its work-order rows for the printout (the columns of
+    :data:`balancer.io.pdf.WORK_HEADER`): breaker steps, then feeder conductors to re-land."""
+    from balancer.workorder import ACTION_TEXT, work_order
+
+    def place(spaces: Sequence[int], lines: Sequence[str]) -> str:
+        return f"{', '.join(map(str, spaces))} ({'-'.join(lines)})" if spaces else "out"
+
+    out: dict[str, list[list[object]]] = {}
+    for name in reversed(result.before.order()):
+        outcome = result.outcomes[name]
+        if not (outcome.moves or outcome.swapped_feeds):
+            continue
+        order = work_order(result.before.panel(name), result.after.panel(name))
+        rows: list[list[object]] = [
+            [
+                step.number,
+                ACTION_TEXT[step.action],
+                item.circuit_id,
+                item.description,
+                place(item.from_spaces, item.from_lines),
+                place(item.to_spaces, item.to_lines),
+                "____",
+            ]
+            for step in order.steps
+            for item in step.items
+        ]
+        after = result.after.panel(name)
+        for number, fed in enumerate(outcome.swapped_feeds, start=len(order.steps) + 1):
+            feed = result.after.feed_of(fed)
+            assert feed is not None
+            circuit = after.circuit(feed.circuit_id)
+            where = place(circuit.spaces, after.lines_of(circuit))
+            text = f"feeder to {fed}: exchange its two line conductors"
+            rows.append([number, "Re-land conductors", feed.circuit_id, text, where, where, "____"])
+        out[name] = rows
+    return out
+
+
+def printed_panels(building: Building, figures: RollUp) -> list[Panel]:
+    """The panels for a printed directory, service first: each feeder breaker shows the load
+    of everything it feeds (split evenly over its poles), not the schedule's own figure."""
+    out = []
+    for name in reversed(building.order()):
+        panel = building.panel(name)
+        fed = {f.circuit_id: f.panel for f in building.fed_from(name)}
+        circuits = [
+            replace(c, load_va=figures.panels[fed[c.id]].tree_branch_va) if c.id in fed else c
+            for c in panel.circuits
+        ]
+        out.append(panel.with_circuits(circuits))
+    return out
+
+
 def write_building_workbook(
     path: str | Path,
     building: Building,
@@ -539,6 +595,18 @@ def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -
         help="workbook to write (.xlsx): the figures, and with --balance the moves, work order "
         "and revised building (default with --balance: <index>-balanced.xlsx beside the index)",
     )
+    parser.add_argument(
+        "--pdf",
+        nargs="?",
+        const=True,
+        default=None,
+        metavar="PATH",
+        help="also write a printout: summary and cautions, every panel's circuit directory and, "
+        "with --balance, its work order (default: beside the workbook or the index)",
+    )
+    parser.add_argument(
+        "--paper", choices=("letter", "a4"), default="letter", help="PDF page size (default letter)"
+    )
     parser.add_argument("--json", action="store_true", help="print one JSON object instead")
     parser.add_argument(
         "--engine", choices=("highs", "cbc"), default="highs", help="MILP engine (default: highs)"
@@ -575,12 +643,19 @@ def run_command(args: argparse.Namespace) -> int:
     if args.output is None and args.balance:
         index = index_file(args.index)
         args.output = index.with_name(f"{index.stem}-balanced.xlsx")
-    if args.output is not None:
-        sources = {Path(p.source).resolve() for p in building.panels if p.source}
-        sources.add(Path(args.index).resolve())
-        if args.output.resolve() in sources:
+    sources = {Path(p.source).resolve() for p in building.panels if p.source}
+    sources.add(index_file(args.index).resolve())
+    if args.output is not None and args.output.resolve() in sources:
+        raise ScheduleError(
+            Problem("--output", f"{args.output} is an input; balancer never writes its input")
+        )
+    pdf = None
+    if args.pdf is not None:
+        pdf = Path(args.pdf) if args.pdf is not True else None
+        pdf = pdf or (args.output or index_file(args.index)).with_suffix(".pdf")
+        if pdf.resolve() in sources or (args.output and pdf.resolve() == args.output.resolve()):
             raise ScheduleError(
-                Problem("--output", f"{args.output} is an input; balancer never writes its input")
+                Problem("--pdf", f"{pdf} is an input or the workbook; choose another name")
             )
     before = roll_up(building)
     result = None
@@ -615,4 +690,21 @@ def run_command(args: argparse.Namespace) -> int:
         if not args.json:
             what = "Figures, work order and revised schedules" if result else "Figures"
             print(f"\n{what} written to {written}")
+    if pdf is not None:
+        from balancer.io.pdf import write_building_pdf
+
+        panels = printed_panels(
+            result.after if result else building, result.after_figures if result else before
+        )
+        printed = write_building_pdf(
+            pdf,
+            f"Building {building.name}" + (", revised" if result else ""),
+            summary_lines(building, before, result),
+            panels,
+            pdf_work_rows(result) if result else {},
+            paper=args.paper,
+            inputs=[*sources, *([args.output] if args.output else [])],
+        )
+        if not args.json:
+            print(f"Printout written to {printed}")
     return 0

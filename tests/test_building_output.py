@@ -251,3 +251,37 @@ def test_building_balance_writes_beside_the_index_by_default(
     written = tmp_path / "site-balanced.xlsx"
     assert f"written to {written}" in capsys.readouterr().out
     assert read_building(written).panel("MDP").spaces == 42
+
+
+def test_building_printout_has_every_directory_and_the_work_orders(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from pypdf import PdfReader
+
+    out = tmp_path / "site.xlsx"
+    args = ["building", str(DEMO_BOOK), "--balance", "-o", str(out), "--time-limit", "20"]
+    assert main([*args, "--pdf", "--paper", "a4"]) == 0
+    pdf = tmp_path / "site.pdf"
+    assert f"Printout written to {pdf}" in capsys.readouterr().out
+    reader = PdfReader(pdf)
+    text = "\n".join(page.extract_text() for page in reader.pages)
+    for name in ("MDP", "H1", "L1", "L2", "K1", "W1"):
+        assert f"Circuit directory, panel {name}" in text
+    assert "Work order, panel MDP" in text
+    assert "Work order, panel L2" not in text  # L2 keeps its layout
+    assert "qualified persons" in text
+    width, height = reader.pages[0].mediabox.width, reader.pages[0].mediabox.height
+    assert (round(float(width)), round(float(height))) == (595, 842)  # A4 in points
+    # the feeder breakers in the directory carry what they feed
+    building = read_building(out)
+    feeder = building.panel("MDP").circuit(building.feed_of("W1").circuit_id)  # type: ignore[union-attr]
+    assert feeder.load_va == 0.0  # the schedule keeps its own figure ...
+    total = roll_up(building).panels["W1"].tree_branch_va
+    assert f"{total / 3:,.0f}" in text  # ... the printout shows a third of W1 on each pole
+
+
+def test_building_printout_refuses_an_input(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    assert main(["building", str(DEMO_BOOK), "--pdf", str(DEMO_BOOK)]) == 2
+    assert "input" in capsys.readouterr().err

@@ -7,7 +7,7 @@ and copied.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from functools import cache
 from pathlib import Path
@@ -439,22 +439,30 @@ def _directory_pages(pages: list[_Page], make: Any, panel: Panel) -> None:
         pages.append(page)
 
 
+WORK_HEADER = ("Step", "Action", "Circuit", "Description", "From", "To", "Done")
+
+
 def _work_order_pages(pages: list[_Page], make: Any, result: BalanceResult) -> None:
-    rows = _work_order_table(result)
-    header = ["Step", "Action", "Circuit", "Description", "From", "To", "Done"]
+    _work_pages(pages, make, result.after_panel.name, _work_order_table(result))
+
+
+def _work_pages(
+    pages: list[_Page], make: Any, panel_name: str, rows: Sequence[Sequence[Any]]
+) -> None:
+    """Work-order pages: rows in the columns of ``WORK_HEADER``, 34 to a page."""
     width = pages[0].width_in - 2 * MARGIN_IN
     fixed = [0.45, 1.9, 0.6, 1.0, 1.0, 0.6]
     widths = [fixed[0], fixed[1], fixed[2], width - sum(fixed), fixed[3], fixed[4], fixed[5]]
     per_page = 34
     for start in range(0, max(1, len(rows)), per_page):
         page = make()
-        page.heading(f"Work order, panel {result.after_panel.name}")
+        page.heading(f"Work order, panel {panel_name}")
         page.paragraph(
             "Do the steps in order. Before each: de-energise the panel or the circuit, lock out, "
             "verify dead with a meter. After each: re-label the directory; initial the Done column."
         )
         page.y_in += 0.05
-        page.table(header, rows[start : start + per_page], widths, size=8)
+        page.table(WORK_HEADER, rows[start : start + per_page], widths, size=8)
         pages.append(page)
 
 
@@ -590,6 +598,20 @@ def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]
         pages.append(page)
 
 
+def _numbered(pages: Sequence[_Page]) -> list[Figure]:
+    """The pages' figures, each with "page n of N" in its corner."""
+    for number, page in enumerate(pages, start=1):
+        page.text(
+            page.width_in - MARGIN_IN,
+            page.height_in - 0.3,
+            f"page {number} of {len(pages)}",
+            size=7,
+            color=_GREY,
+            ha="right",
+        )
+    return [page.fig for page in pages]
+
+
 def pdf_pages(
     panel: Panel,
     loads: Loads,
@@ -618,16 +640,7 @@ def pdf_pages(
 
         extra.insert(0, ("Demand load and feeder check", demand_sheet_rows(demand)))
     _section_pages(pages, make, extra)
-    for number, page in enumerate(pages, start=1):
-        page.text(
-            page.width_in - MARGIN_IN,
-            page.height_in - 0.3,
-            f"page {number} of {len(pages)}",
-            size=7,
-            color=_GREY,
-            ha="right",
-        )
-    return [page.fig for page in pages]
+    return _numbered(pages)
 
 
 def write_pdf(
@@ -680,5 +693,61 @@ def write_pdf(
             ) as pdf:
                 for fig in figures:
                     pdf.savefig(fig)
+
+    return _atomic(path, write)
+
+
+def write_building_pdf(
+    path: Path | str,
+    title: str,
+    summary: Sequence[str],
+    panels: Sequence[Panel],
+    work: Mapping[str, Sequence[Sequence[Any]]],
+    *,
+    paper: Paper = "letter",
+    inputs: Sequence[str | Path] = (),
+) -> Path:
+    """A building's printout, written atomically: a summary page with the cautions, then for
+    every panel its circuit directory and, when it changes, its work order (rows in the columns
+    of ``WORK_HEADER``, from :func:`balancer.building_report.pdf_work_rows`).
+
+    ``panels`` are as they should be posted: the revised layout after balancing. ``inputs``
+    are refused as ``path``.
+    """
+    from matplotlib import rc_context
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    if paper not in PAPER_IN:
+        raise ValueError(f"paper must be one of {', '.join(PAPER_IN)}, not {paper!r}")
+    path = Path(path)
+    refuse_input_path(path, *inputs)
+
+    def figures() -> list[Figure]:
+        pages: list[_Page] = []
+        first = _new_page(paper, panels[0])
+        first.heading(title)
+        for line in summary:
+            first.paragraph(line)
+            first.y_in += 0.02
+        first.y_in += 0.15
+        _cautions(first)
+        pages.append(first)
+        for panel in panels:
+
+            def make(panel: Panel = panel) -> _Page:
+                return _new_page(paper, panel)
+
+            _directory_pages(pages, make, panel)
+            rows = work.get(panel.name, ())
+            if rows:
+                _work_pages(pages, make, panel.name, rows)
+        return _numbered(pages)
+
+    def write(tmp: Path) -> None:
+        metadata = {"Title": title, "Creator": "balancer"}
+        fonts = rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"})
+        with fonts, PdfPages(tmp, metadata=metadata) as pdf:
+            for fig in figures():
+                pdf.savefig(fig)
 
     return _atomic(path, write)
