@@ -21,6 +21,7 @@ from balancer.building import (
 )
 from balancer.building_files import index_file, read_building
 from balancer.errors import Problem, ScheduleError
+from balancer.io.pdf import add_pdf_arguments
 from balancer.panel import Panel
 from balancer.result import BalanceOptions, SolveStatus
 from balancer.systems import Line
@@ -397,10 +398,8 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
 def pdf_work_rows(result: BuildingResult) -> dict[str, list[list[object]]]:
     """Per panel that changes, its work-order rows for the printout (the columns of
     :data:`balancer.io.pdf.WORK_HEADER`): breaker steps, then feeder conductors to re-land."""
-    from balancer.workorder import ACTION_TEXT, work_order
-
-    def place(spaces: Sequence[int], lines: Sequence[str]) -> str:
-        return f"{', '.join(map(str, spaces))} ({'-'.join(lines)})" if spaces else "out"
+    from balancer.io.pdf import place_text, work_rows
+    from balancer.workorder import work_order
 
     out: dict[str, list[list[object]]] = {}
     for name in reversed(result.before.order()):
@@ -408,25 +407,13 @@ def pdf_work_rows(result: BuildingResult) -> dict[str, list[list[object]]]:
         if not (outcome.moves or outcome.swapped_feeds):
             continue
         order = work_order(result.before.panel(name), result.after.panel(name))
-        rows: list[list[object]] = [
-            [
-                step.number,
-                ACTION_TEXT[step.action],
-                item.circuit_id,
-                item.description,
-                place(item.from_spaces, item.from_lines),
-                place(item.to_spaces, item.to_lines),
-                "____",
-            ]
-            for step in order.steps
-            for item in step.items
-        ]
+        rows: list[list[object]] = work_rows(order)
         after = result.after.panel(name)
         for number, fed in enumerate(outcome.swapped_feeds, start=len(order.steps) + 1):
             feed = result.after.feed_of(fed)
             assert feed is not None
             circuit = after.circuit(feed.circuit_id)
-            where = place(circuit.spaces, after.lines_of(circuit))
+            where = place_text(circuit.spaces, after.lines_of(circuit))
             text = f"feeder to {fed}: exchange its two line conductors"
             rows.append([number, "Re-land conductors", feed.circuit_id, text, where, where, "____"])
         out[name] = rows
@@ -595,17 +582,10 @@ def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -
         help="workbook to write (.xlsx): the figures, and with --balance the moves, work order "
         "and revised building (default with --balance: <index>-balanced.xlsx beside the index)",
     )
-    parser.add_argument(
-        "--pdf",
-        nargs="?",
-        const=True,
-        default=None,
-        metavar="PATH",
-        help="also write a printout: summary and cautions, every panel's circuit directory and, "
-        "with --balance, its work order (default: beside the workbook or the index)",
-    )
-    parser.add_argument(
-        "--paper", choices=("letter", "a4"), default="letter", help="PDF page size (default letter)"
+    add_pdf_arguments(
+        parser,
+        "a printout: summary and cautions, every panel's circuit directory and, with "
+        "--balance, its work order (default: beside the workbook or the index)",
     )
     parser.add_argument("--json", action="store_true", help="print one JSON object instead")
     parser.add_argument(

@@ -12,6 +12,7 @@ from typing import Any
 from balancer import batch, building_report, report
 from balancer.analysis import analyze
 from balancer.errors import BalancerError, Problem, ScheduleError
+from balancer.io.pdf import add_pdf_arguments
 from balancer.io.reader import PanelOverrides, read_schedule
 from balancer.panel import Panel
 
@@ -127,17 +128,10 @@ def _demand_options(parser: argparse.ArgumentParser) -> None:
 
 def _output_options(parser: argparse.ArgumentParser) -> None:
     group = parser.add_argument_group("printout and terminal")
-    group.add_argument(
-        "--pdf",
-        nargs="?",
-        const=True,
-        default=None,
-        metavar="PATH",
-        help="also write a PDF (summary, circuit directory, work order, cautions); "
-        "default name beside the schedule",
-    )
-    group.add_argument(
-        "--paper", choices=("letter", "a4"), default="letter", help="PDF page size (default letter)"
+    add_pdf_arguments(
+        group,
+        "a PDF (summary, circuit directory, work order, cautions); default name beside the "
+        "schedule",
     )
     group.add_argument(
         "--no-color", action="store_true", help="plain text only, even on a colour terminal"

@@ -29,6 +29,7 @@ if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
     from balancer.demand import DemandResult
+    from balancer.workorder import WorkOrder
 
 Paper = Literal["letter", "a4"]
 PAPER_IN: dict[Paper, tuple[float, float]] = {"letter": (8.5, 11.0), "a4": (8.27, 11.69)}
@@ -467,44 +468,32 @@ def _work_pages(
 
 
 def _work_order_table(result: BalanceResult) -> list[list[Any]]:
-    """Steps from the work-order planner; straight moves from the result if it is unavailable."""
-    try:
-        from balancer.workorder import ACTION_TEXT, work_order_for
-    except ImportError:
-        work_order_for = None  # type: ignore[assignment]
-    rows: list[list[Any]] = []
-    if work_order_for is not None:
-        order = work_order_for(result)
-        for step in order.steps:
-            for item in step.items:
-                rows.append(
-                    [
-                        step.number,
-                        ACTION_TEXT[step.action],
-                        item.circuit_id,
-                        item.description,
-                        _place(item.from_spaces, item.from_lines),
-                        _place(item.to_spaces, item.to_lines),
-                        "____",
-                    ]
-                )
-        return rows
-    for number, move in enumerate(result.moves, start=1):
-        rows.append(
-            [
-                number,
-                "Move breaker",
-                move.circuit_id,
-                move.description,
-                _place(move.from_spaces, move.from_lines),
-                _place(move.to_spaces, move.to_lines),
-                "____",
-            ]
-        )
-    return rows
+    """The result's steps from the work-order planner, as printed rows."""
+    from balancer.workorder import work_order_for
+
+    return work_rows(work_order_for(result))
 
 
-def _place(spaces: Sequence[int], lines: Sequence[str]) -> str:
+def work_rows(order: WorkOrder) -> list[list[Any]]:
+    """A work order's breaker steps as printed rows, in the columns of ``WORK_HEADER``."""
+    from balancer.workorder import ACTION_TEXT
+
+    return [
+        [
+            step.number,
+            ACTION_TEXT[step.action],
+            item.circuit_id,
+            item.description,
+            place_text(item.from_spaces, item.from_lines),
+            place_text(item.to_spaces, item.to_lines),
+            "____",
+        ]
+        for step in order.steps
+        for item in step.items
+    ]
+
+
+def place_text(spaces: Sequence[int], lines: Sequence[str]) -> str:
     if not spaces:
         return "not in panel"
     return f"{', '.join(map(str, spaces))} ({'-'.join(lines)})"
@@ -596,6 +585,17 @@ def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]
                 page.data_row(values, widths, size=size, align=align)
             previous = "data" if role == "header" else role
         pages.append(page)
+
+
+def add_pdf_arguments(parser: Any, what: str) -> None:
+    """``--pdf [PATH]`` and ``--paper`` on a command's argument parser (or group); ``what``
+    says what the printout holds and where it goes by default."""
+    parser.add_argument(
+        "--pdf", nargs="?", const=True, default=None, metavar="PATH", help=f"also write {what}"
+    )
+    parser.add_argument(
+        "--paper", choices=tuple(PAPER_IN), default="letter", help="PDF page size (default letter)"
+    )
 
 
 def _numbered(pages: Sequence[_Page]) -> list[Figure]:
