@@ -16,7 +16,7 @@ from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, replace
 from io import BytesIO
 from pathlib import Path
-from typing import TYPE_CHECKING, Literal, TextIO
+from typing import TYPE_CHECKING, Any, Literal, TextIO
 
 from balancer.errors import BalancerError
 from balancer.io.reader import PanelOverrides
@@ -24,6 +24,9 @@ from balancer.result import BalanceOptions
 
 if TYPE_CHECKING:
     from concurrent.futures import Future
+
+    from balancer.demand import DemandOptions
+    from balancer.panel import Panel
 
 Mode = Literal["check", "balance"]
 SCHEDULE_SUFFIXES = (".xlsx", ".xlsm", ".csv")
@@ -41,6 +44,7 @@ class Task:
     options: BalanceOptions
     overrides: PanelOverrides
     output: Path | None = None  # revised workbook (balance mode)
+    demand: DemandOptions | None = None  # demand load and feeder check of the (revised) panel
 
 
 @dataclass(frozen=True, slots=True)
@@ -55,6 +59,11 @@ class Row:
     spread_before_va: float | None = None
     spread_after_va: float | None = None
     moves: int | None = None
+    demand_va: float | None = None
+    feeder_required_a: float | None = None  # the heaviest line's sizing current
+    min_ocpd_a: int | None = None
+    rating_a: float | None = None  # main or bus rating the feeder is checked against
+    spare_pct: float | None = None
     output: str = ""
     error: str = ""
     exit_status: int = 0
@@ -103,12 +112,15 @@ def run_task(task: Task) -> Row:
         panel = read_schedule(task.path, task.overrides)
         if task.mode == "check":
             loads = analyze(panel)
-            return Row(
-                name,
-                panel.name,
-                "checked",
-                imbalance_before_pct=loads.imbalance_pct,
-                spread_before_va=loads.spread_va,
+            return replace(
+                Row(
+                    name,
+                    panel.name,
+                    "checked",
+                    imbalance_before_pct=loads.imbalance_pct,
+                    spread_before_va=loads.spread_va,
+                ),
+                **_demand_fields(panel, task.demand),
                 seconds=time.perf_counter() - start,
             )
         from balancer.io.writer import write_workbook
@@ -122,17 +134,25 @@ def run_task(task: Task) -> Row:
             raise ScheduleError(
                 Problem(str(output), "is the input; balancer never writes its input")
             )
-        written = write_workbook(result, output)
-        return Row(
-            name,
-            panel.name,
-            result.status.value,
-            imbalance_before_pct=result.before.imbalance_pct,
-            imbalance_after_pct=result.after.imbalance_pct,
-            spread_before_va=result.before.spread_va,
-            spread_after_va=result.after.spread_va,
-            moves=len(result.moves),
-            output=str(written),
+        demand = None
+        if task.demand is not None:
+            from balancer.demand import compute_demand
+
+            demand = compute_demand(result.after_panel, task.demand)
+        written = write_workbook(result, output, demand=demand)
+        return replace(
+            Row(
+                name,
+                panel.name,
+                result.status.value,
+                imbalance_before_pct=result.before.imbalance_pct,
+                imbalance_after_pct=result.after.imbalance_pct,
+                spread_before_va=result.before.spread_va,
+                spread_after_va=result.after.spread_va,
+                moves=len(result.moves),
+                output=str(written),
+            ),
+            **_demand_fields(result.after_panel, task.demand, demand),
             seconds=time.perf_counter() - start,
         )
     except BalancerError as exc:
@@ -151,6 +171,25 @@ def run_task(task: Task) -> Row:
             exit_status=UNEXPECTED_EXIT,
             seconds=time.perf_counter() - start,
         )
+
+
+def _demand_fields(
+    panel: Panel, options: DemandOptions | None, known: Any = None
+) -> dict[str, Any]:
+    """The summary's demand and feeder figures for ``panel`` (none without ``options``)."""
+    if options is None:
+        return {}
+    from balancer.demand import compute_demand
+
+    demand = known if known is not None else compute_demand(panel, options)
+    feeder = demand.feeder
+    return {
+        "demand_va": demand.total_demand_va,
+        "feeder_required_a": feeder.required_a,
+        "min_ocpd_a": feeder.min_ocpd_a,
+        "rating_a": feeder.rating_a,
+        "spare_pct": feeder.spare_pct,
+    }
 
 
 class Progress:
@@ -231,12 +270,24 @@ def summary_text(rows: Sequence[Row], mode: Mode) -> str:
     header = ["File", "Panel", "Imbalance % before"]
     if mode == "balance":
         header += ["after", "Moves"]
+    with_demand = any(r.demand_va is not None for r in rows)
+    if with_demand:
+        header += ["Demand kVA", "Feeder A", "Min OCPD A", "Rating A", "Spare %"]
     header += ["Status", "Error"]
     table = [header]
     for r in rows:
         cells = [Path(r.file).name, r.panel or "-", _number(r.imbalance_before_pct)]
         if mode == "balance":
             cells += [_number(r.imbalance_after_pct), "-" if r.moves is None else str(r.moves)]
+        if with_demand:
+            kva = None if r.demand_va is None else r.demand_va / 1000.0
+            cells += [
+                _number(kva),
+                _number(r.feeder_required_a),
+                "-" if r.min_ocpd_a is None else str(r.min_ocpd_a),
+                _number(r.rating_a, 0),
+                _number(r.spare_pct, 0),
+            ]
         first_error = r.error.splitlines()[0] if r.error else ""
         cells += [r.status, first_error[:60]]
         table.append(cells)
@@ -271,6 +322,11 @@ def write_summary(path: Path, rows: Sequence[Row], mode: Mode) -> Path:
         "Spread VA before",
         "Spread VA after",
         "Moves",
+        "Demand VA",
+        "Feeder sizing A",
+        "Min OCPD A",
+        "Rating A",
+        "Spare %",
         "Revised workbook",
         "Error",
         "Seconds",
@@ -289,6 +345,11 @@ def write_summary(path: Path, rows: Sequence[Row], mode: Mode) -> Path:
                 r.spread_before_va,
                 r.spread_after_va,
                 r.moves,
+                r.demand_va,
+                r.feeder_required_a,
+                r.min_ocpd_a,
+                r.rating_a,
+                r.spare_pct,
                 r.output,
                 r.error,
                 round(r.seconds, 3),
@@ -307,6 +368,7 @@ def make_tasks(
     options: BalanceOptions,
     overrides: PanelOverrides,
     output_dir: Path | None = None,
+    demand: DemandOptions | None = None,
 ) -> list[Task]:
     """One task per schedule found; revised workbooks go to ``output_dir`` when given."""
     # a name override would give every panel the same name; the rest apply to all files alike
@@ -316,7 +378,7 @@ def make_tasks(
         output = None
         if output_dir is not None:
             output = output_dir / f"{path.stem}{OUTPUT_SUFFIX}.xlsx"
-        tasks.append(Task(path, mode, options, overrides, output))
+        tasks.append(Task(path, mode, options, overrides, output, demand))
     return tasks
 
 
@@ -329,6 +391,7 @@ def command(
     summary: Path | None = None,
     output_dir: Path | None = None,
     json_output: bool = False,
+    demand: DemandOptions | None = None,
 ) -> int:
     """``balancer check|balance`` over many files: run, print the summary, write the workbook."""
     from balancer.errors import Problem, ScheduleError
@@ -337,7 +400,7 @@ def command(
         raise ScheduleError(Problem("--jobs", f"{jobs} must be 1 or more"))
     if output_dir is not None:
         output_dir.mkdir(parents=True, exist_ok=True)
-    tasks = make_tasks(paths, mode, options, overrides, output_dir)
+    tasks = make_tasks(paths, mode, options, overrides, output_dir, demand)
     if not tasks:
         raise ScheduleError(
             Problem(", ".join(str(p) for p in paths), "no .xlsx or .csv schedules found")

@@ -155,23 +155,27 @@ def _bars(args: argparse.Namespace, before: Any, after: Any = None, neutral: boo
     return "\n".join(before_after_bars(before, after, color=color, show_neutral=neutral))
 
 
-def _demand(args: argparse.Namespace, panel: Panel) -> Any:
-    from balancer.demand import DemandOptions, compute_demand
+def _demand_choices(args: argparse.Namespace) -> Any:
+    from balancer.demand import DemandOptions, check_choices
 
     if args.feeder_length is not None and args.feeder_length <= 0:
         raise ScheduleError(Problem("--feeder-length", "must be more than 0 feet"))
+    check_choices(args.rules, args.occupancy)
+    return DemandOptions(
+        rules=args.rules,
+        occupancy=args.occupancy,
+        feeder_length_ft=args.feeder_length,
+        feeder_conductor=args.feeder_conductor,
+        ambient_c=args.ambient,
+        current_carrying=args.conductors,
+    )
+
+
+def _demand(args: argparse.Namespace, panel: Panel) -> Any:
+    from balancer.demand import compute_demand
+
     try:
-        return compute_demand(
-            panel,
-            DemandOptions(
-                rules=args.rules,
-                occupancy=args.occupancy,
-                feeder_length_ft=args.feeder_length,
-                feeder_conductor=args.feeder_conductor,
-                ambient_c=args.ambient,
-                current_carrying=args.conductors,
-            ),
-        )
+        return compute_demand(panel, _demand_choices(args))
     except ValueError as exc:  # ambient or conductor count out of the tables' range
         raise ScheduleError(Problem("--ambient/--conductors", str(exc))) from exc
 
@@ -326,6 +330,7 @@ def run_check(args: argparse.Namespace) -> int:
             args.jobs,
             args.summary,
             json_output=args.json,
+            demand=_demand_choices(args),
         )
     from balancer.field import FieldRun
 
@@ -559,6 +564,7 @@ def run_balance(args: argparse.Namespace) -> int:
             args.summary,
             args.output,
             json_output=args.json,
+            demand=_demand_choices(args),
         )
     from balancer.demand import check_choices, demand_to_dict, loads_section_lines
 

@@ -201,3 +201,32 @@ def test_cli_batch_json(folder: Path, tmp_path: Path, capsys: pytest.CaptureFixt
     assert [Path(f["file"]).name for f in data["files"]] == ["salon-208y120.csv", "corrupt.xlsx"]
     assert data["files"][1]["status"] == "error"
     assert data["summary_workbook"] == str(summary)
+
+
+def test_batch_reports_each_panels_demand_and_feeder_check(folder: Path, tmp_path: Path) -> None:
+    from balancer.demand import DemandOptions, compute_demand
+    from balancer.io.reader import read_schedule
+
+    summary = tmp_path / "out" / "summary.xlsx"
+    summary.parent.mkdir()
+    for rules in ("nec2023", "connected"):
+        choice = DemandOptions(rules=rules)
+        tasks = make_tasks([folder], "check", BalanceOptions(), PanelOverrides(), demand=choice)
+        rows = {Path(r.file).name: r for r in run_batch(tasks, jobs=1)}
+        for name in GOOD:
+            panel = read_schedule(folder / name)
+            expected = compute_demand(panel, choice)
+            row = rows[name]
+            assert row.demand_va == pytest.approx(expected.total_demand_va)
+            assert row.feeder_required_a == pytest.approx(expected.feeder.required_a)
+            assert row.min_ocpd_a == expected.feeder.min_ocpd_a
+            if rules == "connected":  # no demand factors: the demand is the connected load
+                connected = sum(c.load_va for c in panel.circuits)
+                assert row.demand_va == pytest.approx(connected)
+        assert rows["corrupt.xlsx"].demand_va is None
+        text = summary_text(list(rows.values()), "check")
+        assert "Demand kVA" in text
+        assert "Min OCPD A" in text
+    written = write_summary(summary, list(rows.values()), "check")
+    header = [c.value for c in load_workbook(written)["Summary"][1]]
+    assert {"Demand VA", "Feeder sizing A", "Min OCPD A", "Rating A", "Spare %"} <= set(header)
