@@ -31,11 +31,11 @@ from balancer.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.systems import Line, System
 from balancer.transformer import (
     Transformer,
-    Winding,
     loading_pct,
     loading_terms,
     primary_line_currents,
     primary_phase_va,
+    winding_primary_lines,
 )
 
 if TYPE_CHECKING:
@@ -433,7 +433,7 @@ def feeder_figures(building: Building, feed: Feed, child: PanelFigures) -> Feede
         va = primary_phase_va(t, child.phase_va, lines, child.line_current, child.neutral_side_va)
         current = primary_line_currents(t, child.line_current, lines)
         # primary windings from a line to neutral carry line-to-neutral load upstream
-        to_neutral = all(len(_winding_lines(w, lines)) == 1 for w in t.windings)
+        to_neutral = all(len(winding_primary_lines(w, lines)) == 1 for w in t.windings)
         return FeederFigures(
             feed.panel,
             feed.source,
@@ -454,10 +454,6 @@ def feeder_figures(building: Building, feed: Feed, child: PanelFigures) -> Feede
     return FeederFigures(
         feed.panel, feed.source, feed.circuit_id, lines, va, current, None, neutral_side
     )
-
-
-def _winding_lines(winding: Winding, feeder_lines: Sequence[Line]) -> tuple[Line, ...]:
-    return winding.primary_lines or tuple(feeder_lines)
 
 
 def roll_up(building: Building) -> RollUp:

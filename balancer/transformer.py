@@ -303,7 +303,8 @@ def make_transformer(
     return Transformer(name, float(kva), primary, secondary, key, windings)  # type: ignore[arg-type]
 
 
-def _primary_lines(winding: Winding, feeder_lines: Sequence[Line]) -> tuple[Line, ...]:
+def winding_primary_lines(winding: Winding, feeder_lines: Sequence[Line]) -> tuple[Line, ...]:
+    """The primary lines a winding sits between; a single-phase unit's are its breaker's lines."""
     return winding.primary_lines or tuple(feeder_lines)
 
 
@@ -420,7 +421,7 @@ def primary_line_currents(
     for winding, power in zip(
         transformer.windings, winding_powers(transformer, secondary_currents), strict=True
     ):
-        lines = _primary_lines(winding, feeder_lines)
+        lines = winding_primary_lines(winding, feeder_lines)
         if len(lines) == 2:
             voltage = primary.voltage_between(lines[0], lines[1])
         else:
@@ -506,7 +507,7 @@ def primary_phase_va(
     if not any(w.across for w in transformer.windings):
         for winding in transformer.windings:
             va = math.fsum(secondary_phase_va.get(k, 0.0) for k in winding.secondary_lines)
-            lines = _primary_lines(winding, feeder_lines)
+            lines = winding_primary_lines(winding, feeder_lines)
             for line in lines:
                 out[line] += va / len(lines)
         return out
