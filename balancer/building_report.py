@@ -569,7 +569,8 @@ def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -
         description="Read a building (a workbook with a 'Building' sheet and one sheet per "
         "panel, or a building.xlsx/building.csv index naming one schedule file per panel), roll "
         "every subpanel's per-line loads up to its feeder circuit, and with --balance balance "
-        "every panel, subpanels first. The inputs are never changed.",
+        "every panel, subpanels first (a panel behind a delta-secondary transformer for that "
+        "transformer's heaviest winding). The inputs are never changed.",
     )
     parser.add_argument("index", type=Path, help="the building workbook, index file or folder")
     parser.add_argument(
