@@ -4,7 +4,9 @@
    to A/B/C, 2-pole to AB/BC/CA, with the free spaces per line as capacity. No symmetry between
    spaces of one line, so its bound is tight; a heuristic answer that meets the combinatorial
    bound is proven without a solver.
-2. Those lines are placed into spaces, fewest moves first (a start for step 3).
+2. Those lines are placed into spaces, fewest moves first (a start for step 3). On a placed
+   schedule a search first finds the fewest line changes within the spread cap; its proven
+   count bounds the moves, so an answer that meets it needs no solver proof.
 3. The exact mixed model (multi-pole breakers and groups by placement, 1-pole breakers by
    staying put or by line) keeps the first goal and settles the move count and tie-breakers.
 4. Every answer is checked independently before it is returned; only what is proven is claimed.
@@ -21,6 +23,7 @@ from balancer.analysis import analyze
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.heuristics import (
     fewer_changes_lines,
+    fewest_changes_lines,
     greedy_lines,
     karmarkar_karp_lines,
     local_search_lines,
@@ -57,6 +60,8 @@ FRESH_SEARCH_S = 0.05  # the same search on a fresh layout
 SPLIT_SEARCH_S = 1.0  # then re-deciding many units at once when that missed: at most this, ...
 SPLIT_SEARCH_SHARE = 0.1  # ... and at most this share of the time limit
 UNDO_S = 1.5  # undoing needless changes from the schedule as it stands: at most this, ...
+FEWEST_S = 1.0  # the fewest changed units within the spread cap, proven: at most this, ...
+FEWEST_SHARE = 0.1  # ... and at most this share of the time limit
 TIEBREAK_MIN_S = 0.3  # time for each tie-breaking current goal: at least this, ...
 TIEBREAK_SHARE = 0.005  # ... or this share of the time limit
 SAFETY_NOTE = (
@@ -254,21 +259,12 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         first, line_model, goals = _first_goal_on_lines(layout, options, None, deadline, floor)
 
     # Put the line-level answer into spaces: a start for the exact model, and usually its answer.
-    allowed = {u: {line_model.options[u][k].pattern} for u, k in enumerate(first.picks)}
-    placement = build_model(
-        layout, "space", options, allowed=allowed, target_imbalance_pct=target, include=()
-    )
-    try:
-        placed: StageResult | None = solve_goal(
-            placement,
-            "moves",
-            options.engine,
-            max(PLACEMENT_MIN_S, deadline - time.perf_counter()),
-            MOVES_GAP,
-            _placement_start(placement.options),
-        )
-    except (InfeasibleError, SolverError):
-        placed = None
+    fewest, moves_floor = _fewest_changes(layout, options, target, goals, first, floor)
+    placement, placed = _place(layout, options, target, line_model, fewest or first, deadline)
+    if placed is None and fewest is not None:
+        placement, placed = _place(layout, options, target, line_model, first, deadline)
+    elif fewest is not None:
+        first = fewest
     exact = build_model(layout, "mixed", options, target_imbalance_pct=target)
     if placed is not None:
         start = _to_mixed(exact, [placement.options[u][k] for u, k in enumerate(placed.picks)])
@@ -288,6 +284,14 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         "spread": floor,
         goals[0]: max(first.bound, floor if goals[0] == "spread" else -math.inf),
     }
+    if goals[0] in preset and start is not None:
+        # the move stage keeps the spread cap the line search used, so its count bounds it
+        bounds["moves"] = moves_floor
+        start_moves = _moves_at(exact, start)
+        if start_moves <= moves_floor + MOVES_GAP:
+            preset["moves"] = StageResult(
+                "moves", start_moves, moves_floor, True, tuple(start), 0.0, "fewest changes"
+            )
     stages = _lexicographic(exact, goals, options, deadline, start, bounds, preset)
     picks = _last_picks(stages, preset, start)
     chosen = realise(layout, [exact.options[u][k] for u, k in enumerate(picks)])
@@ -342,6 +346,77 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         notes=tuple(notes),
         first_goal=next(g for g in goals if g != "moves"),
     )
+
+
+def _place(
+    layout: Layout,
+    options: BalanceOptions,
+    target: float | None,
+    line_model: Model,
+    first: StageResult,
+    deadline: float,
+) -> tuple[Model, StageResult | None]:
+    """The fewest moves putting the first stage's lines into spaces; None when they do not fit."""
+    allowed = {u: {line_model.options[u][k].pattern} for u, k in enumerate(first.picks)}
+    placement = build_model(
+        layout, "space", options, allowed=allowed, target_imbalance_pct=target, include=()
+    )
+    try:
+        placed: StageResult | None = solve_goal(
+            placement,
+            "moves",
+            options.engine,
+            max(PLACEMENT_MIN_S, deadline - time.perf_counter()),
+            MOVES_GAP,
+            _placement_start(placement.options),
+        )
+    except (InfeasibleError, SolverError):
+        placed = None
+    return placement, placed
+
+
+def _fewest_changes(
+    layout: Layout,
+    options: BalanceOptions,
+    target: float | None,
+    goals: Sequence[str],
+    first: StageResult,
+    floor: float,
+) -> tuple[StageResult | None, float]:
+    """Lines that change the fewest units within the spread cap the move stage will keep, and
+    that count as a proven lower bound on the moves (-inf when not proven).
+
+    Returns the first stage with those lines when they change fewer units than its own, else
+    None. Runs only where the cap is the proven spread one: spread first, then moves, with no
+    move budget or target.
+    """
+    if not layout.count_moves or list(goals[:2]) != ["spread", "moves"]:
+        return None, -math.inf
+    if options.max_moves is not None or target is not None:
+        return None, -math.inf
+    bound = max(first.bound, floor)
+    if not _proven(first, options, bound):
+        return None, -math.inf
+    cap_va = max(first.value, bound + options.tolerance_va)  # as _lexicographic keeps it
+    budget_s = min(FEWEST_S, FEWEST_SHARE * options.time_limit_s)
+    found = fewest_changes_lines(layout, cap_va, budget_s)
+    if found is None:
+        return None, -math.inf
+    if found.picks is None or found.moves is None:
+        return None, float(found.bound)
+    moves = sum(u.patterns()[k].moves for u, k in zip(layout.units, first.picks, strict=True))
+    if found.moves >= moves:
+        return None, float(found.bound)
+    # within the cap, so still proven; the cap itself (bound + tolerance) does not change
+    value = pattern_spread_va(layout, found.picks)
+    return replace(first, picks=tuple(found.picks), value=value), float(found.bound)
+
+
+def _moves_at(exact: Model, picks: Sequence[int]) -> float:
+    """The exact model's move count for a choice of option per unit."""
+    for (u, k), var in exact.choice.items():
+        var.varValue = 1.0 if picks[u] == k else 0.0
+    return evaluate(exact.goals["moves"])
 
 
 def _first_goal_on_lines(
