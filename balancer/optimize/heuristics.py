@@ -791,6 +791,18 @@ class _ChangeSets:
     low: np.ndarray  # (sets,) lowest unit changed (a large number for the empty set)
     high: np.ndarray  # (sets,) highest unit changed (-1 for the empty set)
 
+    @staticmethod
+    def empty(lines: int) -> _ChangeSets:
+        """The one set of no changes."""
+        return _ChangeSets(
+            np.zeros((1, 0), dtype=np.int64),
+            np.zeros((1, lines)),
+            np.zeros((1, lines)),
+            np.zeros(1, dtype=np.int64),
+            np.array([np.iinfo(np.int64).max]),
+            np.array([-1]),
+        )
+
     def take(self, rows: np.ndarray) -> _ChangeSets:
         return _ChangeSets(
             self.items[rows],
@@ -807,15 +819,7 @@ def _change_sets(
 ) -> _ChangeSets | None:
     """Sets of ``size`` changes on distinct units, grown one unit at a time in unit order;
     None when there would be more than ``limit``."""
-    n = load.shape[1]
-    sets = _ChangeSets(
-        np.zeros((1, 0), dtype=np.int64),
-        np.zeros((1, n)),
-        np.zeros((1, n)),
-        np.zeros(1, dtype=np.int64),
-        np.array([np.iinfo(np.int64).max]),
-        np.array([-1]),
-    )
+    sets = _ChangeSets.empty(load.shape[1])
     for _ in range(size):
         sets = sets.take(np.argsort(sets.high, kind="stable"))
         # a change extends every set whose units all come before its own
@@ -1031,15 +1035,7 @@ def fewest_changes_lines(layout: Layout, cap_va: float, budget_s: float) -> Fewe
 def _free_choices(state: _LineState, free: Sequence[int], offset: int) -> _ChangeSets | None:
     """Every joint choice of lines for the unplaced units (indices into the change list from
     ``offset``), with the VA and spaces they add; None beyond FEWEST_FREE_CHOICES."""
-    n = len(state.load)
-    sets = _ChangeSets(
-        np.zeros((1, 0), dtype=np.int64),
-        np.zeros((1, n)),
-        np.zeros((1, n)),
-        np.zeros(1, dtype=np.int64),
-        np.array([np.iinfo(np.int64).max]),
-        np.array([-1]),
-    )
+    sets = _ChangeSets.empty(len(state.load))
     for u in free:
         count = len(state.patterns[u])
         if len(sets.moves) * count > FEWEST_FREE_CHOICES:
