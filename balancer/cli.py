@@ -388,8 +388,9 @@ def balance_file(
     demand_for: Callable[[Panel], Any] | None = None,
     field_run: Any = None,
     bank: tuple[float, bool] | None = None,
-) -> tuple[Any, Path]:
-    """Read → balance → write; returns the result and the workbook written.
+) -> tuple[Any, Path, Any]:
+    """Read → balance → write; returns the result, the workbook written and the demand (None
+    without ``demand_for``).
 
     ``demand_for`` computes the demand and feeder check of the revised panel for the workbook.
     ``bank`` (kVA, open delta) describes the supply transformer for objective ``transformer``.
@@ -420,7 +421,7 @@ def balance_file(
         result = field_run.finish(panel, result, options, balance)
     demand = demand_for(result.after_panel) if demand_for is not None else None
     written = write_workbook(result, output, input_path=schedule, demand=demand)
-    return result, written
+    return result, written, demand
 
 
 def balance_json(result: Any, written: Path) -> dict[str, Any]:
@@ -566,11 +567,11 @@ def run_balance(args: argparse.Namespace) -> int:
             json_output=args.json,
             demand=_demand_choices(args),
         )
-    from balancer.demand import check_choices, demand_to_dict, loads_section_lines
+    from balancer.demand import demand_to_dict, loads_section_lines
 
-    check_choices(args.rules, args.occupancy)
+    _demand_choices(args)  # a wrong rule set or occupancy is reported before any work
     field_run = _field_run(args)
-    result, written = balance_file(
+    result, written, demand = balance_file(
         args.schedule,
         args.output,
         _options(args),
@@ -579,7 +580,6 @@ def run_balance(args: argparse.Namespace) -> int:
         field_run=field_run,
         bank=bank,
     )
-    demand = _demand(args, result.after_panel)
     pdf = _pdf_path(args, "-balanced")
     if pdf is not None:
         from balancer.io.pdf import write_pdf
