@@ -23,6 +23,7 @@ from balancer.building_files import index_file, read_building
 from balancer.errors import Problem, ScheduleError
 from balancer.io.pdf import add_pdf_arguments
 from balancer.panel import Panel
+from balancer.report import GOAL_NAMES
 from balancer.result import BalanceOptions, SolveStatus
 from balancer.systems import Line
 
@@ -32,9 +33,6 @@ SAFETY = (
     "verified with a meter. The adopted code, local amendments and the authority having "
     "jurisdiction govern."
 )
-
-
-GOAL_TEXT = {"spread": "phase spread", "transformer": "transformer winding"}
 
 
 def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
@@ -79,7 +77,7 @@ def panel_rows(
                 "line_a_after": _lines_text(after.line_a, 1),
                 "neutral_after_a": after.neutral_a,
                 "status": outcome.status.value,
-                "first_goal": GOAL_TEXT.get(outcome.first_goal, outcome.first_goal),
+                "first_goal": GOAL_NAMES.get(outcome.first_goal, outcome.first_goal),
                 "moves": len(outcome.moves),
                 "moved": ", ".join(outcome.moves),
                 "re_landed": ", ".join(outcome.swapped_feeds),
