@@ -171,7 +171,7 @@ COLUMNS: tuple[ColumnSpec, ...] = (
     ColumnSpec(
         "neutral_va",
         "Neutral (VA)",
-        ("neutralva", "neutralshare", "lnva", "neutralload"),
+        ("neutral", "neutralva", "neutralshare", "lnva", "neutralload"),
         "number",
         "VA",
         "part of a 2-pole load that is line-to-neutral (e.g. a dryer's 120 V controls and motor)",
