@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import enum
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Literal
@@ -76,7 +77,26 @@ class TradeoffRow:
     spread_va: float
     imbalance_pct: float
     neutral_a: float
-    status: SolveStatus
+    status: SolveStatus  # how far the row's figure of the chosen goal is proven
+    goal: str = "spread"
+    goal_value: float = math.nan  # the chosen goal's figure for this row
+    neutral_rms_a: float = math.nan
+
+
+@dataclass(frozen=True, slots=True)
+class Recommendation:
+    """Which rule chose the arrangement returned from the trade-off table, and the best row
+    beside it."""
+
+    rule: Literal["best", "within", "target", "fewest-same"]
+    message: str
+    moves: int
+    imbalance_pct: float
+    best_moves: int
+    best_imbalance_pct: float
+    within_pct: float | None = None
+    proven: bool = False  # fewer moves proven unable to satisfy the rule
+    neutral_message: str | None = None  # when the arrangement raises the neutral current
 
 
 @dataclass(frozen=True, slots=True)
@@ -96,6 +116,10 @@ class BalanceResult:
     notes: tuple[str, ...] = ()
     tradeoff: tuple[TradeoffRow, ...] = field(default=())
     first_goal: str = "spread"  # what the status speaks of: spread, line, neutral, transformer
+    goal_value: float = math.nan  # the first goal's figure for the arrangement returned
+    goal_bound: float = -math.inf  # proven lower bound on that figure over every arrangement
+    goal_proven: bool = False  # the figure is within the goal's tolerance of the bound
+    recommendation: Recommendation | None = None  # why this row of the trade-off was chosen
 
     @property
     def gap_va(self) -> float:

@@ -14,6 +14,7 @@ from dataclasses import dataclass, replace
 from typing import Any
 
 from balancer.errors import InfeasibleError, SolverError
+from balancer.optimize.goals import Goal, goal_for
 from balancer.panel import Panel
 from balancer.result import BalanceOptions, BalanceResult, SolveStatus, TradeoffRow
 
@@ -94,67 +95,84 @@ def tradeoff(
     unlimited_options = replace(options, fresh=False, target_imbalance_pct=None, max_moves=None)
     base = replace(unlimited_options, time_limit_s=min(options.time_limit_s, ROW_TIME_LIMIT_S))
     full = unlimited if unlimited is not None else solve(panel, unlimited_options)
+    goal = goal_for(full.first_goal)
     full_moves = count_moves(panel, full.after_panel)
     last = min(full_moves, DEFAULT_MAX_ROWS if max_moves is None else max_moves)
     results: list[BalanceResult] = []
     rows: list[TradeoffRow] = []
     notes: list[str] = []
-    tolerance = options.tolerance_va
-    full_proven = _spread_status(full, tolerance) is SolveStatus.OPTIMAL
     for k in range(last + 1):
         result = full if k == full_moves else solve(panel, replace(base, max_moves=k))
         used = count_moves(panel, result.after_panel)
         if used > k:
             raise SolverError(f"asked for at most {k} moves, the optimiser returned {used}")
-        status = _spread_status(result, tolerance)
-        if results and result.after.spread_va > results[-1].after.spread_va + tolerance:
+        if result.first_goal != goal.name:
+            raise SolverError(
+                f"the {k}-move row was balanced for {result.first_goal}, not {goal.name}"
+            )
+        status = row_status(result)
+        if results and _worse(goal, result, results[-1], options):
             # At most k−1 moves is also at most k moves: a worse answer here was not proven.
             if status is SolveStatus.OPTIMAL and rows[-1].status is SolveStatus.OPTIMAL:
                 raise SolverError(
-                    f"{k} moves proven at {result.after.spread_va:.1f} VA but {k - 1} moves "
-                    f"reach {results[-1].after.spread_va:.1f} VA"
+                    f"{k} moves proven at {goal.text(result.goal_value)} but {k - 1} moves "
+                    f"reach {goal.text(results[-1].goal_value)} ({goal.phrase})"
                 )
             notes.append(f"{k} moves: kept the {k - 1}-move arrangement, which was better")
             result, status = results[-1], SolveStatus.FEASIBLE
         results.append(result)
-        rows.append(
-            TradeoffRow(
-                moves=k,
-                spread_va=result.after.spread_va,
-                imbalance_pct=result.after.imbalance_pct,
-                neutral_a=result.after.neutral_a,
-                status=status,
-            )
-        )
+        rows.append(_row(k, result, status))
         if (
-            full_proven
+            row_status(full) is SolveStatus.OPTIMAL
             and k < full_moves
             and status is SolveStatus.OPTIMAL
-            and result.after.spread_va <= full.after.spread_va + tolerance
+            and not _worse(goal, result, full, options)
         ):
             # The unlimited run may not have proven its move count (or spent moves on a
-            # tie-breaker): the table stops at the first budget proven to reach its spread.
-            notes.append(f"the unlimited run used {full_moves} moves; {k} reach the same spread")
+            # tie-breaker): the table stops at the first budget proven to reach its figure.
+            notes.append(
+                f"the unlimited run used {full_moves} moves; {k} reach the same figure for "
+                f"{goal.phrase}"
+            )
             full_moves = k
             break
     capped = len(rows) - 1 < full_moves
     if capped:
         notes.append(
             f"table stops at {last} moves; the best arrangement found needs {full_moves} "
-            f"moves for {full.after.spread_va:,.0f} VA spread ({full.status.value})"
+            f"moves for {goal.phrase} {goal.text(full.goal_value)} ({full.status.value})"
         )
     return Tradeoff(tuple(rows), tuple(results), full_moves, capped, tuple(notes))
 
 
-def _spread_status(result: BalanceResult, tolerance_va: float) -> SolveStatus:
-    """OPTIMAL when the spread is proven within tolerance for the run's budget.
+def _row(moves: int, result: BalanceResult, status: SolveStatus) -> TradeoffRow:
+    return TradeoffRow(
+        moves=moves,
+        spread_va=result.after.spread_va,
+        imbalance_pct=result.after.imbalance_pct,
+        neutral_a=result.after.neutral_a,
+        status=status,
+        goal=result.first_goal,
+        goal_value=result.goal_value,
+        neutral_rms_a=result.after.neutral_amps,
+    )
 
-    The optimiser's own status also covers its later goals (fewest moves, neutral current);
-    a row of this table is about the spread, which the run's lower bound settles.
+
+def _worse(goal: Goal, result: BalanceResult, than: BalanceResult, options: BalanceOptions) -> bool:
+    """Whether ``result``'s figure of the goal is worse than ``than``'s beyond the tolerance."""
+    margin = goal.tolerance(max(result.goal_value, than.goal_value), options)
+    return result.goal_value > than.goal_value + margin + 1e-9
+
+
+def row_status(result: BalanceResult) -> SolveStatus:
+    """OPTIMAL when the run's first goal is proven within its tolerance for the run's budget.
+
+    The optimiser's own status also covers its later goals (fewest moves, tie-breakers); a
+    row of this table is about the first goal alone.
     """
-    if result.status is SolveStatus.FEASIBLE and result.gap_va <= tolerance_va + 1e-9:
-        return SolveStatus.OPTIMAL
-    return result.status
+    if result.status is SolveStatus.UNCHANGED:
+        return result.status
+    return SolveStatus.OPTIMAL if result.goal_proven else SolveStatus.FEASIBLE
 
 
 def imbalance_floor_pct(spread_va: float, total_va: float, line_count: int) -> float:
@@ -260,14 +278,27 @@ def fewest_moves_to(
     )
 
 
+def _goal_column(table: Tradeoff) -> Goal | None:
+    """The chosen goal when it is not the spread (which has a column of its own)."""
+    goal = table.rows[0].goal if table.rows else "spread"
+    return None if goal == "spread" else goal_for(goal)
+
+
 def tradeoff_lines(table: Tradeoff) -> list[str]:
-    """Terminal lines: one per move budget."""
-    out = ["Moves  Spread (VA)  Imbalance (%)  Neutral (A)  Status"]
+    """Terminal lines: one per move budget; the status speaks of the chosen goal."""
+    extra = _goal_column(table)
+    head = f"  {extra.label} ({extra.unit})" if extra else ""
+    out = [f"Moves  Spread (VA)  Imbalance (%)  Neutral (A){head}  Status"]
     for row in table.rows:
+        cell = ""
+        if extra:
+            cell = f"  {row.goal_value:>{len(head) - 2},.{extra.digits}f}"
         out.append(
             f"{row.moves:>5}  {row.spread_va:>11,.0f}  {row.imbalance_pct:>13.2f}  "
-            f"{row.neutral_a:>11.1f}  {_status_text(row.status)}"
+            f"{row.neutral_a:>11.1f}{cell}  {_status_text(row.status)}"
         )
+    if extra:
+        out.append(f"  status: how far {extra.phrase} is proven for each budget")
     out += [f"  note: {n}" for n in table.notes]
     return out
 
@@ -277,9 +308,12 @@ def tradeoff_json(table: Tradeoff) -> list[dict[str, Any]]:
     return [
         {
             "moves": row.moves,
+            "goal": row.goal,
+            "goal_value": _finite(row.goal_value),
             "spread_va": _finite(row.spread_va),
             "imbalance_pct": _finite(row.imbalance_pct),
             "neutral_a": _finite(row.neutral_a),
+            "neutral_rms_a": _finite(row.neutral_rms_a),
             "status": row.status.value,
         }
         for row in table.rows
@@ -291,17 +325,22 @@ TRADEOFF_HEADER = ("Moves (at most)", "Spread (VA)", "Imbalance (%)", "Neutral (
 
 def tradeoff_rows(table: Tradeoff) -> list[list[Any]]:
     """Rows for a workbook sheet: a header, one row per move budget, then the notes."""
-    rows: list[list[Any]] = [list(TRADEOFF_HEADER)]
-    rows += [
-        [
+    extra = _goal_column(table)
+    header = list(TRADEOFF_HEADER)
+    if extra:
+        header.insert(4, f"{extra.label} ({extra.unit})")
+    rows: list[list[Any]] = [header]
+    for row in table.rows:
+        cells: list[Any] = [
             row.moves,
             round(row.spread_va, 1),
             round(row.imbalance_pct, 3),
             round(row.neutral_a, 2),
             _status_text(row.status),
         ]
-        for row in table.rows
-    ]
+        if extra:
+            cells.insert(4, round(row.goal_value, extra.digits))
+        rows.append(cells)
     if table.notes:
         rows.append([])
         rows += [["Note", n] for n in table.notes]

@@ -136,6 +136,10 @@ def _result(
         # Enumeration proves its answer; a scripted unproven answer carries the trivial bound.
         lower_bound_spread_va=loads.spread_va if status is SolveStatus.OPTIMAL else 0.0,
         moves=(),
+        first_goal="spread",
+        goal_value=loads.spread_va,
+        goal_bound=loads.spread_va if status is SolveStatus.OPTIMAL else 0.0,
+        goal_proven=status is SolveStatus.OPTIMAL,
     )
 
 
@@ -365,7 +369,7 @@ def test_proven_rows_that_contradict_are_an_error() -> None:
             1: ({"a": (1,), "b": (2,), "c": (7,)}, SolveStatus.OPTIMAL),
         },
     )
-    with pytest.raises(SolverError, match=r"1 moves proven at 3000\.0 VA but 0 moves reach 2000"):
+    with pytest.raises(SolverError, match=r"1 moves proven at 3,000 VA but 0 moves reach 2,000 VA"):
         tradeoff(panel, balance_fn=run)
 
 
@@ -388,7 +392,7 @@ def test_table_stops_at_the_first_budget_reaching_the_unlimited_spread() -> None
     assert [r.moves for r in table.rows] == [0, 1, 2]
     assert table.full_moves == 2
     assert not table.capped
-    assert "3 moves; 2 reach the same spread" in table.notes[0]
+    assert "3 moves; 2 reach the same figure for the phase spread" in table.notes[0]
 
 
 def test_cap_stops_the_table_and_says_so() -> None:
@@ -467,7 +471,17 @@ def test_renderings_carry_every_row() -> None:
     table = tradeoff(panel, balance_fn=exhaustive_balance)
     data = tradeoff_json(table)
     assert [d["moves"] for d in data] == [0, 1, 2]
-    assert set(data[0]) == {"moves", "spread_va", "imbalance_pct", "neutral_a", "status"}
+    assert set(data[0]) == {
+        "moves",
+        "goal",
+        "goal_value",
+        "spread_va",
+        "imbalance_pct",
+        "neutral_a",
+        "neutral_rms_a",
+        "status",
+    }
+    assert all(d["goal"] == "spread" and d["goal_value"] == d["spread_va"] for d in data)
     assert data[2]["status"] == "optimal"
     assert data[0]["spread_va"] == pytest.approx(3000.0)
     rows = tradeoff_rows(table)

@@ -18,7 +18,7 @@ import pytest
 from balancer.building import Feed, balance_building, make_building, panel_options, roll_up
 from balancer.building_files import read_building
 from balancer.optimize import balance
-from balancer.optimize.model import POLYGON_ERROR
+from balancer.optimize.goals import POLYGON_ERROR
 from balancer.panel import Circuit, Panel
 from balancer.phasors import circuit_line_currents
 from balancer.result import BalanceOptions, SolveStatus
@@ -120,7 +120,9 @@ def test_heaviest_winding_is_proven_against_every_line_choice() -> None:
     assert result.status is SolveStatus.OPTIMAL
     after = loading_pct(bank, _currents(result.after_panel))
     assert least - 1e-9 <= after <= least * (1 + POLYGON_ERROR) + 1e-9
-    assert any(n.startswith("heaviest winding of the feeding transformer") for n in result.notes)
+    assert any(n.startswith("supply transformer's heaviest winding") for n in result.notes)
+    assert result.first_goal == "transformer" and result.goal_proven
+    assert result.goal_value == pytest.approx(after, rel=1e-9)
     # the plain spread goal does worse on the winding here (the 240 V welder decides it)
     spread_first = balance(panel, BalanceOptions(fresh=True, time_limit_s=30))
     assert loading_pct(bank, _currents(spread_first.after_panel)) > after + 1.0

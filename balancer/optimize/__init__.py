@@ -21,6 +21,7 @@ from dataclasses import replace
 
 from balancer.analysis import analyze
 from balancer.errors import InfeasibleError, SolverError
+from balancer.optimize.goals import MOVES_GAP, goal_for
 from balancer.optimize.heuristics import (
     fewer_changes_lines,
     fewest_changes_lines,
@@ -32,8 +33,6 @@ from balancer.optimize.heuristics import (
     split_search_lines,
 )
 from balancer.optimize.model import (
-    POLYGON_ERROR,
-    POLYGON_SIDES,
     Layout,
     Model,
     Option,
@@ -51,8 +50,6 @@ from balancer.result import BalanceOptions, BalanceResult, Move, SolveStatus
 
 __all__ = ["balance"]
 
-CURRENT_GAP_A = 0.01  # absolute gap on the current stages (amperes)
-MOVES_GAP = 0.999  # moves are whole numbers: a gap below one proves the count
 PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
 LOCAL_SEARCH_S = 0.1  # improving the seed by single and paired changes: at most this, ...
 LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
@@ -71,6 +68,13 @@ SAFETY_NOTE = (
 )
 
 
+def _primary(options: BalanceOptions) -> str:
+    """The first goal: the objective asked for, when it has a figure to keep low."""
+    if options.objective == "transformer" and not options.transformer_terms:
+        return "spread"
+    return options.objective
+
+
 def _goal_order(options: BalanceOptions, count_moves: bool, available: Sequence[str]) -> list[str]:
     primary = options.objective if options.objective in available else "spread"
     order: list[str] = [primary]
@@ -86,7 +90,7 @@ def _key_count(goals: Sequence[str]) -> int:
 
 
 def _gap(goal: str, options: BalanceOptions) -> float:
-    return {"spread": options.tolerance_va, "moves": MOVES_GAP}.get(goal, CURRENT_GAP_A)
+    return MOVES_GAP if goal == "moves" else goal_for(goal).gap(options)
 
 
 def _proven(stage: StageResult, options: BalanceOptions, extra_bound: float) -> bool:
@@ -178,22 +182,22 @@ def _placement_start(options: Sequence[Sequence[Option]]) -> list[int] | None:
     return picks
 
 
-def _describe(stage: StageResult, proven: bool, bound: float, options: BalanceOptions) -> str:
-    unit = {"spread": "VA", "moves": "moves", "transformer": "%"}.get(stage.goal, "A")
-    digits = {"spread": 1, "moves": 0}.get(stage.goal, 2)
+def _describe(
+    goal_name: str, value: float, proven: bool, bound: float, options: BalanceOptions
+) -> str:
+    """One note on a goal: the returned arrangement's figure and how far it is proven."""
+    if goal_name == "moves":
+        text = f"moves: {value:.0f}"
+        return text + (", proven fewest" if proven else ", not proven fewest")
+    goal = goal_for(goal_name)
     # the current goals are optimised at the fundamental; say so beside RMS figures
-    label = {
-        "neutral": "neutral (fundamental)",
-        "line": "worst line (fundamental)",
-        "transformer": "heaviest winding of the feeding transformer (fundamental, % of rating)",
-    }.get(stage.goal, stage.goal)
-    text = f"{label}: {stage.value:.{digits}f} {unit}"
-    if proven and stage.goal == "moves":
-        return text + ", proven fewest"
+    label = goal.phrase.removeprefix("the ") + (" (fundamental)" if goal.linearised else "")
+    text = f"{label}: {goal.text(value)}"
     if proven:
-        return text + f", proven best within {_gap(stage.goal, options):g} {unit}"
+        margin = goal.tolerance(value, options)
+        return text + f", proven within {margin:.{goal.digits}f} {goal.unit} of the best possible"
     if math.isfinite(bound):
-        return text + f", not proven (best bound {bound:.{digits}f} {unit})"
+        return text + f", not proven (no arrangement is below {goal.text(bound)})"
     return text + ", not proven"
 
 
@@ -234,6 +238,8 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
     before = analyze(panel)
     notes: list[str] = []
     if not layout.units:
+        goal = goal_for(_primary(options))
+        value = goal.measure(panel, before, options)
         return BalanceResult(
             panel,
             panel,
@@ -246,6 +252,10 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
             (),
             time.perf_counter() - begin,
             ("every circuit keeps its spaces; nothing to rearrange", SAFETY_NOTE),
+            first_goal=goal.name,
+            goal_value=value,
+            goal_bound=value,  # the only arrangement there is
+            goal_proven=True,
         )
     floor = spread_lower_bound(layout)
     target = options.target_imbalance_pct
@@ -303,16 +313,14 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
 
     proven = {s.goal: _proven(s, options, bounds.get(s.goal, -math.inf)) for s in stages}
     for s in stages:
-        notes.append(
-            _describe(s, proven[s.goal], max(s.bound, bounds.get(s.goal, -math.inf)), options)
+        # the figure of the arrangement returned (a true magnitude, not the polygon's)
+        value = (
+            s.value if s.goal == "moves" else goal_for(s.goal).measure(after_panel, after, options)
         )
+        bound = max(s.bound, bounds.get(s.goal, -math.inf))
+        notes.append(_describe(s.goal, value, proven[s.goal], bound, options))
     key_goals = goals[: _key_count(goals)]
     status = SolveStatus.OPTIMAL if all(proven[g] for g in key_goals) else SolveStatus.FEASIBLE
-    if {"neutral", "line", "transformer"} & set(goals):
-        notes.append(
-            f"currents are minimised through a {POLYGON_SIDES}-sided polygon: the true value is at "
-            f"most {POLYGON_ERROR * 100:.2f} % above the proven figure"
-        )
     spread_bound = floor
     if goals[0] == "spread":
         spread_bound = max(floor, stages[0].bound, bounds["spread"])
@@ -332,6 +340,9 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         for old, new in zip(panel.circuits, after_panel.circuits, strict=True)
         if old.placed and old.spaces != new.spaces
     )
+    first_goal = next(g for g in goals if g != "moves")
+    first_stage = next(s for s in stages if s.goal == first_goal)
+    goal = goal_for(first_goal)
     return BalanceResult(
         before_panel=panel,
         after_panel=after_panel,
@@ -344,7 +355,10 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         moves=moves,
         solve_seconds=time.perf_counter() - begin,
         notes=tuple(notes),
-        first_goal=next(g for g in goals if g != "moves"),
+        first_goal=first_goal,
+        goal_value=goal.measure(after_panel, after, options),
+        goal_bound=max(first_stage.bound, bounds.get(first_goal, -math.inf)),
+        goal_proven=proven[first_goal],
     )
 
 

@@ -20,15 +20,12 @@ import pulp
 
 from balancer.errors import InfeasibleError
 from balancer.harmonics import circuit_currents_by_order
+from balancer.optimize.goals import POLYGON_SIDES
 from balancer.panel import Circuit, Panel
 from balancer.result import BalanceOptions
 from balancer.systems import Line
 
 ModelKind = Literal["line", "space", "mixed"]
-
-# Sides of the regular polygon that linearises |I|: max_k Re(I e^{-jθk}) ≤ |I| ≤ that / cos(π/m).
-POLYGON_SIDES = 64
-POLYGON_ERROR = 1.0 / math.cos(math.pi / POLYGON_SIDES) - 1.0  # 0.12 % for 64 sides
 
 
 @dataclass(frozen=True, slots=True)
