@@ -14,7 +14,6 @@ import sys
 import time
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, replace
-from io import BytesIO
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal, TextIO
 
@@ -308,7 +307,7 @@ def write_summary(path: Path, rows: Sequence[Row], mode: Mode) -> Path:
     from openpyxl import Workbook
     from openpyxl.styles import Font
 
-    from balancer.io.writer import atomic_write_bytes
+    from balancer.io.writer import save_workbook
 
     book = Workbook()
     sheet = book.active
@@ -357,9 +356,7 @@ def write_summary(path: Path, rows: Sequence[Row], mode: Mode) -> Path:
         )
     sheet.append([])
     sheet.append([f"check/balance over {len(rows)} files ({mode})"])
-    buffer = BytesIO()
-    book.save(buffer)
-    return atomic_write_bytes(path, buffer.getvalue())
+    return save_workbook(book, path)
 
 
 def make_tasks(

@@ -444,13 +444,12 @@ def write_building_workbook(
     balanced, Moves, a Work order and the revised building itself (a ``Building`` index sheet
     and one schedule sheet per panel, breakers that move shaded), which ``balancer building``
     reads again."""
-    from io import BytesIO
 
     from openpyxl import Workbook
     from openpyxl.styles import Alignment, Font
 
     from balancer.building_files import write_building_sheets
-    from balancer.io.writer import atomic_write_bytes, print_setup, write_rows_sheet
+    from balancer.io.writer import print_setup, save_workbook, write_rows_sheet
 
     book = Workbook()
     summary = book.active
@@ -524,9 +523,7 @@ def write_building_workbook(
             for name, o in result.outcomes.items()
         }
         write_building_sheets(book, result.after, f"{building.name}, revised", shaded)
-    buffer = BytesIO()
-    book.save(buffer)
-    return atomic_write_bytes(Path(path), buffer.getvalue())
+    return save_workbook(book, path)
 
 
 def _shown(value: object) -> str:

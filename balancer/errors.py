@@ -41,6 +41,13 @@ class ScheduleError(BalancerError):
         super().__init__("\n".join(lines))
 
 
+class OutputError(BalancerError):
+    """An output file cannot be written (no such folder, no permission, disk full, a folder in
+    the way, or it is the input); the message names the path and the reason."""
+
+    exit_status = 2
+
+
 class InfeasibleError(BalancerError):
     """No arrangement satisfies the panel's rules; the message names the conflict."""
 

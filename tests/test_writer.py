@@ -10,7 +10,7 @@ from openpyxl import load_workbook
 from writer_demo import DEMO_NOTICE, demo_panel, demo_result
 
 from balancer.analysis import analyze
-from balancer.errors import BalancerError
+from balancer.errors import BalancerError, OutputError
 from balancer.io.reader import read_schedule
 from balancer.io.writer import SAFETY_NOTES, row_role, write_workbook
 
@@ -300,7 +300,7 @@ def test_failed_save_keeps_the_old_file_and_no_temporary(
         raise OSError("disk full")
 
     monkeypatch.setattr(Workbook, "save", broken_save)
-    with pytest.raises(OSError, match="disk full"):
+    with pytest.raises(OutputError, match=r"out\.xlsx: cannot write the file: disk full"):
         write_workbook(demo_result(), target)
     assert target.read_bytes() == b"previous run"
     assert [p.name for p in tmp_path.iterdir()] == ["out.xlsx"]

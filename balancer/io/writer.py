@@ -22,7 +22,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
 from balancer.analysis import Loads, share_by_line
-from balancer.errors import BalancerError
+from balancer.errors import OutputError
 from balancer.panel import Circuit, Panel
 from balancer.result import BalanceResult, SolveStatus
 
@@ -129,14 +129,58 @@ def atomic_write_bytes(path: Path, data: bytes) -> Path:
     return _atomic(path, lambda tmp: tmp.write_bytes(data))
 
 
+def save_workbook(book: Workbook, path: Path | str) -> Path:
+    """Write ``book`` to ``path`` atomically; every workbook balancer writes goes through here.
+
+    balancer writes no formulas of its own, so a cell openpyxl took for a formula holds text
+    from a schedule (a description ``=HYPERLINK(...)``, a panel name ``=cmd|...``) that a
+    spreadsheet program would run: it is written as a text cell instead.
+    """
+    for sheet in book.worksheets:
+        for cell in sheet._cells.values():
+            if cell.data_type == "f":
+                cell.data_type = "s"
+    return _atomic(Path(path), book.save)
+
+
+def _new_file_mode() -> int:
+    """The mode a plain ``open(path, "w")`` would give: mkstemp's 0600 would hide the outputs
+    from the user's group. The umask can only be read by setting it, so it is set back at once
+    (balancer writes from one thread per process)."""
+    umask = os.umask(0o022)
+    os.umask(umask)
+    return 0o666 & ~umask
+
+
+def _cannot_write(path: Path, exc: OSError) -> OutputError:
+    folder = path.parent
+    reason = (
+        f"the folder {folder} does not exist"
+        if not folder.exists()
+        else f"{folder} is not a folder"
+        if not folder.is_dir()
+        else (exc.strerror or str(exc)).lower()
+    )
+    return OutputError(f"{path}: cannot write the file: {reason}")
+
+
 def _atomic(path: Path, write: Callable[[Path], object]) -> Path:
     path = Path(path)
-    fd, name = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=path.suffix, dir=path.parent)
+    if path.is_dir():
+        raise OutputError(f"{path}: is a folder; give a file name for the output")
+    try:
+        fd, name = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=path.suffix, dir=path.parent)
+    except OSError as exc:
+        raise _cannot_write(path, exc) from exc
     os.close(fd)
     tmp = Path(name)
     try:
         write(tmp)
+        os.chmod(tmp, _new_file_mode())
         os.replace(tmp, path)
+    except OSError as exc:  # disk full, quota, the folder went away: no temporary file stays
+        tmp.unlink(missing_ok=True)
+        raise _cannot_write(path, exc) from exc
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
@@ -154,7 +198,7 @@ def refuse_input_path(path: Path, *inputs: str | Path | None) -> None:
             target.exists() and source.exists() and os.path.samefile(target, source)
         )
         if same:
-            raise BalancerError(
+            raise OutputError(
                 f"{path}: this is the input schedule; balancer never overwrites its input. "
                 "Choose another output name."
             )
@@ -749,8 +793,8 @@ def write_workbook(
 
     Raises
     ------
-    BalancerError
-        When ``path`` is the input file.
+    OutputError
+        When ``path`` is the input file or cannot be written.
     """
     from balancer.io.charts import phase_load_chart
 
@@ -800,4 +844,4 @@ def write_workbook(
     _notes(wb.create_sheet())
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
-    return _atomic(path, lambda tmp: wb.save(tmp))
+    return save_workbook(wb, path)

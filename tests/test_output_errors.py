@@ -1,0 +1,125 @@
+"""An output that cannot be written gives one line naming the path and the reason, exit status 2,
+and leaves no temporary file; written files get the permissions the umask gives."""
+
+from __future__ import annotations
+
+import errno
+import os
+import stat
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+from openpyxl import Workbook
+
+from balancer.cli import main
+from balancer.io import writer
+
+SCHEDULE = "Circuit,Description,Poles,Load (VA)\n1,Lighting,1,1200\n3,Receptacles,1,900\n"
+
+
+@pytest.fixture
+def schedule(tmp_path: Path) -> Path:
+    folder = tmp_path / "in"
+    folder.mkdir()
+    path = folder / "panel.csv"
+    path.write_text(SCHEDULE, encoding="utf-8")
+    return path
+
+
+def _balance(schedule: Path, output: Path, capsys: pytest.CaptureFixture[str]) -> tuple[int, str]:
+    argv = ["balance", str(schedule), "-o", str(output), "--no-tradeoff", "--time-limit", "2"]
+    status = main(argv)
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    return status, err
+
+
+def _files(folder: Path) -> list[str]:
+    return sorted(p.name for p in folder.iterdir())
+
+
+def test_output_folder_missing_is_refused(
+    schedule: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    output = tmp_path / "no-such-folder" / "out.xlsx"
+    status, err = _balance(schedule, output, capsys)
+    assert status == 2
+    assert f"{output}: cannot write the file: the folder {output.parent} does not exist" in err
+    assert _files(schedule.parent) == ["panel.csv"]
+
+
+def test_output_path_that_is_a_folder_is_refused(
+    schedule: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    output = tmp_path / "taken.xlsx"
+    output.mkdir()
+    status, err = _balance(schedule, output, capsys)
+    assert status == 2
+    assert f"{output}: is a folder" in err
+    assert _files(output) == []
+    assert _files(tmp_path) == ["in", "taken.xlsx"]
+
+
+def test_output_folder_read_only_is_refused(
+    schedule: Path,
+    tmp_path: Path,
+    capsys: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    # the suite may run as root, which writes into a read-only folder anyway: the refusal the
+    # system gives is simulated where the temporary file is made
+    def refuse(*args: object, **kwargs: object) -> tuple[int, str]:
+        raise PermissionError(errno.EACCES, os.strerror(errno.EACCES))
+
+    monkeypatch.setattr(writer.tempfile, "mkstemp", refuse)
+    output = tmp_path / "out.xlsx"
+    status, err = _balance(schedule, output, capsys)
+    assert status == 2
+    assert f"{output}: cannot write the file: permission denied" in err
+    assert _files(tmp_path) == ["in"]
+
+
+def test_disk_full_leaves_no_temporary_file(
+    schedule: Path,
+    tmp_path: Path,
+    capsys: pytest.CaptureFixture[str],
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    def half_then_full(self: Workbook, filename: str) -> None:
+        Path(filename).write_bytes(b"PK\x03\x04 half a workbook")
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(Workbook, "save", half_then_full)
+    out = tmp_path / "out"
+    out.mkdir()
+    output = out / "panel-balanced.xlsx"
+    before = schedule.read_bytes()
+    status, err = _balance(schedule, output, capsys)
+    assert status == 2
+    assert f"{output}: cannot write the file: no space left on device" in err
+    assert _files(out) == []
+    assert schedule.read_bytes() == before
+
+
+@pytest.fixture
+def umask_027() -> Iterator[None]:
+    old = os.umask(0o027)
+    try:
+        yield
+    finally:
+        os.umask(old)
+
+
+def test_written_files_follow_the_umask(
+    umask_027: None, schedule: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    output = tmp_path / "out.xlsx"
+    pdf = tmp_path / "out.pdf"
+    argv = ["balance", str(schedule), "-o", str(output), "--pdf", str(pdf), "--no-tradeoff"]
+    assert main(argv) == 0
+    capsys.readouterr()
+    assert stat.S_IMODE(output.stat().st_mode) == 0o640
+    assert stat.S_IMODE(pdf.stat().st_mode) == 0o640
+    raw = writer.atomic_write_bytes(tmp_path / "raw.bin", b"x")
+    assert stat.S_IMODE(raw.stat().st_mode) == 0o640
