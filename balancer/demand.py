@@ -23,19 +23,26 @@ from balancer.datafiles import parse_toml
 from balancer.errors import Problem, ScheduleError
 from balancer.feeder import (
     BRANCH_DROP_GUIDE_PCT,
+    NEUTRAL_THRESHOLD_A,
     SMALL_CONDUCTOR_LIMIT_A,
+    STANDARD_RATINGS_A,
     TOTAL_DROP_GUIDE_PCT,
     Conductor,
+    allowable_a,
     ambient_factor,
     ampacity_a,
     bundling_factor,
     neutral_220_61,
     next_standard_rating,
     parse_conductor,
+    protected_by,
     select_conductor,
+    termination_column_c,
     voltage_drop_pct,
 )
+from balancer.harmonics import profile_for
 from balancer.panel import Circuit, Panel
+from balancer.phasors import circuit_harmonic_currents
 from balancer.systems import Line, System, get_system
 
 Method = Literal["factor", "tiers", "units"]
@@ -350,13 +357,16 @@ def resolve_rule_set(rules: str | Path | RuleSet | None, system: System) -> Rule
     return load_rule_set(path)
 
 
-def check_choices(rules: str | Path | None, occupancy: str) -> None:
-    """Raise the error a bad rule set or occupancy would give, before any long computation."""
+def check_choices(
+    rules: str | Path | None, occupancy: str, nonlinear_classes: tuple[str, ...] = ()
+) -> None:
+    """Raise the error a bad rule set, occupancy or class name would give, before any long
+    computation."""
     normalise_occupancy(occupancy)
+    rule_set = builtin_rule_set("nec2023")
     if rules is not None and isinstance(rules, str | Path):
-        key = str(rules).strip().lower().replace(" ", "").replace("-", "")
-        if key not in BUILTIN_RULE_SETS:
-            resolve_rule_set(rules, get_system("208Y/120"))
+        rule_set = resolve_rule_set(rules, get_system("208Y/120"))
+    _nonlinear_classes(rule_set, nonlinear_classes)
 
 
 def normalise_occupancy(text: str) -> str:
@@ -415,7 +425,10 @@ class DemandOptions:
     ``feeder_length_ft``: one-way feeder length for the voltage drop; ``feeder_conductor``:
     its size (``"3/0 Al"``), else the smallest copper size found. ``ambient_c`` and
     ``current_carrying`` apply Tables 310.15(B)(1) and 310.15(C)(1) to the feeder conductor.
-    ``nonlinear_classes``: classes whose neutral current is mostly non-linear (220.61(C)).
+    ``nonlinear_classes``: classes (names or Type spellings) whose neutral load is non-linear
+    (220.61(C)(2)); circuits whose harmonic profile has harmonics count without being named.
+    ``terminations_75c``: the equipment terminations are listed and identified for 75 °C, so
+    conductors of circuits of 100 A or less are taken from the 75 °C column (110.14(C)(1)(a)).
     """
 
     rules: str | Path | RuleSet | None = None
@@ -425,6 +438,7 @@ class DemandOptions:
     ambient_c: float | None = None
     current_carrying: int | None = None
     nonlinear_classes: tuple[str, ...] = ()
+    terminations_75c: bool = False
 
 
 @dataclass(frozen=True, slots=True)
@@ -477,6 +491,8 @@ class FeederCheck:
     voltage_drop_pct: float | None = None
     voltage_drop_conductor: str | None = None
     notes: tuple[str, ...] = ()
+    conductor_cu_c: int | None = None  # the Table 310.16 column of each size (110.14(C)(1))
+    conductor_al_c: int | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -484,9 +500,9 @@ class BranchFlag:
     """Something about one branch circuit to look at, with the clause behind it."""
 
     circuit_id: str
-    kind: (
-        str  # "overloaded", "no_trip", "small_conductor", "conductor_ampacity", "conductor_unread"
-    )
+    # "overloaded", "no_trip", "small_conductor", "conductor_ampacity",
+    # "unprotected_conductor", "conductor_unread"
+    kind: str
     message: str
     clause: str
     trip_a: float | None = None
@@ -541,9 +557,38 @@ def _per_line_voltage(system: System, poles: int, line: Line) -> float:
     return system.line_to_line_v / math.sqrt(3.0)
 
 
-def _circuit_current_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
-    """Whole-circuit current at the schedule's voltage, else the one its poles imply."""
+def _heavier_line_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
+    """The heavier line current of a 2-pole load with a line-to-neutral share at ``load_va``.
+
+    The same phasor figure :func:`balancer.analysis.analyze` reports: the share on the first
+    line to neutral, the rest between the lines (the share scales with the load).
+    """
     system = panel.system
+    lines = panel.lines_of(circuit)
+    if not lines:  # not placed: any two lines of which the first serves line-to-neutral loads
+        first = next(ln for ln in system.lines if system.serves_line_to_neutral(ln))
+        lines = (first, next(ln for ln in system.lines if ln != first))
+    scale = load_va / circuit.load_va if circuit.load_va else 1.0
+    neutral_va = (circuit.neutral_va or 0.0) * scale
+    try:
+        currents = circuit_harmonic_currents(
+            system, lines, load_va, circuit.power_factor, None, circuit.voltage_v, neutral_va
+        )[1]
+    except ValueError as exc:
+        raise ScheduleError(Problem(f"circuit {circuit.id}", str(exc))) from exc
+    return max(abs(current) for current in currents.lines.values())
+
+
+def _has_neutral_share(panel: Panel, circuit: Circuit) -> bool:
+    return circuit.poles == 2 and bool(circuit.neutral_va) and panel.system.neutral
+
+
+def _circuit_current_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
+    """Whole-circuit current at the schedule's voltage, else the one its poles imply; for a
+    2-pole load with a line-to-neutral share, its heavier line's current."""
+    system = panel.system
+    if _has_neutral_share(panel, circuit):
+        return _heavier_line_a(panel, circuit, load_va)
     if circuit.voltage_v:
         factor = math.sqrt(3.0) if circuit.poles == 3 else 1.0
         return load_va / (factor * circuit.voltage_v)
@@ -667,14 +712,15 @@ def compute_demand(panel: Panel, options: DemandOptions | None = None) -> Demand
                 )
     demands = [0.0 if r[1] in omitted else d for d, r in zip(demands, rows, strict=True)]
 
-    # Largest motor adder (430.24): on the largest motor still counted.
+    # Largest motor adder (430.24): on the motor still counted with the highest full-load
+    # current (430.17), which need not be the one of the most VA.
     adders = [0.0] * len(rows)
     motor_rows = [
         i for i, r in enumerate(rows) if rules.classes[r[1]].largest_motor and demands[i] > 0
     ]
     largest_motor_id = None
     if motor_rows and rules.largest_motor_extra > 0:
-        i = max(motor_rows, key=lambda k: rows[k][2])
+        i = max(motor_rows, key=lambda k: _circuit_current_a(panel, rows[k][0], rows[k][2]))
         adders[i] = rules.largest_motor_extra * rows[i][2]
         largest_motor_id = rows[i][0].id
 
@@ -685,7 +731,7 @@ def compute_demand(panel: Panel, options: DemandOptions | None = None) -> Demand
     by_class = _by_class(rules, rows, circuits, pool_of, occupancy, omitted, largest_motor_id)
     feeder, phase_demand, feeder_warnings = _feeder(panel, rules, rows, circuits, options)
     warnings += feeder_warnings
-    flags = _branch_flags(panel, rules, rows)
+    flags = _branch_flags(panel, rules, rows, options.terminations_75c)
     return DemandResult(
         rule_set=rules,
         occupancy=occupancy,
@@ -759,6 +805,55 @@ def _tiers_text(tiers: tuple[Tier, ...]) -> str:
     return ", ".join(parts)
 
 
+def _nonlinear_classes(rules: RuleSet, names: tuple[str, ...]) -> frozenset[str]:
+    """The rule set's classes for names or Type spellings (comma lists allowed)."""
+    out = set()
+    for item in names:
+        for text in filter(None, (part.strip() for part in item.split(","))):
+            name = text if text in rules.classes else classify(text)
+            if name is None or name not in rules.classes:
+                known = ", ".join(n for n in rules.classes if n != "spare")
+                raise ScheduleError(
+                    Problem("--nonlinear-classes", f"{text!r} is not a load class; use {known}")
+                )
+            out.add(name)
+    return frozenset(out)
+
+
+def _has_harmonics(circuit: Circuit) -> bool:
+    """Whether the circuit's harmonic profile (its Harmonics entry, else its Type) is non-linear."""
+    try:
+        profile = profile_for(circuit)
+    except ValueError as exc:
+        raise ScheduleError(Problem(f"circuit {circuit.id}", str(exc))) from exc
+    return profile is not None and any(m > 0 for _, m in profile.spectrum)
+
+
+def _column(rating_a: float | None, size: str | None, terminations_75c: bool) -> int | None:
+    if rating_a is None or size is None:
+        return None
+    return termination_column_c(rating_a, size, terminations_75c)
+
+
+def _given_feeder_warnings(
+    conductor: Conductor, required_a: float, ocpd_a: int | None, factor: float, t75: bool
+) -> list[str]:
+    """Why a feeder size given on the command line will not do (an empty list when it will)."""
+    found = allowable_a(conductor.material, conductor.size, ocpd_a or required_a, factor, t75)
+    if found is None:
+        return [f"feeder conductor {conductor}: Table 310.16 has no such size"]
+    adjusted, column = found
+    limit = f"{column} °C terminations" + (f", factor {factor:.2f}" if factor != 1.0 else "")
+    text = f"feeder conductor {conductor} carries {adjusted:.1f} A ({limit})"
+    # A size that carries the required current is protected by the minimum OCPD, the next
+    # standard rating above that current (240.4(B)), so the current is the one test.
+    if adjusted + 1e-9 >= required_a:
+        return []
+    return [
+        f"{text} but the feeder needs {required_a:.1f} A (215.2(A)(1), Table 310.16, 110.14(C)(1))"
+    ]
+
+
 def _is_four_wire_wye(system: System) -> bool:
     return system.neutral and system.high_leg is None and system.phase_count == 3
 
@@ -781,6 +876,7 @@ def _feeder(
     neutral_fixed = dict.fromkeys(lines, 0.0)
     unplaced = []
     wye = _is_four_wire_wye(system)
+    nonlinear = _nonlinear_classes(rules, options.nonlinear_classes)
     for (circuit, name, connected, continuous), result in zip(rows, circuits, strict=True):
         if result.demand_va == 0:
             continue
@@ -792,18 +888,27 @@ def _feeder(
         # Motors carry their 125% in the largest-motor adder (430.24), not the continuous factor.
         multiplier = rules.continuous_factor if continuous and not rule.largest_motor else 1.0
         circuit_factor = result.demand_va / connected if connected else 1.0
+        # A 2-pole load with a line-to-neutral share loads one line more than the other; which
+        # one the schedule does not say, so each of its lines takes the heavier current.
+        heavier_a = (
+            _heavier_line_a(panel, circuit, result.demand_va) * 2 / len(shares)
+            if _has_neutral_share(panel, circuit)
+            else None
+        )
         for line, va in shares.items():
-            volts = _per_line_voltage(system, circuit.poles, line)
+            amps = va / _per_line_voltage(system, circuit.poles, line)
+            if heavier_a is not None:
+                amps = heavier_a
             phase_va[line] += va
-            design[line] += va / volts
-            sizing[line] += va * multiplier / volts
+            design[line] += amps
+            sizing[line] += amps * multiplier
         if not system.neutral:
             continue
         if circuit.poles == 1:
+            # 220.61(C)(2): no reduction for the non-linear part on a 4-wire wye.
+            fixed = wye and (name in nonlinear or _has_harmonics(circuit))
             for line, va in shares.items():
-                target = (
-                    neutral_fixed if wye and name in options.nonlinear_classes else neutral_linear
-                )
+                target = neutral_fixed if fixed else neutral_linear
                 target[line] += va / _line_voltage(system, line)
         elif circuit.neutral_va:
             # Which line the 120 V part sits on is not known: count it on each (conservative).
@@ -831,10 +936,11 @@ def _feeder(
             f"{bundling_factor(options.current_carrying):.2f} (Table 310.15(C)(1))"
         )
     min_ocpd = cu = al = None
+    t75 = options.terminations_75c
     if rules.feeder_sizing:
         min_ocpd = next_standard_rating(required_a)
-        cu = select_conductor(required_a, "cu", min_ocpd, factor=factor)
-        al = select_conductor(required_a, "al", min_ocpd, factor=factor)
+        cu = select_conductor(required_a, "cu", min_ocpd, factor, None, t75)
+        al = select_conductor(required_a, "al", min_ocpd, factor, None, t75)
         if cu is None or al is None:
             notes.append(
                 "no single conductor up to 500 kcmil carries the load: "
@@ -846,6 +952,12 @@ def _feeder(
         worst = max(lines, key=lambda ln: per_line[ln])
         unreduced = neutral_linear[worst] + neutral_fixed[worst]
         neutral_a = per_line[worst] if rules.feeder_sizing else unreduced
+        if rules.feeder_sizing and neutral_fixed[worst] > 0 and unreduced > NEUTRAL_THRESHOLD_A:
+            notes.append(
+                f"neutral: {neutral_fixed[worst]:.1f} A of line {worst}'s line-to-neutral load "
+                "is non-linear or from two phases and neutral of a 4-wire wye, "
+                "and is not reduced (220.61(C))"
+            )
     ratings = [(v, n) for v, n in ((panel.main_a, "main"), (panel.bus_a, "bus")) if v]
     rating_a, rating_name = min(ratings) if ratings else (None, "")
     spare_a = spare_pct = None
@@ -861,19 +973,20 @@ def _feeder(
                 f"main {panel.main_a:g} A is below the minimum OCPD {min_ocpd} A (215.3, 240.6(A))"
             )
     drop = drop_size = None
-    if options.feeder_length_ft is not None:
-        conductor: Conductor | None
-        if options.feeder_conductor:
-            conductor = parse_conductor(options.feeder_conductor)
-            if conductor is None:
-                raise ScheduleError(
-                    Problem(
-                        "--feeder-conductor",
-                        f"{options.feeder_conductor!r} is not a size balancer knows",
-                    )
+    given: Conductor | None = None
+    if options.feeder_conductor:
+        given = parse_conductor(options.feeder_conductor)
+        if given is None:
+            raise ScheduleError(
+                Problem(
+                    "--feeder-conductor",
+                    f"{options.feeder_conductor!r} is not a size balancer knows",
                 )
-        else:
-            conductor = Conductor(cu, "cu") if cu else None
+            )
+        if rules.feeder_sizing:
+            warnings += _given_feeder_warnings(given, required_a, min_ocpd, factor, t75)
+    if options.feeder_length_ft is not None:
+        conductor = given or (Conductor(cu, "cu") if cu else None)
         if conductor is not None:
             drop = voltage_drop_pct(
                 design[design_line], options.feeder_length_ft, conductor,
@@ -895,6 +1008,8 @@ def _feeder(
         conductor_cu=cu,
         conductor_al=al,
         conductor_factor=factor,
+        conductor_cu_c=_column(min_ocpd, cu, t75),
+        conductor_al_c=_column(min_ocpd, al, t75),
         neutral_a=neutral_a,
         neutral_unreduced_a=unreduced,
         rating_a=rating_a,
@@ -909,7 +1024,10 @@ def _feeder(
 
 
 def _branch_flags(
-    panel: Panel, rules: RuleSet, rows: list[tuple[Circuit, str, float, bool]]
+    panel: Panel,
+    rules: RuleSet,
+    rows: list[tuple[Circuit, str, float, bool]],
+    terminations_75c: bool = False,
 ) -> tuple[BranchFlag, ...]:
     flags: list[BranchFlag] = []
     sizing = rules.feeder_sizing
@@ -965,7 +1083,8 @@ def _branch_flags(
             )
             continue
         limit = SMALL_CONDUCTOR_LIMIT_A.get((conductor.material, conductor.size))
-        if limit and circuit.trip_a and circuit.trip_a > limit and not rule.largest_motor:
+        over_limit = bool(limit and circuit.trip_a and circuit.trip_a > limit)
+        if over_limit and not rule.largest_motor:
             flags.append(
                 BranchFlag(
                     circuit.id, "small_conductor",
@@ -974,10 +1093,12 @@ def _branch_flags(
                     "240.4(D)", circuit.trip_a, required, limit,
                 )
             )  # fmt: skip
-        # 110.14(C)(1)(a): circuits of 100 A or less (or 14–1 AWG) use the 60 °C column.
-        column = 60 if (circuit.trip_a or required) <= 100 else 75
+        rating = circuit.trip_a or suggestion or required
+        column = termination_column_c(rating, conductor.size, terminations_75c)
         ampacity = ampacity_a(conductor.material, conductor.size, column)
-        if ampacity is not None and ampacity + 1e-9 < required:
+        if ampacity is None:
+            continue
+        if ampacity + 1e-9 < required:
             flags.append(
                 BranchFlag(
                     circuit.id, "conductor_ampacity",
@@ -986,7 +1107,34 @@ def _branch_flags(
                     f"Table 310.16, 110.14(C)(1), {clause}", circuit.trip_a, required, None,
                 )
             )  # fmt: skip
+        # 240.4: the breaker protects the conductor; 240.4(D) sizes beyond their limit are
+        # flagged above, and 240.4(G) sends motor and air-conditioning circuits elsewhere.
+        receptacles = name == "general_receptacles"
+        if (
+            circuit.trip_a
+            and not over_limit
+            and not rule.largest_motor
+            and not protected_by(ampacity, circuit.trip_a, receptacles)
+        ):
+            largest = _largest_protecting(ampacity, receptacles)
+            why = f"at most {largest} A"
+            if receptacles and protected_by(ampacity, circuit.trip_a):
+                why += "; no next size up on a branch circuit of several receptacles"
+            flags.append(
+                BranchFlag(
+                    circuit.id, "unprotected_conductor",
+                    f"{conductor} carries {ampacity} A ({column} °C column); the "
+                    f"{circuit.trip_a:g} A breaker does not protect it ({why})",
+                    "240.4(B), 110.14(C)(1), Table 310.16", circuit.trip_a, required, largest,
+                )
+            )  # fmt: skip
     return tuple(flags)
+
+
+def _largest_protecting(ampacity: float, multioutlet_receptacles: bool) -> int | None:
+    """The largest 240.6(A) rating that protects a conductor of ``ampacity`` (240.4(B))."""
+    fitting = [r for r in STANDARD_RATINGS_A if protected_by(ampacity, r, multioutlet_receptacles)]
+    return max(fitting) if fitting else None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -1048,6 +1196,8 @@ def demand_to_dict(result: DemandResult) -> dict[str, Any]:
             "min_ocpd_a": f.min_ocpd_a,
             "conductor_cu": f.conductor_cu,
             "conductor_al": f.conductor_al,
+            "conductor_cu_column_c": f.conductor_cu_c,
+            "conductor_al_column_c": f.conductor_al_c,
             "neutral_a": rnd(f.neutral_a, 2),
             "rating_a": f.rating_a,
             "spare_a": rnd(f.spare_a, 2),
@@ -1108,11 +1258,20 @@ def loads_section_lines(result: DemandResult) -> list[str]:
         f"{f.required_a:.1f} A ({basis})"
     )
     if rules.feeder_sizing:
-        out.append(
-            f"  Minimum OCPD {f.min_ocpd_a} A (240.6(A)); conductor "
-            f"{_size_text(f.conductor_cu, 'Cu')} or {_size_text(f.conductor_al, 'Al')} "
-            "(Table 310.16, 75 °C)"
-        )
+        columns = {c for c in (f.conductor_cu_c, f.conductor_al_c) if c}
+        if len(columns) > 1:
+            sizes = (
+                f"{_size_text(f.conductor_cu, 'Cu')} ({f.conductor_cu_c} °C) or "
+                f"{_size_text(f.conductor_al, 'Al')} ({f.conductor_al_c} °C) "
+                "(Table 310.16, 110.14(C)(1))"
+            )
+        else:
+            column = f", {columns.pop()} °C" if columns else ""
+            sizes = (
+                f"{_size_text(f.conductor_cu, 'Cu')} or {_size_text(f.conductor_al, 'Al')} "
+                f"(Table 310.16{column}, 110.14(C)(1))"
+            )
+        out.append(f"  Minimum OCPD {f.min_ocpd_a} A (240.6(A)); conductor {sizes}")
     if f.neutral_a is not None:
         reduced = (
             " after 220.61(B)"
@@ -1149,6 +1308,10 @@ def loads_section_lines(result: DemandResult) -> list[str]:
     return out
 
 
+def _column_text(column_c: int | None) -> str:
+    return f"{column_c} °C column" if column_c else ""
+
+
 def demand_sheet_rows(result: DemandResult) -> list[list[Any]]:
     """Rows for a workbook sheet: a header row, one row per class, the total and the feeder."""
     f = result.feeder
@@ -1179,8 +1342,8 @@ def demand_sheet_rows(result: DemandResult) -> list[list[Any]]:
     rows += [
         ["Required A", round(f.required_a, 1)],
         ["Minimum OCPD A", f.min_ocpd_a],
-        ["Conductor Cu (75 °C)", f.conductor_cu],
-        ["Conductor Al (75 °C)", f.conductor_al],
+        ["Conductor Cu", f.conductor_cu, _column_text(f.conductor_cu_c)],
+        ["Conductor Al", f.conductor_al, _column_text(f.conductor_al_c)],
         ["Neutral A", None if f.neutral_a is None else round(f.neutral_a, 1)],
         ["Spare A", None if f.spare_a is None else round(f.spare_a, 1)],
         ["Spare %", None if f.spare_pct is None else round(f.spare_pct, 1)],

@@ -1,5 +1,6 @@
-"""Feeder and conductor arithmetic: standard OCPD ratings, Table 310.16 ampacities, the 220.61
-neutral, 240.4(D) small-conductor limits and an informational voltage drop.
+"""Feeder and conductor arithmetic: standard OCPD ratings, Table 310.16 ampacities, the 110.14(C)(1)
+termination column, conductor protection (240.4(B), 240.4(D)), the 220.61 neutral and an
+informational voltage drop.
 
 Pure functions of numbers; :mod:`balancer.demand` decides which loads go in. Tables are those of
 NFPA 70 (NEC); each constant names its table and how its values were obtained.
@@ -49,6 +50,13 @@ AMPACITY_A: dict[Material, dict[str, tuple[int, int, int]]] = {
     },
 }  # fmt: skip
 _COLUMN = {60: 0, 75: 1, 90: 2}
+
+# 110.14(C)(1)(a): terminations of circuits rated 100 A or less, or marked for 14 AWG through
+# 1 AWG conductors, use the 60 °C column. A schedule does not say how a terminal is marked, so a
+# conductor in that size range is taken to land on such a terminal (the safe reading).
+SIZES_60C_TERMINALS = frozenset(SIZES[: SIZES.index("1") + 1])
+TERMINATION_LIMIT_A = 100.0  # 110.14(C)(1)(a) / (b)
+NEXT_SIZE_UP_LIMIT_A = 800  # 240.4(B)(3)
 
 # 240.4(D): largest overcurrent device on small conductors (read from a published copy).
 SMALL_CONDUCTOR_LIMIT_A: dict[tuple[Material, str], int] = {
@@ -125,30 +133,88 @@ def ampacity_a(material: Material, size: str, temperature_c: int = 75) -> int | 
     return None if row is None else row[_COLUMN[temperature_c]]
 
 
+def termination_column_c(rating_a: float, size: str, terminations_75c: bool = False) -> int:
+    """The Table 310.16 column (°C) a conductor's ampacity is read from, by 110.14(C)(1).
+
+    (a): a circuit rated ``rating_a`` ≤ 100 A, or a conductor of 14–1 AWG (terminals marked for
+    those sizes), uses 60 °C, unless the equipment is listed and identified for 75 °C
+    (``terminations_75c``). (b): above 100 A and larger than 1 AWG, 75 °C.
+    """
+    if terminations_75c:
+        return 75
+    if rating_a <= TERMINATION_LIMIT_A + 1e-9 or size in SIZES_60C_TERMINALS:
+        return 60
+    return 75
+
+
+def allowable_a(
+    material: Material,
+    size: str,
+    rating_a: float,
+    factor: float = 1.0,
+    terminations_75c: bool = False,
+) -> tuple[float, int] | None:
+    """A 75 °C conductor's allowable current and the termination column that limits it.
+
+    The 75 °C ampacity times the ambient and bundling ``factor``, but never above the ampacity
+    of the 110.14(C)(1) termination column (:func:`termination_column_c`), which the factors
+    do not touch. None when Table 310.16 has no such size.
+    """
+    column = termination_column_c(rating_a, size, terminations_75c)
+    insulation = ampacity_a(material, size, 75)
+    terminal = ampacity_a(material, size, column)
+    if insulation is None or terminal is None:
+        return None
+    return min(insulation * factor, float(terminal)), column
+
+
+def protected_by(conductor_a: float, ocpd_a: float, multioutlet_receptacles: bool = False) -> bool:
+    """Whether a device of ``ocpd_a`` protects a conductor of ampacity ``conductor_a`` (240.4).
+
+    At or above the device rating it always does. Below it, 240.4(B) allows the next standard
+    rating above an ampacity that is not itself a standard rating, up to 800 A, except on a
+    branch circuit supplying more than one receptacle for cord-and-plug-connected portable loads.
+    """
+    if conductor_a + 1e-9 >= ocpd_a:
+        return True
+    if multioutlet_receptacles or ocpd_a > NEXT_SIZE_UP_LIMIT_A:
+        return False
+    next_up = next_standard_rating(conductor_a)
+    return next_up is not None and next_up >= ocpd_a - 1e-9
+
+
 def select_conductor(
     required_a: float,
     material: Material,
     ocpd_a: float | None = None,
     factor: float = 1.0,
-    temperature_c: int = 75,
+    temperature_c: int | None = 75,
+    terminations_75c: bool = False,
 ) -> str | None:
     """The smallest size whose adjusted ampacity carries ``required_a``.
 
-    With ``ocpd_a`` the size must also be protected by that device: its adjusted ampacity at
-    least the rating, or, up to 800 A, the next standard rating above the ampacity at least the
-    device (240.4(B)). None when no size up to 500 kcmil will do (parallel sets are not chosen).
+    ``temperature_c`` is the Table 310.16 column the factor applies to; None: a 75 °C conductor
+    limited by each size's 110.14(C)(1) termination column at the device rating (``ocpd_a``,
+    else ``required_a``), see :func:`allowable_a`. With ``ocpd_a`` the size must also be
+    protected by that device (:func:`protected_by`). None when no size up to 500 kcmil will do
+    (parallel sets are not chosen).
     """
+    rating_a = ocpd_a if ocpd_a is not None else required_a
     for size in SIZES:
-        base = ampacity_a(material, size, temperature_c)
-        if base is None:
-            continue
-        adjusted = base * factor
+        if temperature_c is None:
+            found = allowable_a(material, size, rating_a, factor, terminations_75c)
+            if found is None:
+                continue
+            adjusted = found[0]
+        else:
+            base = ampacity_a(material, size, temperature_c)
+            if base is None:
+                continue
+            adjusted = base * factor
         if adjusted + 1e-9 < required_a:
             continue
-        if ocpd_a is not None and adjusted + 1e-9 < ocpd_a:
-            next_up = next_standard_rating(adjusted)
-            if ocpd_a > 800 or next_up is None or next_up < ocpd_a:
-                continue
+        if ocpd_a is not None and not protected_by(adjusted, ocpd_a):
+            continue
         return size
     return None
 

@@ -6,6 +6,7 @@ Panels here are invented demo data. NEC values cite the clause and how they were
 
 from __future__ import annotations
 
+import cmath
 import json
 import math
 from pathlib import Path
@@ -370,9 +371,18 @@ def test_ambient_and_bundling_raise_conductor() -> None:
         ambient_c=40,
         current_carrying=6,
     )
-    assert plain.feeder.conductor_cu == "3"  # 100 A
+    # A 100 A feeder: NEC 2023 110.14(C)(1)(a), 60 °C terminations: 2 AWG Cu 95 A is short,
+    # 1 AWG Cu 110 A will do (Table 310.16, F; docs/references.md).
+    assert plain.feeder.conductor_cu == "1"
+    assert plain.feeder.conductor_cu_c == 60
+    # Terminations listed for 75 °C: 3 AWG Cu 100 A (Table 310.16, F).
+    listed = run(
+        [{"load_class": "other", "load_va": 12000.0, "spaces": (1,)}], terminations_75c=True
+    )
+    assert listed.feeder.conductor_cu == "3"
     assert hot.feeder.conductor_factor == pytest.approx(0.88 * 0.8)
-    assert hot.feeder.conductor_cu == "1/0"  # 100 / 0.704 = 142 A -> 150 A
+    # 1 AWG: min(130 × 0.704, 110) = 91.5 A < 100 A; 1/0: min(150 × 0.704, 125) = 105.6 A.
+    assert hot.feeder.conductor_cu == "1/0"
 
 
 # --- branch circuits -------------------------------------------------------------------------
@@ -693,3 +703,192 @@ def test_check_choices_fails_early_on_bad_input(tmp_path: Path) -> None:
         check_choices(None, "spaceport")
     with pytest.raises(ScheduleError, match="--rules"):
         check_choices(str(tmp_path / "missing.toml"), "other")
+
+
+# --- code checks: non-linear neutral, largest motor, conductor protection, neutral share -----
+
+SMPS = (("Harmonics", "switch-mode"),)
+
+
+def test_nonlinear_neutral_from_the_harmonic_profile_is_not_reduced() -> None:
+    # NEC 2023 220.61(C)(2) (F, docs/references.md): no 220.61(B) reduction for the part of the
+    # neutral load that is non-linear on a 4-wire wye. 60 × 1,500 VA switch-mode circuits on
+    # 208Y/120: 30,000 VA per line / 120 V = 250 A (C); all non-linear, so 250 A, not
+    # 200 + 0.7 × 50 = 235 A.
+    loads = [{"load_class": "other", "load_va": 1500.0, "spaces": (k,)} for k in range(1, 61)]
+    linear = compute_demand(make_panel(loads))
+    assert linear.feeder.design_a == pytest.approx(250.0, abs=ATOL_A)
+    assert linear.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
+    smps = compute_demand(make_panel([{**item, "extra": SMPS} for item in loads]))
+    assert smps.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
+    assert any("220.61(C)" in note for note in smps.feeder.notes)
+    # The same by naming the class (Type spellings are accepted too).
+    named = compute_demand(make_panel(loads), DemandOptions(nonlinear_classes=("misc",)))
+    assert named.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
+    # The bundled "linear" profile has no harmonics: reduced as before.
+    plain = compute_demand(
+        make_panel([{**item, "extra": (("Harmonics", "linear"),)} for item in loads])
+    )
+    assert plain.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
+
+
+def test_mixed_linear_and_nonlinear_neutral_by_hand() -> None:
+    # NEC 2023 220.61(B), (C)(2) (F). Per line: 4 × 7,200 VA linear = 240 A and 1 × 7,200 VA
+    # switch-mode = 60 A (C: 7,200 / 120). Only the linear 240 A is reduced above 200 A:
+    # 60 + 200 + 0.7 × 40 = 288 A.
+    linear = [{"load_class": "other", "load_va": 7200.0} for _ in range(12)]
+    nonlinear = [{"load_class": "other", "load_va": 7200.0, "extra": SMPS} for _ in range(3)]
+    result = compute_demand(make_panel(linear + nonlinear))
+    assert result.feeder.neutral_unreduced_a == pytest.approx(300.0, abs=ATOL_A)
+    assert result.feeder.neutral_a == pytest.approx(288.0, abs=ATOL_A)
+
+
+def test_nonlinear_neutral_off_a_wye_is_reduced() -> None:
+    # NEC 2023 220.61(C)(2) (F) names 4-wire wye systems only: on 120/240 V the same 250 A of
+    # switch-mode load is reduced to 200 + 0.7 × 50 = 235 A (220.61(B)).
+    loads = [
+        {"load_class": "other", "load_va": 1500.0, "spaces": (k,), "extra": SMPS}
+        for k in range(1, 41)
+    ]
+    result = compute_demand(make_panel(loads, "120/240"))
+    assert result.feeder.neutral_unreduced_a == pytest.approx(250.0, abs=ATOL_A)
+    assert result.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
+
+
+def test_unknown_nonlinear_class_is_an_error() -> None:
+    with pytest.raises(ScheduleError, match="nonlinear-classes"):
+        run([("other", 100.0, 1)], nonlinear_classes=("widget",))
+    with pytest.raises(ScheduleError, match="nonlinear-classes"):
+        check_choices(None, "other", ("other,widget",))
+    check_choices(None, "other", ("other, receptacle",))  # both known: no error
+
+
+def test_largest_motor_is_the_one_of_highest_full_load_current() -> None:
+    # NEC 2023 430.24 with 430.17 (F, docs/references.md): 25 % of the motor with the highest
+    # rated full-load current. 1-pole 1,900 VA at 120 V = 15.8 A beats a 2-pole 3,000 VA motor
+    # at 208 V = 14.4 A (C), though the second has more VA.
+    result = run([("mtr", 1900.0, 1), ("mtr", 3000.0, 2)])
+    adders = {c.circuit_id: c.motor_adder_va for c in result.circuits}
+    assert adders == {"1": pytest.approx(0.25 * 1900.0), "2": 0.0}
+    assert "circuit 1" in next(c.rule for c in result.by_class if c.name == "motors")
+    # Line A: 1,900 × 1.25 / 120 = 19.79 A, above line B's 3,000 / 208 = 14.42 A (C).
+    assert result.feeder.required_a == pytest.approx(1900.0 * 1.25 / 120.0, abs=ATOL_A)
+    assert result.feeder.design_line == "A"
+
+
+def _wired(load_class: str, va: float, trip_a: float, wire: str) -> dict[str, Any]:
+    return {
+        "load_class": load_class,
+        "load_va": va,
+        "trip_a": trip_a,
+        "continuous": False,
+        "extra": (("Wire", wire),),
+    }
+
+
+@pytest.mark.parametrize(
+    ("item", "listed_75c", "suggested_a"),
+    [
+        # 6 AWG Cu, 60 °C 55 A, on 60 A: the next size up (240.4(B)) protects it.
+        (_wired("other", 4800.0, 60.0, "#6"), False, None),
+        # The same on a receptacle circuit: 240.4(B)(1) does not allow it; at most 50 A.
+        (_wired("rcpt", 4800.0, 60.0, "#6"), False, 50),
+        # 8 AWG Cu, 60 °C 40 A (a standard rating) on 50 A: not protected; at most 40 A.
+        (_wired("other", 3600.0, 50.0, "#8"), False, 40),
+        # Terminations listed for 75 °C: 8 AWG Cu carries 50 A (110.14(C)(1)(a)).
+        (_wired("other", 3600.0, 50.0, "#8"), True, None),
+        # 3 AWG Cu, 60 °C 85 A, on 90 A: next size up (240.4(B)).
+        (_wired("other", 9600.0, 90.0, "3 AWG"), False, None),
+        # 1 AWG Cu on 125 A: a 14-1 AWG conductor at 60 °C, 110 A; at most 110 A.
+        (_wired("other", 12000.0, 125.0, "1 Cu"), False, 110),
+        (_wired("other", 12000.0, 125.0, "1 Cu"), True, None),  # 75 °C 130 A
+        # 1/0 Cu on 125 A: above 100 A and above 1 AWG, 75 °C 150 A (110.14(C)(1)(b)).
+        (_wired("other", 12000.0, 125.0, "1/0"), False, None),
+    ],
+)
+def test_branch_conductor_protection_240_4_b_and_110_14_c(
+    item: dict[str, Any], listed_75c: bool, suggested_a: int | None
+) -> None:
+    # NEC 2023 240.4(B), 240.6(A), 110.14(C)(1), Table 310.16 (F, docs/references.md).
+    result = run([item], terminations_75c=listed_75c)
+    flags = [b for b in result.branch_flags if b.kind == "unprotected_conductor"]
+    assert [b.suggested_trip_a for b in flags] == ([] if suggested_a is None else [suggested_a])
+    assert not [b for b in result.branch_flags if b.kind == "conductor_ampacity"]
+
+
+def test_240_4_d_conductor_is_not_flagged_twice() -> None:
+    # 12 AWG Cu on 30 A: the 240.4(D) limit (20 A, F) is the one flag.
+    result = run([_wired("other", 1200.0, 30.0, "#12")])
+    assert [b.kind for b in result.branch_flags] == ["small_conductor"]
+
+
+def test_given_feeder_conductor_too_small_warns() -> None:
+    # 12,000 VA on line A = 100 A; a 100 A feeder at 60 °C terminations (110.14(C)(1)(a)):
+    # 2 AWG Cu carries 95 A (Table 310.16, F), short of 100 A; 1 AWG Cu (110 A) is enough.
+    loads = [{"load_class": "other", "load_va": 12000.0, "spaces": (1,)}]
+    small = run(loads, feeder_conductor="2 Cu")
+    assert any("2 AWG Cu carries 95.0 A" in w and "100.0 A" in w for w in small.warnings)
+    assert any("feeder conductor" in line for line in loads_section_lines(small))
+    enough = run(loads, feeder_conductor="1 Cu")
+    assert not any("feeder conductor" in w for w in enough.warnings)
+    # Listed 75 °C terminations: 3 AWG Cu (100 A) will do, 4 AWG (85 A) will not.
+    assert not any(
+        "feeder" in w for w in run(loads, feeder_conductor="3", terminations_75c=True).warnings
+    )
+    assert any(
+        "4 AWG Cu" in w for w in run(loads, feeder_conductor="4", terminations_75c=True).warnings
+    )
+
+
+def test_given_feeder_conductor_with_factors_warns() -> None:
+    # 4,800 VA on A = 40 A, a 40 A feeder: 8 AWG Al carries 35 A at 60 °C (Table 310.16, F;
+    # 110.14(C)(1)(a)), short of 40 A; with terminations listed for 75 °C, 40 A: enough.
+    loads = [{"load_class": "other", "load_va": 4800.0, "spaces": (1,)}]
+    assert any("8 AWG Al carries 35.0 A" in w for w in run(loads, feeder_conductor="8 Al").warnings)
+    listed = run(loads, feeder_conductor="8 Al", terminations_75c=True)
+    assert not any("feeder conductor" in w for w in listed.warnings)
+    # 10,200 VA on A = 85 A. 3 AWG Cu at 75 °C with six current-carrying conductors (0.8,
+    # Table 310.15(C)(1), from memory): 100 × 0.8 = 80 A (C), short of 85 A.
+    hot = run(
+        [{"load_class": "other", "load_va": 10200.0, "spaces": (1,)}],
+        feeder_conductor="3",
+        terminations_75c=True,
+        current_carrying=6,
+    )
+    assert any("carries 80.0 A (75 °C terminations, factor 0.80)" in w for w in hot.warnings)
+
+
+def _heavier_line_by_hand(load_va: float, neutral_va: float, system: str) -> float:
+    """Hand calculation (C): the share from line A to neutral (120 V at 0°), the rest across
+    A-B (240 V at 0° on 120/240; the nominal 208 V leading V_A by 30° on 208Y/120)."""
+    v_ll, angle = (240.0, 0.0) if system == "120/240" else (208.0, math.radians(30.0))
+    to_neutral = neutral_va / 120.0
+    between = cmath.rect((load_va - neutral_va) / v_ll, angle)
+    return max(abs(to_neutral + between), abs(between))
+
+
+@pytest.mark.parametrize(
+    ("system", "load_va", "neutral_va"),
+    [("120/240", 5600.0, 600.0), ("208Y/120", 5000.0, 1000.0)],
+)
+def test_two_pole_with_neutral_share_uses_the_heavier_line(
+    system: str, load_va: float, neutral_va: float
+) -> None:
+    # 120/240 V: 5,000 VA / 240 V = 20.83 A on both lines, plus 600 / 120 = 5 A on one: 25.83 A
+    # (C). On 208Y/120 the two currents are 30° apart, so the phasor sum is taken.
+    from balancer.analysis import analyze
+
+    item = {"load_class": "other", "load_va": load_va, "poles": 2, "neutral_va": neutral_va}
+    panel = make_panel([item], system)
+    expected = _heavier_line_by_hand(load_va, neutral_va, system)
+    if system == "120/240":
+        assert expected == pytest.approx(5000.0 / 240.0 + 5.0, abs=ATOL_A)
+    loads = analyze(panel)
+    assert max(loads.line_a.values()) == pytest.approx(expected, abs=ATOL_A)
+    result = compute_demand(panel)
+    assert result.feeder.design_a == pytest.approx(expected, abs=ATOL_A)
+    assert all(
+        a == pytest.approx(expected, abs=ATOL_A) for a in result.feeder.line_design_a.values() if a
+    )
+    flag = next(b for b in result.branch_flags if b.kind == "no_trip")
+    assert flag.required_a == pytest.approx(expected, abs=ATOL_A)

@@ -16,13 +16,16 @@ from balancer.feeder import (
     RESISTANCE_OHM_PER_KFT,
     SIZES,
     Conductor,
+    allowable_a,
     ambient_factor,
     ampacity_a,
     bundling_factor,
     neutral_220_61,
     next_standard_rating,
     parse_conductor,
+    protected_by,
     select_conductor,
+    termination_column_c,
     voltage_drop_pct,
 )
 
@@ -207,3 +210,66 @@ def test_240_4_b_applies_to_the_adjusted_ampacity() -> None:
     assert select_conductor(75.0, "cu", ocpd_a=90, factor=0.8) == "2"
     # 4 AWG Cu: 85 × 0.94 = 79.9 A; the next rating above is 80 A: an 80 A device protects it.
     assert select_conductor(75.0, "cu", ocpd_a=80, factor=0.94) == "4"
+
+
+# NEC 2023 110.14(C)(1) (F, docs/references.md): circuits rated 100 A or less, or terminals
+# marked for 14-1 AWG, use the 60 °C column unless the equipment is listed for 75 °C; above
+# 100 A and larger than 1 AWG, 75 °C. A schedule does not say how a terminal is marked, so a
+# 14-1 AWG conductor is taken to land on a 14-1 AWG terminal.
+@pytest.mark.parametrize(
+    ("rating_a", "size", "listed_75c", "column_c"),
+    [
+        (100.0, "1/0", False, 60),
+        (100.0, "1/0", True, 75),
+        (110.0, "1/0", False, 75),
+        (110.0, "2", False, 60),
+        (110.0, "2", True, 75),
+        (400.0, "500", False, 75),
+        (20.0, "12", False, 60),
+    ],
+)
+def test_termination_column_110_14_c_1(
+    rating_a: float, size: str, listed_75c: bool, column_c: int
+) -> None:
+    assert termination_column_c(rating_a, size, listed_75c) == column_c
+
+
+def test_allowable_current_is_limited_by_the_termination_column() -> None:
+    # NEC 2023 110.14(C)(1), Table 310.16 (F): 1/0 Cu on a 100 A circuit: 75 °C 150 A × 0.8 =
+    # 120 A, but the 60 °C column limits it to 125 A, not reached; at 0.9 it is 135 -> 125 A.
+    assert allowable_a("cu", "1/0", 100.0, 0.8) == (pytest.approx(120.0), 60)
+    assert allowable_a("cu", "1/0", 100.0, 0.9) == (125.0, 60)
+    assert allowable_a("cu", "1/0", 100.0, 0.9, terminations_75c=True) == (
+        pytest.approx(135.0),
+        75,
+    )
+    assert allowable_a("al", "14", 15.0) is None
+
+
+@pytest.mark.parametrize(
+    ("conductor_a", "ocpd_a", "receptacles", "protected"),
+    [
+        (55.0, 60, False, True),  # 240.4(B): 55 A is not a standard rating; next up is 60 A
+        (55.0, 60, True, False),  # 240.4(B)(1): not on a circuit of several receptacles
+        (55.0, 70, False, False),  # two ratings up
+        (40.0, 45, False, False),  # 40 A is a standard rating: no next size up
+        (40.0, 40, True, True),  # at the rating: always protected (240.4)
+        (750.0, 800, False, True),  # next standard rating 800 A: allowed up to 800 A
+        (850.0, 1000, False, False),  # 240.4(B)(3): not above 800 A (240.4(C) applies)
+    ],
+)
+def test_protected_by_240_4_b(
+    conductor_a: float, ocpd_a: int, receptacles: bool, protected: bool
+) -> None:
+    # NEC 2023 240.4(B), 240.6(A) standard ratings (F, docs/references.md).
+    assert protected_by(conductor_a, ocpd_a, receptacles) is protected
+
+
+def test_select_conductor_by_termination_column() -> None:
+    # NEC 2023 110.14(C)(1), Table 310.16 (F): 100 A at a 100 A device, 60 °C terminations:
+    # 2 AWG Cu 95 A is short, 1 AWG Cu 110 A; listed 75 °C terminations: 3 AWG Cu 100 A.
+    assert select_conductor(100.0, "cu", 100, temperature_c=None) == "1"
+    assert select_conductor(100.0, "cu", 100, temperature_c=None, terminations_75c=True) == "3"
+    # 105 A at a 125 A device: 1 AWG is still a 14-1 AWG size at 60 °C (110 A carries it, next
+    # rating 110 A < 125 A); 1/0 Cu is read at 75 °C (150 A).
+    assert select_conductor(105.0, "cu", 125, temperature_c=None) == "1/0"
