@@ -124,6 +124,19 @@ def _demand_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument(
         "--conductors", type=int, metavar="N", help="current-carrying conductors together"
     )
+    group.add_argument(
+        "--nonlinear-classes",
+        metavar="CLASSES",
+        help="load classes whose neutral load is non-linear, e.g. 'other,receptacle': not "
+        "reduced on a 4-wire wye (220.61(C)(2)); circuits with a non-linear harmonic profile "
+        "count without it",
+    )
+    group.add_argument(
+        "--terminations-75c",
+        action="store_true",
+        help="terminations listed for 75 °C conductors; otherwise circuits of 100 A or less "
+        "and 14-1 AWG conductors are taken at 60 °C (110.14(C)(1))",
+    )
 
 
 def _output_options(parser: argparse.ArgumentParser) -> None:
@@ -160,7 +173,8 @@ def _demand_choices(args: argparse.Namespace) -> Any:
 
     if args.feeder_length is not None and args.feeder_length <= 0:
         raise ScheduleError(Problem("--feeder-length", "must be more than 0 feet"))
-    check_choices(args.rules, args.occupancy)
+    nonlinear = (args.nonlinear_classes,) if args.nonlinear_classes else ()
+    check_choices(args.rules, args.occupancy, nonlinear)
     return DemandOptions(
         rules=args.rules,
         occupancy=args.occupancy,
@@ -168,6 +182,8 @@ def _demand_choices(args: argparse.Namespace) -> Any:
         feeder_conductor=args.feeder_conductor,
         ambient_c=args.ambient,
         current_carrying=args.conductors,
+        nonlinear_classes=nonlinear,
+        terminations_75c=args.terminations_75c,
     )
 
 
