@@ -331,7 +331,7 @@ def test_neutral_reduction_above_200_a_and_nonlinear_exception() -> None:
     result = run(loads)
     assert result.feeder.neutral_unreduced_a == pytest.approx(300.0, abs=ATOL_A)
     assert result.feeder.neutral_a == pytest.approx(270.0, abs=ATOL_A)
-    # 220.61(C)(1): the non-linear part on a 4-wire wye is not reduced.
+    # 220.61(C)(2): the non-linear part on a 4-wire wye is not reduced.
     nonlinear = run(loads, nonlinear_classes=("other",))
     assert nonlinear.feeder.neutral_a == pytest.approx(300.0, abs=ATOL_A)
 
@@ -371,8 +371,8 @@ def test_ambient_and_bundling_raise_conductor() -> None:
         ambient_c=40,
         current_carrying=6,
     )
-    # A 100 A feeder: NEC 2023 110.14(C)(1)(a), 60 °C terminations: 2 AWG Cu 95 A is short,
-    # 1 AWG Cu 110 A will do (Table 310.16, F; docs/references.md).
+    # A 100 A feeder: NEC 2023 110.14(C)(1)(a) (from memory), 60 °C terminations: 2 AWG Cu 95 A is
+    # short, 1 AWG Cu 110 A will do (Table 310.16, F; docs/references.md).
     assert plain.feeder.conductor_cu == "1"
     assert plain.feeder.conductor_cu_c == 60
     # Terminations listed for 75 °C: 3 AWG Cu 100 A (Table 310.16, F).
@@ -657,7 +657,7 @@ def test_two_pole_neutral_part_reduced_only_off_a_wye() -> None:
     single_phase = run([item], system="120/240")
     # 120/240 V: 200 + 0.7 × 50 = 235 A (220.61(B), F).
     assert single_phase.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
-    # Two phases and neutral of a 4-wire wye: no reduction (220.61(C)(2), F).
+    # Two phases and neutral of a 4-wire wye: no reduction (220.61(C)(1), F).
     wye = run([item], system="208Y/120")
     assert wye.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
 
@@ -711,9 +711,9 @@ SMPS = (("Harmonics", "switch-mode"),)
 
 
 def test_nonlinear_neutral_from_the_harmonic_profile_is_not_reduced() -> None:
-    # NEC 2023 220.61(C)(2) (F, docs/references.md): no 220.61(B) reduction for the part of the
-    # neutral load that is non-linear on a 4-wire wye. 60 × 1,500 VA switch-mode circuits on
-    # 208Y/120: 30,000 VA per line / 120 V = 250 A (C); all non-linear, so 250 A, not
+    # NEC 2023 220.61(C)(2) (F; item number from memory; docs/references.md): no 220.61(B) reduction
+    # for the part of the neutral load that is non-linear on a 4-wire wye. 60 × 1,500 VA switch-mode
+    # circuits on 208Y/120: 30,000 VA per line / 120 V = 250 A (C); all non-linear, so 250 A, not
     # 200 + 0.7 × 50 = 235 A.
     loads = [{"load_class": "other", "load_va": 1500.0, "spaces": (k,)} for k in range(1, 61)]
     linear = compute_demand(make_panel(loads))
@@ -744,8 +744,8 @@ def test_mixed_linear_and_nonlinear_neutral_by_hand() -> None:
 
 
 def test_nonlinear_neutral_off_a_wye_is_reduced() -> None:
-    # NEC 2023 220.61(C)(2) (F) names 4-wire wye systems only: on 120/240 V the same 250 A of
-    # switch-mode load is reduced to 200 + 0.7 × 50 = 235 A (220.61(B)).
+    # NEC 2023 220.61(C)(2) (F; item number from memory) names 4-wire wye systems only: on 120/240 V
+    # the same 250 A of switch-mode load is reduced to 200 + 0.7 × 50 = 235 A (220.61(B)).
     loads = [
         {"load_class": "other", "load_va": 1500.0, "spaces": (k,), "extra": SMPS}
         for k in range(1, 41)
@@ -764,9 +764,9 @@ def test_unknown_nonlinear_class_is_an_error() -> None:
 
 
 def test_largest_motor_is_the_one_of_highest_full_load_current() -> None:
-    # NEC 2023 430.24 with 430.17 (F, docs/references.md): 25 % of the motor with the highest
-    # rated full-load current. 1-pole 1,900 VA at 120 V = 15.8 A beats a 2-pole 3,000 VA motor
-    # at 208 V = 14.4 A (C), though the second has more VA.
+    # NEC 2023 430.24 (F) with 430.17 (from memory; docs/references.md): 25 % of the motor with the
+    # highest rated full-load current. 1-pole 1,900 VA at 120 V = 15.8 A beats a 2-pole 3,000 VA
+    # motor at 208 V = 14.4 A (C), though the second has more VA.
     result = run([("mtr", 1900.0, 1), ("mtr", 3000.0, 2)])
     adders = {c.circuit_id: c.motor_adder_va for c in result.circuits}
     assert adders == {"1": pytest.approx(0.25 * 1900.0), "2": 0.0}
@@ -809,7 +809,8 @@ def _wired(load_class: str, va: float, trip_a: float, wire: str) -> dict[str, An
 def test_branch_conductor_protection_240_4_b_and_110_14_c(
     item: dict[str, Any], listed_75c: bool, suggested_a: int | None
 ) -> None:
-    # NEC 2023 240.4(B), 240.6(A), 110.14(C)(1), Table 310.16 (F, docs/references.md).
+    # NEC 2023 240.6(A), Table 310.16 (F); 240.4(B), 110.14(C)(1) (from memory);
+    # docs/references.md.
     result = run([item], terminations_75c=listed_75c)
     flags = [b for b in result.branch_flags if b.kind == "unprotected_conductor"]
     assert [b.suggested_trip_a for b in flags] == ([] if suggested_a is None else [suggested_a])

@@ -122,8 +122,8 @@ def test_nonlinear_neutral_from_the_command_line_and_the_schedule(
     extra: list[str],
     neutral_a: float,
 ) -> None:
-    # NEC 2023 220.61(C)(2) (F, docs/references.md): 60 × 1,500 VA on 208Y/120 = 30,000 VA per
-    # line = 250 A (C); no 220.61(B) reduction of the non-linear part.
+    # NEC 2023 220.61(C)(2) (F; item number from memory; docs/references.md): 60 × 1,500 VA on
+    # 208Y/120 = 30,000 VA per line = 250 A (C); no 220.61(B) reduction of the non-linear part.
     csv = _workstations(tmp_path, profile)
     assert main(["check", "--json", str(csv), "--system", "208Y/120", *extra]) == 0
     feeder = json.loads(capsys.readouterr().out)["demand"]["feeder"]
@@ -134,8 +134,9 @@ def test_nonlinear_neutral_from_the_command_line_and_the_schedule(
 def test_terminations_and_feeder_conductor_options(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    # 12,000 VA on one line = 100 A: NEC 2023 110.14(C)(1)(a), Table 310.16 (F): 1 AWG Cu at
-    # 60 °C; 3 AWG Cu with terminations listed for 75 °C. 2 AWG Cu (95 A at 60 °C) is too small.
+    # 12,000 VA on one line = 100 A: NEC 2023 110.14(C)(1)(a) (from memory), Table 310.16 (F): 1 AWG
+    # Cu at 60 °C; 3 AWG Cu with terminations listed for 75 °C. 2 AWG Cu (95 A at 60 °C) is too
+    # small.
     csv = _write(tmp_path / "one.csv", ["Circuit,Description,Poles,VA", "1,heater,1,12000"])
     assert main(["check", str(csv), "--feeder-conductor", "2 Cu"]) == 0
     out = capsys.readouterr().out

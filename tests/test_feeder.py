@@ -212,9 +212,9 @@ def test_240_4_b_applies_to_the_adjusted_ampacity() -> None:
     assert select_conductor(75.0, "cu", ocpd_a=80, factor=0.94) == "4"
 
 
-# NEC 2023 110.14(C)(1) (F, docs/references.md): circuits rated 100 A or less, or terminals
-# marked for 14-1 AWG, use the 60 °C column unless the equipment is listed for 75 °C; above
-# 100 A and larger than 1 AWG, 75 °C. A schedule does not say how a terminal is marked, so a
+# NEC 2023 110.14(C)(1) (from memory, docs/references.md): circuits rated 100 A or less, or
+# terminals marked for 14-1 AWG, use the 60 °C column unless the equipment is listed for 75 °C;
+# above 100 A and larger than 1 AWG, 75 °C. A schedule does not say how a terminal is marked, so a
 # 14-1 AWG conductor is taken to land on a 14-1 AWG terminal.
 @pytest.mark.parametrize(
     ("rating_a", "size", "listed_75c", "column_c"),
@@ -235,8 +235,9 @@ def test_termination_column_110_14_c_1(
 
 
 def test_allowable_current_is_limited_by_the_termination_column() -> None:
-    # NEC 2023 110.14(C)(1), Table 310.16 (F): 1/0 Cu on a 100 A circuit: 75 °C 150 A × 0.8 =
-    # 120 A, but the 60 °C column limits it to 125 A, not reached; at 0.9 it is 135 -> 125 A.
+    # NEC 2023 110.14(C)(1) (from memory), Table 310.16 (F): 1/0 Cu on a 100 A circuit: 75 °C 150 A
+    # × 0.8 = 120 A, but the 60 °C column limits it to 125 A, not reached; at 0.9 it is 135 -> 125
+    # A.
     assert allowable_a("cu", "1/0", 100.0, 0.8) == (pytest.approx(120.0), 60)
     assert allowable_a("cu", "1/0", 100.0, 0.9) == (125.0, 60)
     assert allowable_a("cu", "1/0", 100.0, 0.9, terminations_75c=True) == (
@@ -261,13 +262,14 @@ def test_allowable_current_is_limited_by_the_termination_column() -> None:
 def test_protected_by_240_4_b(
     conductor_a: float, ocpd_a: int, receptacles: bool, protected: bool
 ) -> None:
-    # NEC 2023 240.4(B), 240.6(A) standard ratings (F, docs/references.md).
+    # NEC 2023 240.4(B) (from memory), 240.6(A) standard ratings (F); docs/references.md.
     assert protected_by(conductor_a, ocpd_a, receptacles) is protected
 
 
 def test_select_conductor_by_termination_column() -> None:
-    # NEC 2023 110.14(C)(1), Table 310.16 (F): 100 A at a 100 A device, 60 °C terminations:
-    # 2 AWG Cu 95 A is short, 1 AWG Cu 110 A; listed 75 °C terminations: 3 AWG Cu 100 A.
+    # NEC 2023 110.14(C)(1) (from memory), Table 310.16 (F): 100 A at a 100 A device, 60 °C
+    # terminations: 2 AWG Cu 95 A is short, 1 AWG Cu 110 A; listed 75 °C terminations: 3 AWG Cu 100
+    # A.
     assert select_conductor(100.0, "cu", 100, temperature_c=None) == "1"
     assert select_conductor(100.0, "cu", 100, temperature_c=None, terminations_75c=True) == "3"
     # 105 A at a 125 A device: 1 AWG is still a 14-1 AWG size at 60 °C (110 A carries it, next
