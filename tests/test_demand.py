@@ -1,7 +1,7 @@
 """Demand rules at and around their thresholds, rule files, the feeder check and branch flags.
 
 Panels here are invented demo data. NEC values cite the clause and how they were obtained:
-"F" read in a published copy (listed in the project's reference notes), "from memory" recalled.
+"F" read in a published copy (listed in docs/references.md), "from memory" recalled.
 """
 
 from __future__ import annotations
@@ -488,7 +488,7 @@ def test_rule_set_from_its_file_equals_builtin(name: str) -> None:
 
 
 def test_nec2023_factors_match_the_published_tables() -> None:
-    # Expected values written out here from the reference notes (F), independently of the file.
+    # Expected values written out here from docs/references.md (F), independently of the file.
     rules = builtin_rule_set("nec2023")
     lighting = rules.classes["general_lighting"]
     assert lighting.tiers["dwelling"] == (Tier(3000.0, 1.0), Tier(120000.0, 0.35), Tier(None, 0.25))

@@ -1,7 +1,7 @@
 """Feeder arithmetic: 240.6(A) ratings, Table 310.16 selection, 220.61 neutral, resistance, drop.
 
-Reference values carry their source; "F" values come from a published copy (listed in the
-project's reference notes), "from memory" marks values recalled rather than read.
+Reference values carry their source; "F" values come from a published copy (listed in
+docs/references.md), "from memory" marks values recalled rather than read.
 """
 
 from __future__ import annotations
@@ -57,7 +57,7 @@ def test_no_standard_rating_above_6000_a() -> None:
     assert next_standard_rating(6000.1) is None
 
 
-# Table 310.16, 75 °C column (F, values in the reference notes).
+# Table 310.16, 75 °C column (F, values in docs/references.md).
 @pytest.mark.parametrize(
     ("required_a", "material", "size"),
     [
