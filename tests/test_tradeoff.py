@@ -7,10 +7,11 @@ import importlib
 import itertools
 import math
 import random
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import replace
 
 import pytest
+from exhaustive import all_layouts, group_ok, random_panel
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -35,61 +36,6 @@ ATOL_VA = 1e-6
 
 
 # --- exhaustive reference --------------------------------------------------------------------
-
-
-def _legal_spans(panel: Panel, circuit: Circuit) -> Iterator[tuple[int, ...]]:
-    if circuit.locked or (circuit.is_spare and circuit.spaces):
-        yield circuit.spaces
-        return
-    geometry = panel.geometry
-    for first in range(1, panel.spaces + 1):
-        if not geometry.fits(first, circuit.poles):
-            continue
-        span = geometry.span(first, circuit.poles)
-        lines = geometry.lines_of(first, circuit.poles)
-        if circuit.poles == 1 and not panel.system.serves_line_to_neutral(lines[0]):
-            continue
-        yield span
-
-
-def _group_ok(panel: Panel, layout: dict[str, tuple[int, ...]]) -> bool:
-    """Members of a multiwire group: distinct lines, consecutive spaces of one side."""
-    groups: dict[str, list[int]] = {}
-    for c in panel.circuits:
-        if c.group:
-            groups.setdefault(c.group, []).extend(layout[c.id])
-    for spaces in groups.values():
-        spaces.sort()
-        lines = [panel.geometry.line_of(s) for s in spaces]
-        if len(set(lines)) != len(lines):
-            return False
-        if any(b - a != 2 for a, b in itertools.pairwise(spaces)):
-            return False
-    return True
-
-
-def all_layouts(panel: Panel) -> Iterator[dict[str, tuple[int, ...]]]:
-    """Every legal layout of the panel's circuits (small panels only)."""
-    circuits = list(panel.circuits)
-    layout: dict[str, tuple[int, ...]] = {}
-    taken: set[int] = set()
-
-    def place(index: int) -> Iterator[dict[str, tuple[int, ...]]]:
-        if index == len(circuits):
-            if _group_ok(panel, layout):
-                yield dict(layout)
-            return
-        circuit = circuits[index]
-        for span in _legal_spans(panel, circuit):
-            if taken & set(span):
-                continue
-            layout[circuit.id] = span
-            taken.update(span)
-            yield from place(index + 1)
-            taken.difference_update(span)
-            del layout[circuit.id]
-
-    yield from place(0)
 
 
 def _spread(panel: Panel, layout: dict[str, tuple[int, ...]]) -> float:
@@ -161,38 +107,6 @@ def exhaustive_balance(panel: Panel, options: BalanceOptions) -> BalanceResult:
     return _result(panel, layout, SolveStatus.OPTIMAL)
 
 
-def _random_panel(
-    rng: random.Random, spaces: int = 8, count: int = 5, multiwire: bool = False
-) -> Panel:
-    system = get_system(rng.choice(["208Y/120", "208Y/120", "120/240"]))
-    panel = Panel("T", system, spaces, ())
-    circuits: list[Circuit] = []
-    taken: set[int] = set()
-    if multiwire:
-        # A multiwire pair on two lines: adjacent spaces of one side (NEC 210.4 handle tie).
-        first = rng.choice([s for s in range(1, spaces - 1)])
-        circuits += [
-            Circuit("m1", "mwbc 1", 1, 700.0, (first,), group="G"),
-            Circuit("m2", "mwbc 2", 1, 400.0, (first + 2,), group="G"),
-        ]
-        taken |= {first, first + 2}
-    for i in range(count):
-        poles = rng.choice([1, 1, 1, 2]) if system.phase_count == 3 else rng.choice([1, 1, 2])
-        starts = [
-            s
-            for s in range(1, spaces + 1)
-            if panel.geometry.fits(s, poles) and not taken & set(panel.geometry.span(s, poles))
-        ]
-        if not starts:
-            break
-        span = panel.geometry.span(rng.choice(starts), poles)
-        taken |= set(span)
-        load = rng.choice([180, 360, 500, 720, 900, 1200, 1440, 1800, 2400, 3000])
-        locked = rng.random() < 0.1
-        circuits.append(Circuit(str(i), f"load {i}", poles, float(load), span, locked=locked))
-    return panel.with_circuits(circuits)
-
-
 # --- the exhaustive reference checks itself on a hand case ----------------------------------
 
 
@@ -221,7 +135,7 @@ def test_exhaustive_reference_on_a_hand_panel() -> None:
 @settings(max_examples=25, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1))
 def test_rows_match_exhaustive_search(seed: int) -> None:
-    panel = _random_panel(random.Random(seed))
+    panel = random_panel(random.Random(seed))
     best = brute_best_by_budget(panel)
     table = tradeoff(panel, balance_fn=exhaustive_balance)
     global_best = brute_at_most(best, None)[0]
@@ -258,9 +172,9 @@ def test_engine_rows_match_exhaustive_search(seed: int) -> None:
         pytest.skip("balancer.optimize.balance is not available")
     rng = random.Random(seed)
     if rng.random() < 0.5:
-        panel = _random_panel(rng, spaces=10, count=3, multiwire=True)
+        panel = random_panel(rng, spaces=10, count=3, multiwire=True)
     else:
-        panel = _random_panel(rng)
+        panel = random_panel(rng)
     best = brute_best_by_budget(panel)
     table = tradeoff(panel, BalanceOptions(time_limit_s=20.0), balance_fn=balance)  # type: ignore[arg-type]
     for row, result in zip(table.rows, table.results, strict=True):
@@ -276,7 +190,7 @@ def test_engine_rows_match_exhaustive_search(seed: int) -> None:
             assert len(new.spaces) == c.poles  # a multi-pole breaker moves whole
             if c.locked:
                 assert new.spaces == c.spaces
-        assert _group_ok(panel, {c.id: c.spaces for c in after.circuits})
+        assert group_ok(panel, {c.id: c.spaces for c in after.circuits})
     assert not table.capped
     global_best = brute_at_most(best, None)[0]
     assert table.rows[-1].spread_va <= global_best + TOL_VA + ATOL_VA
