@@ -42,6 +42,7 @@ if TYPE_CHECKING:
     from balancer.demand import DemandOptions
 
 VOLTAGE_RTOL = 0.02  # nominal voltages closer than 2 % are taken as the same system
+MAX_LEVELS = 20  # a service, then panels fed from panels: real buildings have well under ten
 ANGLE_TOL_DEG = 1.0
 
 
@@ -85,15 +86,19 @@ class Building:
 
     def order(self) -> list[str]:
         """Panel names with every subpanel before the panel feeding it."""
+        children: dict[str, list[str]] = {}
+        for feed in self.feeds:
+            children.setdefault(feed.source, []).append(feed.panel)
         out: list[str] = []
-
-        def visit(name: str) -> None:
-            for feed in self.fed_from(name):
-                visit(feed.panel)
-            out.append(name)
-
-        for root in self.services():
-            visit(root)
+        # depth first, subpanels in feed order, without recursion: a deep tree is no limit here
+        stack = [(root, False) for root in reversed(self.services())]
+        while stack:
+            name, expanded = stack.pop()
+            if expanded:
+                out.append(name)
+                continue
+            stack.append((name, True))
+            stack += [(child, False) for child in reversed(children.get(name, []))]
         return out
 
     def feeder_circuit(self, feed: Feed) -> Circuit:
@@ -304,7 +309,7 @@ def make_building(name: str, panels: Sequence[Panel], feeds: Sequence[Feed]) -> 
         used[key] = feed.panel
         fed[feed.panel] = feed
         good.append(feed)
-    problems += _loop_problems(fed)
+    problems += _loop_problems(fed) + _depth_problems(fed)
     building = Building(name, tuple(panels), tuple(good))
     if not problems:
         for feed in good:
@@ -314,13 +319,48 @@ def make_building(name: str, panels: Sequence[Panel], feeds: Sequence[Feed]) -> 
     return building
 
 
+def deepest(source_of: Mapping[str, str]) -> tuple[str, int]:
+    """The panel farthest from its service and its level (a service is level 1), from each
+    fed panel's source; a loop counts as a service where it closes (loops are reported apart).
+    Walked without recursion, each panel once."""
+    level: dict[str, int] = {}
+    far = ("", 0)
+    for start in source_of:
+        chain, on_chain = [], set()
+        at = start
+        while at in source_of and at not in level and at not in on_chain:
+            chain.append(at)
+            on_chain.add(at)
+            at = source_of[at]
+        below = level.get(at, 0 if at in on_chain else 1)
+        for name in reversed(chain):
+            below += 1
+            level[name] = below
+            far = max(far, (name, below), key=lambda x: x[1])
+    return far
+
+
+def _depth_problems(fed: Mapping[str, Feed]) -> list[Problem]:
+    name, level = deepest({panel: feed.source for panel, feed in fed.items()})
+    if level <= MAX_LEVELS:
+        return []
+    return [
+        Problem(
+            fed[name].where,
+            f"panel '{name}' is {level:,} levels down from its service; balancer takes "
+            f"buildings of at most {MAX_LEVELS} levels",
+        )
+    ]
+
+
 def _loop_problems(fed: Mapping[str, Feed]) -> list[Problem]:
     problems: list[Problem] = []
     reported: set[str] = set()
     for start in fed:
-        path = [start]
-        while path[-1] in fed and fed[path[-1]].source not in path:
+        path, on_path = [start], {start}
+        while path[-1] in fed and fed[path[-1]].source not in on_path:
             path.append(fed[path[-1]].source)
+            on_path.add(path[-1])
         if path[-1] in fed:  # stopped because the next source is already on the path
             loop_start = path.index(fed[path[-1]].source)
             loop = path[loop_start:]

@@ -11,17 +11,14 @@ from __future__ import annotations
 import csv
 import difflib
 import math
-import zipfile
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
-from openpyxl.utils.exceptions import InvalidFileException
 
-from balancer.building import Building, Feed, make_building
+from balancer.building import MAX_LEVELS, Building, Feed, deepest, make_building
 from balancer.errors import Problem, ScheduleError
 from balancer.panel import Panel
 from balancer.transformer import make_transformer
@@ -31,6 +28,7 @@ if TYPE_CHECKING:
 
 INDEX_SHEET = "Building"
 INDEX_FILES = ("building.xlsx", "building.csv")
+MAX_INDEX_ROWS = 5000  # one row per panel
 # column key → accepted spellings (compared lower-case with spaces and punctuation removed)
 INDEX_COLUMNS: dict[str, tuple[str, ...]] = {
     "panel": ("panel", "panelname", "name"),
@@ -49,32 +47,49 @@ def _norm(text: object) -> str:
 
 
 def _cell_text(value: object) -> str:
+    from balancer.io.reader import CONTROL_CHARACTERS
+
     if value is None:
         return ""
     if isinstance(value, float) and value.is_integer():
         return str(int(value))
-    return str(value).strip()
+    # a panel name becomes a sheet name and a title: no control characters in a workbook
+    return CONTROL_CHARACTERS.sub("", str(value)).strip()
 
 
 def _index_rows(path: Path) -> tuple[str, list[list[object]]]:
     """(sheet or file name used in messages, rows of cell values) of a building index."""
+    from balancer.io.reader import decode_text, open_xlsx, sheet_rows
+
+    rows: list[list[object]]
     if path.suffix.lower() == ".csv":
-        text = path.read_text("utf-8-sig")
-        return path.name, [list(r) for r in csv.reader(text.splitlines())]
-    try:
-        book = load_workbook(path, read_only=True, data_only=True)
-    except (InvalidFileException, zipfile.BadZipFile, KeyError, OSError) as exc:
-        raise ScheduleError(Problem(str(path), f"is not a readable Excel workbook: {exc}")) from exc
-    try:
-        names = book.sheetnames
-        sheet = next((n for n in names if _norm(n) == _norm(INDEX_SHEET)), None)
-        if sheet is None:
-            raise ScheduleError(
-                Problem(str(path), f"no sheet named '{INDEX_SHEET}' saying which panel feeds which")
-            )
-        return sheet, [list(r) for r in book[sheet].iter_rows(values_only=True)]
-    finally:
-        book.close()
+        # no notice reaches the user from here, so an index in another code page is refused
+        text, _ = decode_text(path.read_bytes(), path.name, fallback=False)
+        reader = csv.reader(text.splitlines())
+        place, rows = path.name, []
+        try:
+            for row, _ in zip(reader, range(MAX_INDEX_ROWS + 1), strict=False):
+                rows.append(list(row))
+        except csv.Error as exc:
+            raise ScheduleError(Problem(f"{path.name} line {reader.line_num}", str(exc))) from exc
+        cut = len(rows) > MAX_INDEX_ROWS
+    else:
+        with open_xlsx(path) as (book, _):
+            names = book.sheetnames
+            sheet = next((n for n in names if _norm(n) == _norm(INDEX_SHEET)), None)
+            if sheet is None:
+                raise ScheduleError(
+                    Problem(
+                        str(path), f"no sheet named '{INDEX_SHEET}' saying which panel feeds which"
+                    )
+                )
+            cells, notice = sheet_rows(book[sheet], MAX_INDEX_ROWS)
+            place, rows, cut = sheet, [list(r) for r in cells], notice is not None
+    if cut:  # a panel left out would change every figure upstream of it
+        raise ScheduleError(
+            Problem(place, f"the index is longer than the {MAX_INDEX_ROWS:,} rows balancer reads")
+        )
+    return place, rows
 
 
 @dataclass(frozen=True, slots=True)
@@ -158,6 +173,18 @@ def read_building(path: str | Path) -> Building:
     problems: list[Problem] = []
     if not entries:
         raise ScheduleError(Problem(place, "the index lists no panels"), str(path))
+    # refused before any schedule is read: a crafted index 2,000 panels deep would take long
+    fed = {e.cells["panel"]: e for e in entries if e.cells.get("fed_from")}
+    deep, level = deepest({name: e.cells["fed_from"] for name, e in fed.items()})
+    if level > MAX_LEVELS:
+        raise ScheduleError(
+            Problem(
+                fed[deep].where["fed_from"],
+                f"panel '{deep}' is {level:,} levels down from its service; balancer takes "
+                f"buildings of at most {MAX_LEVELS} levels",
+            ),
+            str(path),
+        )
     names = [e.cells["panel"] for e in entries]
     for e in entries:
         if not e.cells["panel"]:

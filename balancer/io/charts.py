@@ -282,7 +282,7 @@ def draw_phasor_diagram(
         ax.set_title("Neutral current", fontsize=10)
         ax.legend(fontsize=7, loc="upper right")
     if title:
-        fig.suptitle(title, fontsize=11)
+        fig.suptitle(title, fontsize=11, parse_math=False)  # a panel name is not math
     return fig
 
 

@@ -55,7 +55,8 @@ class _Page:
         return x_in / self.width_in, 1.0 - y_in / self.height_in
 
     def text(self, x_in: float, y_in: float, text: str, size: float = 9, **kw: Any) -> None:
-        self.fig.text(*self._xy(x_in, y_in), text, fontsize=size, va="top", **kw)
+        # schedule text is shown as given: '$5 or $6' is money, not math for mathtext to parse
+        self.fig.text(*self._xy(x_in, y_in), text, fontsize=size, va="top", parse_math=False, **kw)
 
     def line(
         self, x0_in: float, x1_in: float, y_in: float, colour: str = _RULE, lw: float = 0.6
@@ -684,7 +685,10 @@ def write_pdf(
     refuse_input_path(path, input_path, panel.source or None)
 
     def write(tmp: Path) -> None:
-        with rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"}):
+        # the fonts embedded; no text parsed as math (labels and legends too)
+        with rc_context(
+            {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "text.parse_math": False}
+        ):
             figures = pdf_pages(
                 panel, loads, result=result, paper=paper, sections=sections, demand=demand
             )
@@ -745,7 +749,9 @@ def write_building_pdf(
 
     def write(tmp: Path) -> None:
         metadata = {"Title": title, "Creator": "balancer"}
-        fonts = rc_context({"pdf.fonttype": 42, "font.family": "DejaVu Sans"})
+        fonts = rc_context(
+            {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "text.parse_math": False}
+        )
         with fonts, PdfPages(tmp, metadata=metadata) as pdf:
             for fig in figures():
                 pdf.savefig(fig)

@@ -8,13 +8,18 @@ from __future__ import annotations
 
 import csv
 import difflib
+import math
 import re
 import zipfile
-from collections.abc import Sequence
+import zlib
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from defusedxml import DefusedXmlException
+from defusedxml.ElementTree import fromstring as parse_xml
 from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 from openpyxl.utils.exceptions import InvalidFileException
@@ -26,6 +31,33 @@ from balancer.systems import System, check_connection, find_system, known_design
 
 DEFAULT_SYSTEM = "208Y/120"
 HEADER_SEARCH_ROWS = 40
+
+# Bounds on what is read (docs/format.md, "Limits"): a schedule is small, so anything far past
+# these is a damaged or crafted file, refused or cut off before it can take minutes or memory.
+MAX_ROWS = 1000  # rows of a sheet or CSV read; a panel schedule has a few hundred at most
+MAX_COLUMNS = 64
+MAX_TEXT_CHARS = 32_767  # what a spreadsheet cell holds
+MAX_CSV_BYTES = 16 * 2**20
+MAX_PART_BYTES = 32 * 2**20  # one part of an .xlsx unpacked (a sheet, the shared strings)
+MAX_WORKBOOK_BYTES = 128 * 2**20  # all parts unpacked
+MAX_SPACES = 200
+MAX_LOAD_VA = 10e6  # no branch circuit carries 10 MVA
+MAX_CURRENT_A = 10_000.0
+MAX_VOLTAGE_V = 1_000.0
+MAX_RECEPTACLES = 1_000.0
+_LIMITS: dict[str, tuple[float, str, str]] = {  # key: (bound, unit, what it bounds)
+    **{
+        key: (MAX_LOAD_VA, "VA", "one branch circuit (10 MVA)")
+        for key in ("load_va", "load_kva", "phase_a", "phase_b", "phase_c", "neutral_va")
+    },
+    "trip_a": (MAX_CURRENT_A, "A", "a breaker"),
+    "measured_a": (MAX_CURRENT_A, "A", "a branch circuit"),
+    "voltage_v": (MAX_VOLTAGE_V, "V", "a panelboard circuit"),
+    "yokes": (MAX_RECEPTACLES, "", "one branch circuit"),
+}
+# C0 and C1 control characters other than tab and line breaks, and the two non-characters:
+# XML cannot hold them (the workbook would not save) and a terminal would act on them.
+CONTROL_CHARACTERS = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ufffe\uffff]")
 _TOTAL = re.compile(r"\b(sub-?)?totals?\b", re.IGNORECASE)
 _SPARE = re.compile(r"^\s*spare\b", re.IGNORECASE)
 _SPACE = re.compile(r"^\s*(space|spc|blank|provision|future space)\s*$", re.IGNORECASE)
@@ -62,6 +94,7 @@ class _Grid:
     sheet: str
     rows: list[list[Any]]
     formulas: dict[tuple[int, int], str] = field(default_factory=dict)  # (row, col) 0-based
+    notices: list[str] = field(default_factory=list)  # about reading the file itself
 
     def where(self, row: int, col: int) -> str:
         return f"{self.sheet}!{get_column_letter(col + 1)}{row + 1}"
@@ -71,24 +104,92 @@ class _Grid:
 
 
 def _read_xlsx(path: Path) -> tuple[_Grid, _Grid | None]:
-    try:
-        values = load_workbook(path, data_only=True)
-        formulas = load_workbook(path, data_only=False)
-    except (InvalidFileException, zipfile.BadZipFile, KeyError, OSError) as exc:
-        hint = " (an old .xls file? save it as .xlsx)" if path.suffix.lower() == ".xls" else ""
-        raise ScheduleError(
-            Problem(str(path), f"is not a readable Excel workbook (.xlsx){hint}: {exc}")
-        ) from exc
-    names = values.sheetnames
-    circuits_name = _pick_sheet(names, ("circuits", "circuit", "schedule", "branchcircuits"))
-    panel_name = _pick_sheet(names, ("panel", "panelinfo", "paneldata"))
-    if circuits_name is None:
-        circuits_name = next((n for n in names if n != panel_name), names[0])
-    circuits = _grid_from_sheet(values[circuits_name], formulas[circuits_name])
-    panel = None
-    if panel_name is not None and panel_name != circuits_name:
-        panel = _grid_from_sheet(values[panel_name], formulas[panel_name])
+    with open_xlsx(path) as (values, formulas):
+        names = [sheet.title for sheet in values.worksheets]  # not chart sheets
+        circuits_name = _pick_sheet(names, ("circuits", "circuit", "schedule", "branchcircuits"))
+        panel_name = _pick_sheet(names, ("panel", "panelinfo", "paneldata"))
+        if circuits_name is None:
+            circuits_name = next((n for n in names if n != panel_name), names[0])
+        circuits = _grid_from_sheet(values[circuits_name], formulas[circuits_name])
+        panel = None
+        if panel_name is not None and panel_name != circuits_name:
+            panel = _grid_from_sheet(values[panel_name], formulas[panel_name])
     return circuits, panel
+
+
+def _not_workbook(path: Path, why: object) -> ScheduleError:
+    hint = " (an old .xls file? save it as .xlsx)" if path.suffix.lower() == ".xls" else ""
+    return ScheduleError(
+        Problem(str(path), f"is not a readable Excel workbook (.xlsx){hint}: {why}")
+    )
+
+
+def _check_archive(path: Path) -> None:
+    """Refuse a workbook before openpyxl parses it: parts that unpack past the limits (a zip
+    bomb), damaged parts, and XML with a DTD, which a workbook never has and which can expand
+    entities without bound or read other files."""
+    try:
+        with zipfile.ZipFile(path) as archive:
+            parts = archive.infolist()
+            total = 0
+            for info in parts:
+                total += info.file_size
+                if info.file_size > MAX_PART_BYTES or total > MAX_WORKBOOK_BYTES:
+                    raise _not_workbook(
+                        path,
+                        f"part {info.filename} unpacks to {info.file_size / 2**20:,.0f} MB "
+                        f"(at most {MAX_PART_BYTES / 2**20:.0f} MB a part and "
+                        f"{MAX_WORKBOOK_BYTES / 2**20:.0f} MB in all are read)",
+                    )
+            for info in parts:
+                try:
+                    data = archive.read(info)  # unpacks at most file_size bytes, checks the CRC
+                except (zipfile.BadZipFile, zlib.error, EOFError, NotImplementedError) as exc:
+                    raise _not_workbook(path, f"part {info.filename} is damaged ({exc})") from exc
+                if b"<!DOCTYPE" in data or b"<!ENTITY" in data:
+                    raise _not_workbook(
+                        path,
+                        f"part {info.filename} declares XML entities (a DTD); refused, as a "
+                        "workbook never needs them",
+                    )
+    except (zipfile.BadZipFile, RuntimeError, OSError) as exc:  # RuntimeError: encrypted
+        raise _not_workbook(path, exc) from exc
+
+
+def _damaged_part(path: Path) -> str | None:
+    """The first XML part that does not parse, and why: named in the message when openpyxl
+    could not read the workbook (its own errors do not say which part)."""
+    with zipfile.ZipFile(path) as archive:
+        for info in archive.infolist():
+            if not info.filename.endswith((".xml", ".rels", ".vml")):
+                continue
+            try:
+                parse_xml(archive.read(info))
+            except DefusedXmlException:
+                return f"part {info.filename} declares XML entities; refused"
+            except SyntaxError as exc:  # xml.etree.ElementTree.ParseError
+                return f"part {info.filename} is not well-formed XML ({exc})"
+    return None
+
+
+@contextmanager
+def open_xlsx(path: Path) -> Iterator[tuple[Any, Any]]:
+    """The workbook twice, read-only: saved values and formulas. Read-only streams the sheets,
+    so the rows read can be bounded, and never expands merged ranges cell by cell."""
+    _check_archive(path)
+    books: list[Any] = []
+    try:
+        books.append(load_workbook(path, read_only=True, data_only=True))
+        books.append(load_workbook(path, read_only=True, data_only=False))
+        yield books[0], books[1]
+    except ScheduleError:
+        raise
+    except (InvalidFileException, KeyError, OSError, ValueError, TypeError, SyntaxError) as exc:
+        # openpyxl on a malformed part; ParseError is a SyntaxError
+        raise _not_workbook(path, _damaged_part(path) or exc) from exc
+    finally:
+        for book in books:
+            book.close()
 
 
 def _pick_sheet(names: Sequence[str], wanted: Sequence[str]) -> str | None:
@@ -98,32 +199,145 @@ def _pick_sheet(names: Sequence[str], wanted: Sequence[str]) -> str | None:
     return None
 
 
+def sheet_rows(sheet: Any, max_rows: int = MAX_ROWS) -> tuple[list[list[Any]], str | None]:
+    """At most ``max_rows`` rows of MAX_COLUMNS cells (trailing blanks dropped), and a notice when
+    the sheet's used range reaches further. A cell far out (XFD1048576) makes the used range
+    huge; reading it whole would take minutes for nothing."""
+    rows: list[list[Any]] = []
+    where = f"{sheet.title} row 1"
+    try:
+        for values in sheet.iter_rows(max_row=max_rows, max_col=MAX_COLUMNS, values_only=True):
+            row = list(values)
+            while row and row[-1] is None:
+                row.pop()
+            rows.append(row)
+            where = f"{sheet.title} row {len(rows) + 1}"
+    except SyntaxError as exc:  # ParseError: its line and column are in the sheet's part
+        raise ScheduleError(Problem(sheet.title, f"the sheet's XML is damaged ({exc})")) from exc
+    except (KeyError, ValueError, TypeError, OSError, zlib.error) as exc:
+        # a cell openpyxl cannot take (a number 'NaN'), found while the sheet streams
+        raise ScheduleError(Problem(where, f"a cell cannot be read ({exc})")) from exc
+    while rows and not rows[-1]:
+        rows.pop()
+    last_row, last_col = sheet.max_row or 0, sheet.max_column or 0
+    if last_row <= max_rows and last_col <= MAX_COLUMNS:
+        return rows, None
+    return rows, (
+        f"{sheet.title}: the used range reaches {get_column_letter(min(last_col, 16384))}"
+        f"{last_row}; only rows 1 to {max_rows} and columns A to "
+        f"{get_column_letter(MAX_COLUMNS)} were read"
+    )
+
+
 def _grid_from_sheet(values: Any, formulas: Any) -> _Grid:
-    rows = [list(r) for r in values.iter_rows(values_only=True)]
+    rows, notice = sheet_rows(values)
     found: dict[tuple[int, int], str] = {}
-    for r, row in enumerate(formulas.iter_rows(values_only=True)):
+    for r, row in enumerate(sheet_rows(formulas)[0]):
         for c, value in enumerate(row):
             if isinstance(value, str) and value.startswith("="):
                 found[(r, c)] = value
-    return _Grid(values.title, rows, found)
+    return _Grid(values.title, rows, found, [notice] if notice else [])
+
+
+def decode_text(raw: bytes, name: str, *, fallback: bool = True) -> tuple[str, str | None]:
+    """(text, notice) of a text file: UTF-8, else (with ``fallback``) Windows-1252 with a notice
+    saying so; refused, naming the line and the byte, when neither fits."""
+    try:
+        return raw.decode("utf-8-sig"), None
+    except UnicodeDecodeError as exc:
+        first = exc.start
+    line = raw.count(b"\n", 0, first) + 1
+    save_as = "save it as UTF-8 (CSV UTF-8 in a spreadsheet program)"
+    if fallback:
+        try:
+            text = raw.decode("cp1252")
+        except UnicodeDecodeError as exc:
+            bad_line = raw.count(b"\n", 0, exc.start) + 1
+            raise ScheduleError(
+                Problem(
+                    f"{name} line {bad_line}",
+                    f"byte 0x{raw[exc.start]:02X} is neither UTF-8 nor Windows-1252 text; "
+                    f"{save_as}",
+                )
+            ) from exc
+        return text, (
+            f"{name}: not UTF-8 text (line {line}); read as Windows-1252, so check accented "
+            f"letters and symbols, or {save_as}"
+        )
+    raise ScheduleError(
+        Problem(f"{name} line {line}", f"byte 0x{raw[first]:02X} is not UTF-8 text; {save_as}")
+    )
 
 
 def _read_csv(path: Path) -> _Grid:
+    size = path.stat().st_size
+    if size > MAX_CSV_BYTES:
+        raise ScheduleError(
+            Problem(
+                str(path),
+                f"the file is {size / 2**20:,.0f} MB; a schedule CSV of more than "
+                f"{MAX_CSV_BYTES / 2**20:.0f} MB is not read",
+            )
+        )
     raw = path.read_bytes()
     if b"\x00" in raw[:4096]:
         raise ScheduleError(Problem(str(path), "is not a text CSV file (it holds binary data)"))
-    for encoding in ("utf-8-sig", "cp1252"):
-        try:
-            text = raw.decode(encoding)
-            break
-        except UnicodeDecodeError:
-            continue
+    text, notice = decode_text(raw, path.name)
     try:
-        dialect = csv.Sniffer().sniff(text[:4096], delimiters=",;\t")
+        dialect: Any = csv.Sniffer().sniff(text[:4096], delimiters=",;\t")
     except csv.Error:
         dialect = csv.excel
-    rows: list[list[Any]] = [list(r) for r in csv.reader(text.splitlines(), dialect)]
-    return _Grid(path.name, [[c if c.strip() else None for c in r] for r in rows])
+    notices = [notice] if notice else []
+    rows: list[list[Any]] = []
+    reader = csv.reader(text.splitlines(), dialect)
+    try:
+        for cells in reader:
+            if len(rows) == MAX_ROWS:
+                notices.append(f"{path.name}: only the first {MAX_ROWS} rows were read")
+                break
+            if len(cells) > MAX_COLUMNS:
+                cells = cells[:MAX_COLUMNS]
+                if not any("columns" in n for n in notices):
+                    notices.append(
+                        f"{path.name}: only columns A to {get_column_letter(MAX_COLUMNS)} were read"
+                    )
+            rows.append([c if c.strip() else None for c in cells])
+    except csv.Error as exc:  # a field longer than the csv module takes (128 K characters)
+        raise ScheduleError(Problem(f"{path.name} line {reader.line_num}", str(exc))) from exc
+    return _Grid(path.name, rows, notices=notices)
+
+
+def _clean_text(grid: _Grid) -> list[Problem]:
+    """Every text cell within MAX_TEXT_CHARS and without control characters (removed, with a
+    notice); the problems of cells too long to read."""
+    problems = []
+    cleaned = []
+    for r, row in enumerate(grid.rows):
+        for c, value in enumerate(row):
+            if not isinstance(value, str):
+                continue
+            if len(value) > MAX_TEXT_CHARS:
+                problems.append(
+                    Problem(
+                        grid.where(r, c),
+                        f"text of {len(value):,} characters; a cell holds at most "
+                        f"{MAX_TEXT_CHARS:,}",
+                    )
+                )
+                row[c] = None
+            elif CONTROL_CHARACTERS.search(value):
+                row[c] = CONTROL_CHARACTERS.sub("", value)
+                cleaned.append(grid.where(r, c))
+    if cleaned:
+        more = f" and {len(cleaned) - 1} more" if len(cleaned) > 1 else ""
+        grid.notices.append(f"{cleaned[0]}{more}: removed control characters from the text")
+    grid.formulas = {k: _shown(CONTROL_CHARACTERS.sub("", v), 80) for k, v in grid.formulas.items()}
+    return problems
+
+
+def _shown(text: str, width: int = 40) -> str:
+    """``text`` cut to ``width`` characters for a message."""
+    return text if len(text) <= width else text[: width - 1] + "…"
 
 
 # ---------------------------------------------------------------- helpers
@@ -312,13 +526,16 @@ def _rows(
 ) -> list[_Row]:
     headers = grid.rows[header_row]
     extras = [(c, _text(h)) for c, h in enumerate(headers) if c not in found and _text(h)]
+    formula_cols: dict[int, list[int]] = {}
+    for r, c in sorted(grid.formulas):
+        formula_cols.setdefault(r, []).append(c)
     out = []
     for r in range(header_row + 1, len(grid.rows)):
         row = grid.rows[r]
         if all(v is None or not _text(v) for v in row):
             continue
-        for c in range(len(row)):
-            if (r, c) in grid.formulas and row[c] is None:
+        for c in formula_cols.get(r, []):  # rows end at their last value: c may be past it
+            if c >= len(row) or row[c] is None:
                 problems.append(
                     Problem(
                         grid.where(r, c),
@@ -348,12 +565,16 @@ def _circuit(
     def number(key: str, what: str, *, allow_negative: bool = False) -> float | None:
         if key not in cells:
             return None
+        shown = _shown(_text(cells[key]))
         try:
             value, unit = _number(cells[key])
         except ValueError:
-            problems.append(Problem(where(key), f"{what} '{_text(cells[key])}' is not a number"))
+            problems.append(Problem(where(key), f"{what} '{shown}' is not a number"))
             return None
         if value is None:
+            return None
+        if math.isnan(value):
+            problems.append(Problem(where(key), f"{what} '{shown}' is not a number"))
             return None
         is_load = key.startswith(("load", "phase"))
         if unit not in ("", "va", "a", "v", "kva", "%") or (unit in ("va", "kva") and not is_load):
@@ -367,6 +588,16 @@ def _circuit(
             value *= scales.get(key, 1.0)
         if value < 0 and not allow_negative:
             problems.append(Problem(where(key), f"{what} {value:g} is negative"))
+            return None
+        bound, bound_unit, of = _LIMITS.get(key, (math.inf, "", ""))
+        if not abs(value) <= bound:  # also infinity, and a 400-digit number read as one
+            problems.append(
+                Problem(
+                    where(key),
+                    f"{what} '{shown}' is more than {bound:,.0f}{' ' if bound_unit else ''}"
+                    f"{bound_unit}, the most balancer takes for {of}",
+                )
+            )
             return None
         return value
 
@@ -399,10 +630,21 @@ def _circuit(
         try:
             listed = _space_list(cells["space"])
         except ValueError:
-            problems.append(Problem(where("space"), f"space '{space_text}' is not a space number"))
+            problems.append(
+                Problem(where("space"), f"space '{_shown(space_text)}' is not a space number")
+            )
             return None
         if any(s < 1 for s in listed):
             problems.append(Problem(where("space"), f"space '{space_text}' must be 1 or more"))
+            return None
+        if any(s > MAX_SPACES for s in listed):
+            problems.append(
+                Problem(
+                    where("space"),
+                    f"space '{_shown(space_text)}' is past {MAX_SPACES}, the most spaces "
+                    "balancer takes for a panel",
+                )
+            )
             return None
         first = listed[0]
         spaces = tuple(first + 2 * k for k in range(poles))
@@ -619,11 +861,14 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
 def _panel_from_grids(
     path: Path, grid: _Grid, panel_grid: _Grid | None, overrides: PanelOverrides
 ) -> Panel:
+    text_problems = _clean_text(grid) + (_clean_text(panel_grid) if panel_grid else [])
+    if text_problems:
+        raise ScheduleError(text_problems, str(path))
     if not any(any(v is not None for v in row) for row in grid.rows):
         raise ScheduleError(Problem(grid.sheet, "the sheet holds no data"), str(path))
 
     problems: list[Problem] = []
-    notices: list[str] = []
+    notices: list[str] = [*grid.notices, *(panel_grid.notices if panel_grid else [])]
     header_row, found = _find_header(grid)
     header_problems, header_notices = _header_problems(grid, header_row, found)
     if header_row < 0 or header_problems:
@@ -646,24 +891,36 @@ def _panel_from_grids(
     pairs = _panel_pairs(panel_grid, grid.rows[:header_row], grid.sheet)
     name = overrides.name or _text(pairs.get("name", (path.stem, ""))[0]) or path.stem
     system = _resolve_system(overrides.system, pairs, problems, notices)
-    spaces = _resolve_spaces(overrides.spaces, pairs, circuits, problems, notices)
+    spaces = _resolve_spaces(overrides.spaces, pairs, circuits, problems, notices, grid.sheet)
     bus_a = overrides.bus_a
     if bus_a is None and "bus" in pairs:
         try:
             bus_a = _number(pairs["bus"][0])[0]
         except ValueError:
             problems.append(
-                Problem(pairs["bus"][1], f"bus rating '{_text(pairs['bus'][0])}' is not a number")
+                Problem(
+                    pairs["bus"][1],
+                    f"bus rating '{_shown(_text(pairs['bus'][0]))}' is not a number",
+                )
             )
+    if bus_a is not None and not 0 <= bus_a <= MAX_CURRENT_A:
+        where_bus = "--bus" if overrides.bus_a is not None else pairs["bus"][1]
+        problems.append(
+            Problem(where_bus, f"bus rating {bus_a:g} A must be from 0 to {MAX_CURRENT_A:,.0f} A")
+        )
+        bus_a = None
     main_text = (
         overrides.main if overrides.main is not None else _text(pairs.get("main", ("", ""))[0])
     )
     main_a, understood = _main_rating(main_text) if main_text else (None, True)
+    if main_a is not None and not 0 <= main_a <= MAX_CURRENT_A:
+        understood, main_a = False, None
     if not understood:
         problems.append(
             Problem(
                 pairs.get("main", ("", "--main"))[1],
-                f"main '{main_text}' should be a rating in amperes or MLO (main lugs only)",
+                f"main '{_shown(main_text)}' should be a rating in amperes (at most "
+                f"{MAX_CURRENT_A:,.0f} A) or MLO (main lugs only)",
             )
         )
     if system is not None and spaces is not None:
@@ -731,6 +988,7 @@ def _resolve_spaces(
     circuits: list[Circuit],
     problems: list[Problem],
     notices: list[str],
+    sheet: str = "",
 ) -> int | None:
     if given is not None:
         value: float | None = float(given)
@@ -743,22 +1001,31 @@ def _resolve_spaces(
             value = None
         if value is None:
             problems.append(
-                Problem(where, f"space count '{_text(pairs['spaces'][0])}' is not a number")
+                Problem(where, f"space count '{_shown(_text(pairs['spaces'][0]))}' is not a number")
             )
             return None
     else:
         poles = sum(c.poles for c in circuits)
         highest = max((c.spaces[-1] for c in circuits if c.spaces), default=0)
         count = smallest_space_count(poles, highest)
+        if count > MAX_SPACES:
+            problems.append(
+                Problem(
+                    sheet,
+                    f"the circuits need {poles} poles, more than the {MAX_SPACES} spaces "
+                    "balancer takes for a panel",
+                )
+            )
+            return None
         notices.append(
             f"no space count given; assumed {count}, the smallest common size that fits "
             f"{poles} poles (use --spaces or a Panel sheet)"
         )
         return count
     assert value is not None
-    if value < 1 or not float(value).is_integer():
+    if not 1 <= value <= MAX_SPACES or not float(value).is_integer():
         problems.append(
-            Problem(where, f"space count {value:g} must be a whole number of 1 or more")
+            Problem(where, f"space count {value:g} must be a whole number from 1 to {MAX_SPACES}")
         )
         return None
     return int(value)
@@ -783,22 +1050,22 @@ def read_workbook_sheets(
     path = Path(path)
     if not path.is_file():
         raise ScheduleError(Problem(str(path), "no such file"))
-    try:
-        values = load_workbook(path, data_only=True)
-        formulas = load_workbook(path, data_only=False)
-    except (InvalidFileException, zipfile.BadZipFile, KeyError, OSError) as exc:
-        raise ScheduleError(
-            Problem(str(path), f"is not a readable Excel workbook (.xlsx): {exc}")
-        ) from exc
-    panels: list[Panel] = []
+    grids: list[_Grid | None] = []
     problems: list[Problem] = []
-    for index, sheet in enumerate(sheets):
-        if sheet not in values.sheetnames:
-            near = difflib.get_close_matches(sheet, values.sheetnames, n=1)
-            hint = f" (did you mean '{near[0]}'?)" if near else ""
-            problems.append(Problem(str(path), f"no sheet named '{sheet}'{hint}"))
+    with open_xlsx(path) as (values, formulas):
+        names = [sheet.title for sheet in values.worksheets]  # not chart sheets
+        for sheet in sheets:
+            if sheet not in names:
+                near = difflib.get_close_matches(sheet, names, n=1)
+                hint = f" (did you mean '{near[0]}'?)" if near else ""
+                problems.append(Problem(str(path), f"no sheet named '{sheet}'{hint}"))
+                grids.append(None)
+            else:
+                grids.append(_grid_from_sheet(values[sheet], formulas[sheet]))
+    panels: list[Panel] = []
+    for index, grid in enumerate(grids):
+        if grid is None:
             continue
-        grid = _grid_from_sheet(values[sheet], formulas[sheet])
         try:
             given = overrides[index] if overrides else PanelOverrides()
             panels.append(_panel_from_grids(path, grid, None, given))
