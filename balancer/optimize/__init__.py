@@ -23,6 +23,7 @@ from balancer.analysis import analyze
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.goals import MOVES_GAP, goal_for
 from balancer.optimize.heuristics import (
+    LOCAL_STEPS,
     fewer_changes_lines,
     fewest_changes_lines,
     greedy_lines,
@@ -51,16 +52,16 @@ from balancer.result import BalanceOptions, BalanceResult, Move, SolveStatus
 __all__ = ["balance"]
 
 PLACEMENT_MIN_S = 2.0  # the placement stage always gets at least this long
-LOCAL_SEARCH_S = 0.1  # improving the seed by single and paired changes: at most this, ...
-LOCAL_SEARCH_SHARE = 0.05  # ... and at most this share of the time limit
-FRESH_SEARCH_S = 0.05  # the same search on a fresh layout
-SPLIT_SEARCH_S = 1.0  # then re-deciding many units at once when that missed: at most this, ...
-SPLIT_SEARCH_SHARE = 0.1  # ... and at most this share of the time limit
-UNDO_S = 1.5  # undoing needless changes from the schedule as it stands: at most this, ...
-FEWEST_S = 1.0  # the fewest changed units within the spread cap, proven: at most this, ...
-FEWEST_SHARE = 0.1  # ... and at most this share of the time limit
-TIEBREAK_MIN_S = 0.3  # time for each tie-breaking current goal: at least this, ...
-TIEBREAK_SHARE = 0.005  # ... or this share of the time limit
+# The searches and the tie-breaking stages are bounded by work (steps, pairs, nodes), so a panel
+# gets the same answer on every run; these times are only safety nets for a slow machine.
+LOCAL_SEARCH_S = 2.0  # improving the seed by single and paired changes: at most this, ...
+SAFETY_SHARE = 0.2  # ... and at most this share of the time limit (each search below too)
+FRESH_STEPS = 10  # steps of that search on a fresh layout (the seeded solver is quicker)
+SPLIT_SEARCH_S = 5.0  # then re-deciding many units at once when that missed
+UNDO_S = 5.0  # undoing needless changes from the schedule as it stands
+FEWEST_S = 5.0  # the fewest changed units within the spread cap, proven
+TIEBREAK_NODES = 0  # branch-and-bound nodes for each tie-breaking current goal
+TIEBREAK_S = 5.0  # ... and its safety net
 SAFETY_NOTE = (
     "Moving breakers is work on energised equipment: qualified persons only, de-energise and "
     "verify absence of voltage with a meter first; the adopted code, local amendments and the "
@@ -121,9 +122,12 @@ def _lexicographic(
         else:
             budget = deadline - time.perf_counter()
             if position >= key:
-                budget = min(budget, max(TIEBREAK_MIN_S, TIEBREAK_SHARE * options.time_limit_s))
+                budget = min(budget, TIEBREAK_S)
+            nodes = TIEBREAK_NODES if position >= key else None
             try:
-                stage = solve_goal(model, goal, options.engine, budget, _gap(goal, options), picks)
+                stage = solve_goal(
+                    model, goal, options.engine, budget, _gap(goal, options), picks, nodes
+                )
             except SolverError:
                 if picks is None or options.target_imbalance_pct is not None:
                     raise
@@ -412,7 +416,7 @@ def _fewest_changes(
     if not _proven(first, options, bound):
         return None, -math.inf
     cap_va = max(first.value, bound + options.tolerance_va)  # as _lexicographic keeps it
-    budget_s = min(FEWEST_S, FEWEST_SHARE * options.time_limit_s)
+    budget_s = min(FEWEST_S, SAFETY_SHARE * options.time_limit_s)
     found = fewest_changes_lines(layout, cap_va, budget_s)
     if found is None:
         return None, -math.inf
@@ -448,16 +452,13 @@ def _first_goal_on_lines(
     if goals[0] == "spread" and seed is not None:
         began = time.perf_counter()
         goal_va = floor + options.tolerance_va
-        budget = min(LOCAL_SEARCH_S, LOCAL_SEARCH_SHARE * options.time_limit_s)
-        if not layout.count_moves:
-            # Measured: a short search settles most fresh layouts with round loads; on odd
-            # loads the seeded solver is quicker than searching longer.
-            budget = min(budget, FRESH_SEARCH_S)
-        seeds = [local_search_lines(layout, seed, goal_va, budget)]
+        budget = min(LOCAL_SEARCH_S, SAFETY_SHARE * options.time_limit_s)
+        steps = LOCAL_STEPS if layout.count_moves else FRESH_STEPS
+        seeds = [local_search_lines(layout, seed, goal_va, budget, max_steps=steps)]
         present = present_lines(layout) if layout.count_moves else None
         if present is not None:
             # From the schedule as it stands: reaching the goal this way moves few breakers.
-            seeds.insert(0, local_search_lines(layout, present, goal_va, budget))
+            seeds.insert(0, local_search_lines(layout, present, goal_va, budget, max_steps=steps))
         spreads = [pattern_spread_va(layout, p) for p in seeds]
         reached = [p for p, v in zip(seeds, spreads, strict=True) if v <= goal_va]
         # A fresh layout that missed the goal starts the solver from the plain heuristic answer
@@ -477,7 +478,7 @@ def _first_goal_on_lines(
                 layout,
                 seeds[spreads.index(min(spreads))],
                 goal_va,
-                min(SPLIT_SEARCH_S, SPLIT_SEARCH_SHARE * options.time_limit_s),
+                min(SPLIT_SEARCH_S, SAFETY_SHARE * options.time_limit_s),
             )
             seed = split.picks  # the solver's start (and incumbent) when this proves nothing
             value = pattern_spread_va(layout, seed)
@@ -521,7 +522,7 @@ def _fewer_changes(layout: Layout, options: BalanceOptions, stage: StageResult) 
     limit_va = stage.value
     if _proven(stage, options, stage.bound):
         limit_va = max(stage.value, stage.bound + options.tolerance_va)
-    undo_s = min(UNDO_S, LOCAL_SEARCH_SHARE * options.time_limit_s)
+    undo_s = min(UNDO_S, SAFETY_SHARE * options.time_limit_s)
     picks = fewer_changes_lines(layout, stage.picks, present, limit_va, undo_s)
     value = pattern_spread_va(layout, picks)
     return replace(stage, picks=tuple(picks), value=max(value, stage.value))

@@ -185,6 +185,10 @@ def pattern_spread_va(layout: Layout, picks: Sequence[int]) -> float:
     return max(load.values()) - min(load.values())
 
 
+# Work budgets, so that a panel gets the same answer on every run and every machine; the time
+# budgets the callers pass are only a safety net for a slow machine.
+LOCAL_STEPS = 25  # improving steps (or shakes) of the local search
+UNDO_STEPS = 150  # handfuls re-decided while undoing needless changes
 PATIENCE = 5  # shakes per unit without a better answer before the search gives up
 UNDO_TRIES = 400  # fruitless handfuls before undoing changes stops (each finds one ~1 in 50)
 
@@ -367,6 +371,7 @@ def local_search_lines(
     goal_spread_va: float,
     budget_s: float,
     restarts: bool = True,
+    max_steps: int = LOCAL_STEPS,
 ) -> list[int]:
     """Improve a line-pattern choice by single and paired changes until ``goal_spread_va``.
 
@@ -379,7 +384,9 @@ def local_search_lines(
     rng = random.Random(0)
     stop = time.perf_counter() + budget_s
     stale = 0  # shakes since the best last improved
-    while best[0][0] > goal_spread_va and time.perf_counter() < stop:
+    for _ in range(max_steps):
+        if best[0][0] <= goal_spread_va or time.perf_counter() >= stop:
+            break
         change = state.best_change()
         if change is not None:
             state.apply(change)
@@ -421,7 +428,12 @@ def present_lines(layout: Layout) -> list[int] | None:
 
 
 def fewer_changes_lines(
-    layout: Layout, picks: Sequence[int], home: Sequence[int], goal_va: float, budget_s: float
+    layout: Layout,
+    picks: Sequence[int],
+    home: Sequence[int],
+    goal_va: float,
+    budget_s: float,
+    max_steps: int = UNDO_STEPS,
 ) -> list[int]:
     """Undo changes from ``home`` (the schedule as it stands) while the spread stays in goal.
 
@@ -432,7 +444,9 @@ def fewer_changes_lines(
     rng = random.Random(1)
     stop = time.perf_counter() + budget_s
     stale = 0
-    while time.perf_counter() < stop and stale < UNDO_TRIES:
+    for _ in range(max_steps):
+        if time.perf_counter() >= stop or stale >= UNDO_TRIES:
+            break
         changed = [u for u, k in enumerate(state.picks) if k != home[u]]
         if not changed:
             break

@@ -72,11 +72,33 @@ class _SeededHighs(pulp.HiGHS):
             lp.solverModel.setSolution(len(index), index, value)
         lp.solverModel.run()
 
+    def findSolutionValues(self, lp: pulp.LpProblem) -> tuple[int, int]:
+        try:
+            found: tuple[int, int] = super().findSolutionValues(lp)
+        except KeyError:
+            # PuLP 3.3.2 has no entry for a node limit (kSolutionLimit); the values are already
+            # assigned, and the proof is read from HiGHS itself in solve_goal
+            info = lp.solverModel.getInfo()
+            feasible = int(info.primal_solution_status) == int(
+                highspy.SolutionStatus.kSolutionStatusFeasible
+            )
+            if not feasible:
+                return pulp.LpStatusNotSolved, pulp.LpSolutionNoSolutionFound
+            return pulp.LpStatusOptimal, pulp.LpSolutionIntegerFeasible
+        return found
+
 
 def _run_highs(
-    model: Model, values: dict[str, float] | None, limit: float, gap_abs: float
+    model: Model,
+    values: dict[str, float] | None,
+    limit: float,
+    gap_abs: float,
+    node_limit: int | None = None,
 ) -> highspy.Highs:
-    solver = _SeededHighs(values, msg=False, timeLimit=limit, gapAbs=gap_abs, gapRel=0.0, threads=1)
+    extra: dict[str, object] = {} if node_limit is None else {"mip_max_nodes": node_limit}
+    solver = _SeededHighs(
+        values, msg=False, timeLimit=limit, gapAbs=gap_abs, gapRel=0.0, threads=1, **extra
+    )
     with quiet_stdout():
         model.prob.solve(solver)
     highs: highspy.Highs = model.prob.solverModel
@@ -104,21 +126,26 @@ def solve_goal(
     time_limit_s: float,
     gap_abs: float,
     start: Sequence[int] | None = None,
+    node_limit: int | None = None,
 ) -> StageResult:
-    """Minimise ``model.goals[goal]``; the problem's existing constraints stay."""
+    """Minimise ``model.goals[goal]``; the problem's existing constraints stay.
+
+    ``node_limit`` bounds the branch-and-bound work (HiGHS), so that a stage stopped by it
+    gives the same answer on every run; the time limit is then only a safety net.
+    """
     expr = model.goals[goal]
     model.prob.setObjective(expr)
     limit = max(0.05, time_limit_s)
     begin = time.perf_counter()
     values = _start_values(model, start)
     if engine == "highs":
-        highs = _run_highs(model, values, limit, gap_abs)
+        highs = _run_highs(model, values, limit, gap_abs, node_limit)
         claimed = float(highs.getInfo().objective_function_value) + float(expr.constant)
         if values and abs(claimed - evaluate(expr)) > 1e-6 * max(1.0, abs(claimed)):
             # Seen with highspy 1.16: after a start, the reported objective (and so the bound)
             # need not belong to the solution returned. Solve again without the start.
             highs = _run_highs(
-                model, None, max(0.05, limit - (time.perf_counter() - begin)), gap_abs
+                model, None, max(0.05, limit - (time.perf_counter() - begin)), gap_abs, node_limit
             )
         text = highs.modelStatusToString(highs.getModelStatus())
         info = highs.getInfo()
