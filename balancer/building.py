@@ -631,7 +631,7 @@ class PanelOutcome:
     solve_seconds: float
     gap_va: float
     view_spread_va: float  # the spread the optimiser reached on the panel as it saw it
-    spread_proven: bool  # the spread is proven best within the tolerance (moves may not be)
+    goal_proven: bool  # the first goal is proven best within its tolerance (moves may not be)
     notes: tuple[str, ...] = ()
     first_goal: str = "spread"  # "transformer": the feeding transformer's heaviest winding
 
@@ -925,7 +925,7 @@ def _outcome(
             "a three-phase feeder's unequal line loads could not be given to the optimiser "
             "exactly on this system; the arrangement is checked but not proven best"
         )
-    spread_proven = view.exact and result.gap_va <= result.tolerance_va
+    goal_proven = view.exact and result.goal_proven
     return PanelOutcome(
         name,
         status,
@@ -935,6 +935,6 @@ def _outcome(
         result.solve_seconds,
         result.gap_va,
         result.after.spread_va,
-        spread_proven,
+        goal_proven,
         tuple(notes),
     )

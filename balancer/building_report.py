@@ -181,7 +181,7 @@ def summary_lines(
     if result is not None:
         worst_after = max(result.after_figures.panels.values(), key=lambda f: f.imbalance_pct)
         proven = sum(1 for o in result.outcomes.values() if o.status is SolveStatus.OPTIMAL)
-        spread_proven = sum(1 for o in result.outcomes.values() if o.spread_proven)
+        goal_proven = sum(1 for o in result.outcomes.values() if o.goal_proven)
         moves = sum(len(o.moves) for o in result.outcomes.values())
         relands = sum(len(o.swapped_feeds) for o in result.outcomes.values())
         out.append(
@@ -190,7 +190,7 @@ def summary_lines(
         )
         out.append(
             f"{proven} of {len(result.outcomes)} panels proven best on every goal, "
-            f"{spread_proven} on phase spread within the tolerance; "
+            f"{goal_proven} on their first goal within its tolerance; "
             f"{moves} breaker moves, {relands} feeders re-landed"
         )
         for name, outcome in result.outcomes.items():

@@ -561,7 +561,7 @@ def test_fixed_load_on_a_high_leg_cannot_be_seen_exactly_and_is_not_called_prove
     result = balance_building(building, BalanceOptions(time_limit_s=20))
     outcome = result.outcomes["HL1"]
     assert not outcome.exact
-    assert not outcome.spread_proven
+    assert not outcome.goal_proven
     assert outcome.status is SolveStatus.FEASIBLE
     assert any("not proven" in note for note in outcome.notes)
     assert result.outcomes["HL2"].exact
