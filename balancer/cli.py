@@ -55,6 +55,13 @@ def _field_options(parser: argparse.ArgumentParser) -> None:
         help="fewest moves that bring the imbalance to PCT %% or below",
     )
     group.add_argument(
+        "--within-pct",
+        type=float,
+        metavar="P",
+        help="on a placed panel, recommend the fewest moves whose imbalance is within P "
+        "points of the best possible (default 1; 0 = the best balance whatever the moves)",
+    )
+    group.add_argument(
         "--tradeoff",
         action=argparse.BooleanOptionalAction,
         default=None,
@@ -76,6 +83,8 @@ def _field_run(args: argparse.Namespace) -> Any:
 
     if args.target_imbalance is not None and args.target_imbalance < 0:
         raise ScheduleError(Problem("--target-imbalance", "must be 0 % or more"))
+    if args.within_pct is not None and not 0 <= args.within_pct <= 100:
+        raise ScheduleError(Problem("--within-pct", "must be from 0 to 100 points"))
     if args.tradeoff_moves is not None and args.tradeoff_moves < 0:
         raise ScheduleError(Problem("--tradeoff-moves", "must be 0 or more"))
     return FieldRun(
@@ -83,6 +92,7 @@ def _field_run(args: argparse.Namespace) -> Any:
         tradeoff=args.tradeoff,
         tradeoff_moves=args.tradeoff_moves,
         target_imbalance_pct=args.target_imbalance,
+        within_pct=args.within_pct,
     )
 
 
