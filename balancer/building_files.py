@@ -74,7 +74,7 @@ def _index_rows(path: Path) -> tuple[str, list[list[object]]]:
             raise ScheduleError(Problem(f"{path.name} line {reader.line_num}", str(exc))) from exc
         cut = len(rows) > MAX_INDEX_ROWS
     else:
-        with open_xlsx(path) as (book, _):
+        with open_xlsx(path) as (book, _, _notes):  # the panels' reading says them
             names = book.sheetnames
             sheet = next((n for n in names if _norm(n) == _norm(INDEX_SHEET)), None)
             if sheet is None:

@@ -172,7 +172,7 @@ def test_xlsx_invalid_xml_in_a_sheet_is_refused(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
     path = _rewrite(_workbook(tmp_path / "cut.xlsx"), SHEET, lambda x: x[: len(x) * 2 // 3])
-    _refused(path, capsys, "Circuits: the sheet's XML is damaged (", "line 1, column")
+    _refused(path, capsys, str(path), "Circuits: the sheet's XML is damaged (", "line 1, column")
 
 
 def test_xlsx_invalid_xml_in_the_workbook_part_is_refused(
@@ -210,7 +210,7 @@ def test_xlsx_nan_number_is_refused(tmp_path: Path, capsys: pytest.CaptureFixtur
     path = _rewrite(
         _workbook(tmp_path / "nan.xlsx"), SHEET, lambda x: x.replace(b"<v>1200</v>", b"<v>NaN</v>")
     )
-    _refused(path, capsys, "Circuits row 2: a cell cannot be read", "'NaN'")
+    _refused(path, capsys, str(path), "Circuits row 2: a cell cannot be read", "'NaN'")
 
 
 def test_xlsx_infinite_number_is_refused(
@@ -384,3 +384,15 @@ def test_building_2000_panels_deep_is_refused(
     assert status == 2
     assert "building.csv!C2001: panel 'P1999' is 2,000 levels down from its service" in err
     assert "at most 20 levels" in err
+
+
+def test_xlsx_whose_sheet_list_is_unreadable_is_refused(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    # a wrong namespace: openpyxl warns and drops the sheet, leaving no worksheet at all
+    path = _rewrite(
+        _workbook(tmp_path / "nosheet.xlsx"),
+        "xl/workbook.xml",
+        lambda x: x.replace(b'xmlns:r="http', b'xmlns:r="ittp'),
+    )
+    _refused(path, capsys, str(path), "it holds no worksheet")

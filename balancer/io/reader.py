@@ -8,8 +8,10 @@ from __future__ import annotations
 
 import csv
 import difflib
+import io
 import math
 import re
+import warnings
 import zipfile
 import zlib
 from collections.abc import Iterator, Sequence
@@ -104,8 +106,10 @@ class _Grid:
 
 
 def _read_xlsx(path: Path) -> tuple[_Grid, _Grid | None]:
-    with open_xlsx(path) as (values, formulas):
+    with open_xlsx(path) as (values, formulas, notes):
         names = [sheet.title for sheet in values.worksheets]  # not chart sheets
+        if not names:
+            raise _not_workbook(path, "it holds no worksheet")
         circuits_name = _pick_sheet(names, ("circuits", "circuit", "schedule", "branchcircuits"))
         panel_name = _pick_sheet(names, ("panel", "panelinfo", "paneldata"))
         if circuits_name is None:
@@ -114,22 +118,24 @@ def _read_xlsx(path: Path) -> tuple[_Grid, _Grid | None]:
         panel = None
         if panel_name is not None and panel_name != circuits_name:
             panel = _grid_from_sheet(values[panel_name], formulas[panel_name])
+    circuits.notices += notes
     return circuits, panel
 
 
 def _not_workbook(path: Path, why: object) -> ScheduleError:
     hint = " (an old .xls file? save it as .xlsx)" if path.suffix.lower() == ".xls" else ""
+    reason = (str(why).splitlines() or [type(why).__name__])[0]  # openpyxl's run on for lines
     return ScheduleError(
-        Problem(str(path), f"is not a readable Excel workbook (.xlsx){hint}: {why}")
+        Problem(str(path), f"is not a readable Excel workbook (.xlsx){hint}: {reason}")
     )
 
 
-def _check_archive(path: Path) -> None:
+def _check_archive(path: Path, raw: bytes) -> None:
     """Refuse a workbook before openpyxl parses it: parts that unpack past the limits (a zip
     bomb), damaged parts, and XML with a DTD, which a workbook never has and which can expand
     entities without bound or read other files."""
     try:
-        with zipfile.ZipFile(path) as archive:
+        with zipfile.ZipFile(io.BytesIO(raw)) as archive:
             parts = archive.infolist()
             total = 0
             for info in parts:
@@ -144,27 +150,35 @@ def _check_archive(path: Path) -> None:
             for info in parts:
                 try:
                     data = archive.read(info)  # unpacks at most file_size bytes, checks the CRC
-                except (zipfile.BadZipFile, zlib.error, EOFError, NotImplementedError) as exc:
+                except (zipfile.BadZipFile, zlib.error, EOFError, ValueError, RuntimeError) as exc:
+                    # ValueError: an offset before the file's start; RuntimeError: encrypted,
+                    # or (NotImplementedError) packed by a method zipfile lacks
                     raise _not_workbook(path, f"part {info.filename} is damaged ({exc})") from exc
-                if b"<!DOCTYPE" in data or b"<!ENTITY" in data:
+                if _looks_like_xml(data) and (b"<!DOCTYPE" in data or b"<!ENTITY" in data):
                     raise _not_workbook(
                         path,
                         f"part {info.filename} declares XML entities (a DTD); refused, as a "
                         "workbook never needs them",
                     )
-    except (zipfile.BadZipFile, RuntimeError, OSError) as exc:  # RuntimeError: encrypted
+    except (zipfile.BadZipFile, ValueError, EOFError) as exc:  # the zip's directory is damaged
         raise _not_workbook(path, exc) from exc
 
 
-def _damaged_part(path: Path) -> str | None:
+def _looks_like_xml(data: bytes) -> bool:
+    """A part openpyxl may parse as XML, whatever its name (images and VBA are not)."""
+    return data.lstrip(b"\xef\xbb\xbf \t\r\n")[:1] == b"<" or data[:2] in (b"\xff\xfe", b"\xfe\xff")
+
+
+def _damaged_part(raw: bytes) -> str | None:
     """The first XML part that does not parse, and why: named in the message when openpyxl
     could not read the workbook (its own errors do not say which part)."""
-    with zipfile.ZipFile(path) as archive:
+    with zipfile.ZipFile(io.BytesIO(raw)) as archive:
         for info in archive.infolist():
-            if not info.filename.endswith((".xml", ".rels", ".vml")):
+            data = archive.read(info)
+            if not _looks_like_xml(data):
                 continue
             try:
-                parse_xml(archive.read(info))
+                parse_xml(data)
             except DefusedXmlException:
                 return f"part {info.filename} declares XML entities; refused"
             except SyntaxError as exc:  # xml.etree.ElementTree.ParseError
@@ -173,20 +187,34 @@ def _damaged_part(path: Path) -> str | None:
 
 
 @contextmanager
-def open_xlsx(path: Path) -> Iterator[tuple[Any, Any]]:
+def open_xlsx(path: Path) -> Iterator[tuple[Any, Any, list[str]]]:
     """The workbook twice, read-only: saved values and formulas. Read-only streams the sheets,
-    so the rows read can be bounded, and never expands merged ranges cell by cell."""
-    _check_archive(path)
+    so the rows read can be bounded, and never expands merged ranges cell by cell.
+
+    The third item is filled when the block ends: what openpyxl warned of while reading (a part
+    it drops, an odd attribute), as notices rather than stray warnings on the terminal.
+    """
+    size = path.stat().st_size
+    if size > MAX_WORKBOOK_BYTES:
+        raise _not_workbook(path, f"the file is {size / 2**20:,.0f} MB")
+    # read once, parsed from memory: openpyxl leaves its file open when a part fails to parse
+    raw = path.read_bytes()
+    _check_archive(path, raw)
     books: list[Any] = []
+    notes: list[str] = []
     try:
-        books.append(load_workbook(path, read_only=True, data_only=True))
-        books.append(load_workbook(path, read_only=True, data_only=False))
-        yield books[0], books[1]
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            books.append(load_workbook(io.BytesIO(raw), read_only=True, data_only=True))
+            books.append(load_workbook(io.BytesIO(raw), read_only=True, data_only=False))
+            yield books[0], books[1], notes
+        said = dict.fromkeys(str(w.message).splitlines()[0] for w in caught if str(w.message))
+        notes += [f"{path.name}: {text}" for text in said]
     except ScheduleError:
         raise
     except (InvalidFileException, KeyError, OSError, ValueError, TypeError, SyntaxError) as exc:
         # openpyxl on a malformed part; ParseError is a SyntaxError
-        raise _not_workbook(path, _damaged_part(path) or exc) from exc
+        raise _not_workbook(path, _damaged_part(raw) or exc) from exc
     finally:
         for book in books:
             book.close()
@@ -377,6 +405,8 @@ def _flag(value: Any) -> bool | None:
 def _space_list(value: Any) -> list[int]:
     text = _text(value)
     parts = [p for p in re.split(r"[,;/&+\s-]+", text) if p]
+    if not parts:  # separators only ('/', ';')
+        raise ValueError
     spaces = [int(p) for p in parts]  # ValueError for anything else
     return spaces
 
@@ -847,14 +877,19 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
     if path.stat().st_size == 0:
         raise ScheduleError(Problem(str(path), "the file is empty"))
     suffix = path.suffix.lower()
-    if suffix in (".xlsx", ".xlsm", ".xls"):
-        grid, panel_grid = _read_xlsx(path)
-    elif suffix in (".csv", ".txt", ".tsv"):
-        grid, panel_grid = _read_csv(path), None
-    else:
-        raise ScheduleError(
-            Problem(str(path), f"'{suffix}' files are not read; give an .xlsx or .csv schedule")
-        )
+    try:
+        if suffix in (".xlsx", ".xlsm", ".xls"):
+            grid, panel_grid = _read_xlsx(path)
+        elif suffix in (".csv", ".txt", ".tsv"):
+            grid, panel_grid = _read_csv(path), None
+        else:
+            raise ScheduleError(
+                Problem(str(path), f"'{suffix}' files are not read; give an .xlsx or .csv schedule")
+            )
+    except ScheduleError as exc:
+        if exc.source:
+            raise
+        raise ScheduleError(exc.problems, str(path)) from exc  # say which file, in a batch too
     return _panel_from_grids(path, grid, panel_grid, overrides)
 
 
@@ -1052,7 +1087,7 @@ def read_workbook_sheets(
         raise ScheduleError(Problem(str(path), "no such file"))
     grids: list[_Grid | None] = []
     problems: list[Problem] = []
-    with open_xlsx(path) as (values, formulas):
+    with open_xlsx(path) as (values, formulas, notes):
         names = [sheet.title for sheet in values.worksheets]  # not chart sheets
         for sheet in sheets:
             if sheet not in names:
@@ -1062,6 +1097,9 @@ def read_workbook_sheets(
                 grids.append(None)
             else:
                 grids.append(_grid_from_sheet(values[sheet], formulas[sheet]))
+    first = next((g for g in grids if g is not None), None)
+    if first is not None:
+        first.notices += notes  # said once, with the first panel
     panels: list[Panel] = []
     for index, grid in enumerate(grids):
         if grid is None:
