@@ -9,8 +9,8 @@ import random
 import pytest
 
 from balancer.optimize import balance
-from balancer.optimize.heuristics import greedy_partition, karmarkar_karp
 from balancer.optimize.goals import POLYGON_ERROR, POLYGON_SIDES
+from balancer.optimize.heuristics import greedy_partition, karmarkar_karp
 from balancer.optimize.solve import cbc_available
 from balancer.panel import Circuit, Panel
 from balancer.result import BalanceOptions, SolveStatus
