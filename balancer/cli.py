@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 import json
 import sys
 from collections.abc import Callable, Sequence
@@ -17,6 +18,14 @@ from balancer.io.reader import PanelOverrides, read_schedule
 from balancer.panel import Panel
 
 EXIT_OK, EXIT_BAD_INPUT, EXIT_SOLVER, EXIT_INFEASIBLE = 0, 2, 3, 4
+
+
+def finite_float(text: str) -> float:
+    """An option's number: finite (argparse says which option when this raises)."""
+    value = float(text)
+    if not math.isfinite(value):
+        raise ValueError(text)
+    return value
 
 DESCRIPTION = """\
 Spread a panelboard's branch circuits across its phases.
@@ -50,13 +59,13 @@ def _field_options(parser: argparse.ArgumentParser) -> None:
     )
     group.add_argument(
         "--target-imbalance",
-        type=float,
+        type=finite_float,
         metavar="PCT",
         help="fewest moves that bring the imbalance to PCT %% or below",
     )
     group.add_argument(
         "--within-pct",
-        type=float,
+        type=finite_float,
         metavar="P",
         help="on a placed panel, recommend the fewest moves whose imbalance is within P "
         "points of the best possible (default 1; 0 = the best balance whatever the moves)",
@@ -105,7 +114,7 @@ def _panel_options(parser: argparse.ArgumentParser) -> None:
         "'480 delta' (default when the file says nothing: 208Y/120)",
     )
     group.add_argument("--spaces", type=int, help="number of spaces (pole positions) in the panel")
-    group.add_argument("--bus", type=float, metavar="AMPS", help="bus rating in amperes")
+    group.add_argument("--bus", type=finite_float, metavar="AMPS", help="bus rating in amperes")
     group.add_argument(
         "--main", metavar="AMPS|MLO", help="main breaker rating, or MLO for main lugs only"
     )
@@ -125,12 +134,12 @@ def _demand_options(parser: argparse.ArgumentParser) -> None:
         help="dwelling, hotel, warehouse or other (default: other)",
     )
     group.add_argument(
-        "--feeder-length", type=float, metavar="FT", help="one-way feeder length in feet"
+        "--feeder-length", type=finite_float, metavar="FT", help="one-way feeder length in feet"
     )
     group.add_argument(
         "--feeder-conductor", metavar="SIZE", help="feeder size for the voltage drop, e.g. '3/0 Al'"
     )
-    group.add_argument("--ambient", type=float, metavar="DEG_C", help="ambient temperature in °C")
+    group.add_argument("--ambient", type=finite_float, metavar="DEG_C", help="ambient temperature in °C")
     group.add_argument(
         "--conductors", type=int, metavar="N", help="current-carrying conductors together"
     )
@@ -274,14 +283,14 @@ def build_parser() -> argparse.ArgumentParser:
     )
     balance.add_argument(
         "--time-limit",
-        type=float,
+        type=finite_float,
         default=60.0,
         metavar="S",
         help="solver time limit in seconds (default 60)",
     )
     balance.add_argument(
         "--tolerance",
-        type=float,
+        type=finite_float,
         default=1.0,
         metavar="VA",
         help="absolute tolerance on the phase spread in VA (default 1)",
@@ -296,7 +305,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     balance.add_argument(
         "--bank-kva",
-        type=float,
+        type=finite_float,
         metavar="KVA",
         help="with --objective transformer: the supply transformer's rating (a bank: the sum "
         "of its units); delta-wye for a wye panel, a delta bank for a delta or high-leg panel, "
