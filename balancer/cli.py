@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import argparse
-import math
 import json
+import math
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -26,6 +26,9 @@ def finite_float(text: str) -> float:
     if not math.isfinite(value):
         raise ValueError(text)
     return value
+
+
+finite_float.__name__ = "finite number"  # argparse: "invalid finite number value: 'nan'"
 
 DESCRIPTION = """\
 Spread a panelboard's branch circuits across its phases.
@@ -139,7 +142,9 @@ def _demand_options(parser: argparse.ArgumentParser) -> None:
     group.add_argument(
         "--feeder-conductor", metavar="SIZE", help="feeder size for the voltage drop, e.g. '3/0 Al'"
     )
-    group.add_argument("--ambient", type=finite_float, metavar="DEG_C", help="ambient temperature in °C")
+    group.add_argument(
+        "--ambient", type=finite_float, metavar="DEG_C", help="ambient temperature in °C"
+    )
     group.add_argument(
         "--conductors", type=int, metavar="N", help="current-carrying conductors together"
     )
