@@ -10,22 +10,22 @@ from __future__ import annotations
 from importlib import import_module
 from typing import Any
 
-from balancer.analysis import Loads, analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import System, get_system
 from balancer.io.reader import PanelOverrides, read_schedule
-from balancer.panel import Circuit, Panel
-from balancer.systems import System, get_system
+from balancer.physics.analysis import Loads, analyze
 
 __version__ = "0.1.0"
 
 _LAZY = {
     "balance": ("balancer.optimize", "balance"),
-    "BalanceOptions": ("balancer.result", "BalanceOptions"),
-    "BalanceResult": ("balancer.result", "BalanceResult"),
+    "BalanceOptions": ("balancer.domain.result", "BalanceOptions"),
+    "BalanceResult": ("balancer.domain.result", "BalanceResult"),
     "write_schedule": ("balancer.io.writer", "write_workbook"),
     "write_pdf": ("balancer.io.pdf", "write_pdf"),
-    "read_building": ("balancer.building_files", "read_building"),
-    "roll_up": ("balancer.building", "roll_up"),
-    "balance_building": ("balancer.building", "balance_building"),
+    "read_building": ("balancer.building.files", "read_building"),
+    "roll_up": ("balancer.building.tree", "roll_up"),
+    "balance_building": ("balancer.building.tree", "balance_building"),
 }
 
 __all__ = [

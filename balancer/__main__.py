@@ -1,5 +1,5 @@
 """``python -m balancer``."""
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 raise SystemExit(main())

@@ -17,15 +17,15 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal, TextIO
 
+from balancer.domain.result import BalanceOptions
 from balancer.errors import BalancerError
 from balancer.io.reader import PanelOverrides
-from balancer.result import BalanceOptions
 
 if TYPE_CHECKING:
     from concurrent.futures import Future
 
-    from balancer.demand import DemandOptions
-    from balancer.panel import Panel
+    from balancer.code.demand import DemandOptions
+    from balancer.domain.panel import Panel
 
 Mode = Literal["check", "balance"]
 SCHEDULE_SUFFIXES = (".xlsx", ".xlsm", ".csv")
@@ -102,8 +102,8 @@ def find_schedules(paths: Iterable[Path]) -> list[Path]:
 
 def run_task(task: Task) -> Row:
     """Read, then check or balance, one file; every failure becomes a row, never an exception."""
-    from balancer.analysis import analyze
     from balancer.io.reader import read_schedule
+    from balancer.physics.analysis import analyze
 
     start = time.perf_counter()
     name = str(task.path)
@@ -135,7 +135,7 @@ def run_task(task: Task) -> Row:
             )
         demand = None
         if task.demand is not None:
-            from balancer.demand import compute_demand
+            from balancer.code.demand import compute_demand
 
             demand = compute_demand(result.after_panel, task.demand)
         written = write_workbook(result, output, demand=demand)
@@ -178,7 +178,7 @@ def _demand_fields(
     """The summary's demand and feeder figures for ``panel`` (none without ``options``)."""
     if options is None:
         return {}
-    from balancer.demand import compute_demand
+    from balancer.code.demand import compute_demand
 
     demand = known if known is not None else compute_demand(panel, options)
     feeder = demand.feeder

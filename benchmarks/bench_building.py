@@ -25,11 +25,11 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from balancer.building import Building, Feed, balance_building, make_building
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import System, get_system
-from balancer.transformer import make_transformer
+from balancer.building.tree import Building, Feed, balance_building, make_building
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import System, get_system
+from balancer.physics.transformer import make_transformer
 
 SPACES = 42
 ODD_LOADS = "--odd-loads" in sys.argv

@@ -18,12 +18,12 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from balancer.building import Building, Feed, make_building, roll_up
+from balancer.building.tree import Building, Feed, make_building, roll_up
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions
-from balancer.systems import get_system
-from balancer.transformer import loading_terms, supply_bank
+from balancer.physics.transformer import loading_terms, supply_bank
 
 HIGH_LEG = get_system("240/120")
 SPACES = 42

@@ -32,12 +32,12 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions
+from balancer.domain.systems import get_system
 from balancer.optimize.heuristics import greedy_lines, karmarkar_karp_lines, pattern_spread_va
 from balancer.optimize.model import build_layout, build_model
 from balancer.optimize.solve import solve_goal
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions
-from balancer.systems import get_system
 
 HERE = Path(__file__).resolve().parent
 START = "<!-- results: start -->"

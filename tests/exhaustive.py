@@ -7,8 +7,8 @@ import itertools
 import random
 from collections.abc import Iterator
 
-from balancer.panel import Circuit, Panel
-from balancer.systems import get_system
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
 
 
 def _legal_spans(panel: Panel, circuit: Circuit) -> Iterator[tuple[int, ...]]:

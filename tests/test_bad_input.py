@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 BAD = Path(__file__).resolve().parent / "data" / "bad"
 

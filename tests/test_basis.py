@@ -6,11 +6,11 @@ import math
 
 import pytest
 
-from balancer.analysis import analyze
-from balancer.basis import apply_basis, basis_details, basis_json, basis_lines, measured_va
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
 from balancer.errors import ScheduleError
-from balancer.panel import Circuit, Panel
-from balancer.systems import get_system
+from balancer.field.basis import apply_basis, basis_details, basis_json, basis_lines, measured_va
+from balancer.physics.analysis import analyze
 
 ATOL_VA = 1e-9
 

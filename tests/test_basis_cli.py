@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 # Invented test panel (not a real building).
 SCHEDULE = """\

@@ -24,8 +24,8 @@ from balancer.batch import (
     summary_text,
     write_summary,
 )
+from balancer.domain.result import BalanceOptions
 from balancer.io.reader import PanelOverrides
-from balancer.result import BalanceOptions
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
 GOOD = ["office-208y120.xlsx", "salon-208y120.csv", "bakery-120-240.xlsx"]
@@ -154,7 +154,7 @@ def test_progress_bar_only_on_a_terminal() -> None:
 def test_cli_check_over_a_folder_reports_the_corrupt_file_and_fails(
     folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    from balancer.cli import main
+    from balancer.cli.main import main
 
     summary = tmp_path / "out" / "summary.xlsx"
     summary.parent.mkdir()
@@ -170,7 +170,7 @@ def test_cli_check_over_a_folder_reports_the_corrupt_file_and_fails(
 def test_cli_batch_never_writes_the_summary_over_an_input(
     folder: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    from balancer.cli import main
+    from balancer.cli.main import main
 
     target = folder / "salon-208y120.csv"
     before = target.read_bytes()
@@ -183,7 +183,7 @@ def test_cli_batch_never_writes_the_summary_over_an_input(
 def test_cli_batch_json(folder: Path, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     import json
 
-    from balancer.cli import main
+    from balancer.cli.main import main
 
     summary = tmp_path / "s.xlsx"
     status = main(
@@ -204,7 +204,7 @@ def test_cli_batch_json(folder: Path, tmp_path: Path, capsys: pytest.CaptureFixt
 
 
 def test_batch_reports_each_panels_demand_and_feeder_check(folder: Path, tmp_path: Path) -> None:
-    from balancer.demand import DemandOptions, compute_demand
+    from balancer.code.demand import DemandOptions, compute_demand
     from balancer.io.reader import read_schedule
 
     summary = tmp_path / "out" / "summary.xlsx"

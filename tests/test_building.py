@@ -11,18 +11,18 @@ import random
 
 import pytest
 
-from balancer.building import (
+from balancer.building.tree import (
     Building,
     Feed,
     balance_building,
     make_building,
     roll_up,
 )
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.errors import ScheduleError
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, BalanceResult, SolveStatus
-from balancer.systems import get_system
-from balancer.transformer import make_transformer, primary_line_currents
+from balancer.physics.transformer import make_transformer, primary_line_currents
 
 ATOL_VA = 1e-6
 ATOL_A = 1e-6
@@ -352,7 +352,7 @@ def test_whole_tree_balancing_proves_every_panel_and_conserves_loads() -> None:
     assert result.after_figures.panels["MDP"].total_va == pytest.approx(
         own_branch_va(building), abs=ATOL_VA
     )
-    from balancer.building_report import move_rows
+    from balancer.building.report import move_rows
 
     rows = move_rows(result)
     assert len(rows) == sum(len(o.moves) + len(o.swapped_feeds) for o in result.outcomes.values())
@@ -413,7 +413,7 @@ def test_single_phase_subpanel_position_and_orientation_match_brute_force() -> N
 
 
 def test_levels_put_subpanels_first() -> None:
-    from balancer.building import levels
+    from balancer.building.tree import levels
 
     assert levels(sample_building()) == [["H1", "L1A", "P1"], ["L1"], ["MDP"]]
 
@@ -442,7 +442,7 @@ def _receptacles(space: int, load_va: float) -> Circuit:
 
 
 def test_feeder_demand_is_worked_out_on_all_the_loads_it_serves() -> None:
-    from balancer.building import demand_roll_up
+    from balancer.building.tree import demand_roll_up
 
     # Non-dwelling receptacles: first 10 kVA at 100 %, the rest at 50 % (NEC 220.44 in the
     # 2020 edition, 220.47 in 2023; see REFERENCE.md). The subpanel's 8 kVA stays under 10 kVA;
@@ -470,8 +470,8 @@ def test_feeder_demand_is_worked_out_on_all_the_loads_it_serves() -> None:
 
 
 def test_demand_of_a_lone_panel_matches_the_panel_calculation() -> None:
-    from balancer.building import demand_roll_up
-    from balancer.demand import compute_demand
+    from balancer.building.tree import demand_roll_up
+    from balancer.code.demand import compute_demand
 
     building = sample_building()
     demand = demand_roll_up(building)
@@ -570,7 +570,7 @@ def test_fixed_load_on_a_high_leg_cannot_be_seen_exactly_and_is_not_called_prove
 
 def _double_booking_balance(panel: Panel, options: BalanceOptions) -> BalanceResult:
     """A stand-in engine that puts every 1-pole circuit in space 1: the building must refuse it."""
-    from balancer.analysis import analyze
+    from balancer.physics.analysis import analyze
 
     moved = panel.with_circuits(
         [c.moved_to((1,)) if c.poles == 1 and not c.locked else c for c in panel.circuits]

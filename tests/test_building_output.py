@@ -13,15 +13,15 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook, load_workbook
 
-from balancer.building import Building, Feed, balance_building, make_building, roll_up
-from balancer.building_files import panel_sheet_names, read_building, write_building_sheets
-from balancer.building_report import work_order_rows, write_building_workbook
-from balancer.cli import main
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions
-from balancer.systems import get_system
-from balancer.transformer import make_transformer
-from balancer.workorder import replay, work_order
+from balancer.building.files import panel_sheet_names, read_building, write_building_sheets
+from balancer.building.report import work_order_rows, write_building_workbook
+from balancer.building.tree import Building, Feed, balance_building, make_building, roll_up
+from balancer.cli.main import main
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions
+from balancer.domain.systems import get_system
+from balancer.field.workorder import replay, work_order
+from balancer.physics.transformer import make_transformer
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_BOOK = ROOT / "sample_schedules" / "building-demo" / "building-demo.xlsx"

@@ -10,9 +10,9 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook, load_workbook
 
-from balancer.building import roll_up
-from balancer.building_files import read_building
-from balancer.cli import main
+from balancer.building.files import read_building
+from balancer.building.tree import roll_up
+from balancer.cli.main import main
 from balancer.errors import ScheduleError
 
 DEMO = Path(__file__).resolve().parents[1] / "sample_schedules" / "building-demo"

@@ -10,7 +10,8 @@ import pytest
 from openpyxl import load_workbook
 from writer_demo import demo_panel, demo_result
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
 from balancer.io.charts import (
     draw_phasor_diagram,
     phasor_arrows,
@@ -18,8 +19,7 @@ from balancer.io.charts import (
     save_phasor_diagram,
 )
 from balancer.io.writer import write_workbook
-from balancer.panel import Circuit, Panel
-from balancer.systems import get_system
+from balancer.physics.analysis import analyze
 
 ATOL_A = 1e-9
 

@@ -16,7 +16,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from balancer.demand import (
+from balancer.code.demand import (
     OCCUPANCIES,
     ClassRule,
     DemandOptions,
@@ -35,9 +35,9 @@ from balancer.demand import (
     resolve_rule_set,
     units_demand,
 )
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
 from balancer.errors import ScheduleError
-from balancer.panel import Circuit, Panel
-from balancer.systems import get_system
 
 ATOL_VA = 1e-6
 ATOL_A = 1e-6
@@ -877,7 +877,7 @@ def test_two_pole_with_neutral_share_uses_the_heavier_line(
 ) -> None:
     # 120/240 V: 5,000 VA / 240 V = 20.83 A on both lines, plus 600 / 120 = 5 A on one: 25.83 A
     # (C). On 208Y/120 the two currents are 30° apart, so the phasor sum is taken.
-    from balancer.analysis import analyze
+    from balancer.physics.analysis import analyze
 
     item = {"load_class": "other", "load_va": load_va, "poles": 2, "neutral_va": neutral_va}
     panel = make_panel([item], system)

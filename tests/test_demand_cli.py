@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 OFFICE = Path(__file__).resolve().parents[1] / "sample_schedules" / "office-208y120.xlsx"
 
@@ -148,7 +148,7 @@ def test_terminations_and_feeder_conductor_options(
 
 
 def test_balance_takes_the_new_demand_options() -> None:
-    from balancer.cli import build_parser
+    from balancer.cli.main import build_parser
 
     args = build_parser().parse_args(
         ["balance", "x.xlsx", "--nonlinear-classes", "other", "--terminations-75c"]

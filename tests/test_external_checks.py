@@ -6,10 +6,10 @@ import math
 
 import pytest
 
-from balancer.analysis import analyze
-from balancer.panel import Circuit, Panel
-from balancer.phasors import nema_unbalance_pct, neutral_magnitude_unity_pf
-from balancer.systems import get_system
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
+from balancer.physics.analysis import analyze
+from balancer.physics.phasors import nema_unbalance_pct, neutral_magnitude_unity_pf
 
 ATOL_A = 1e-9
 

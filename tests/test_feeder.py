@@ -11,7 +11,7 @@ import math
 
 import pytest
 
-from balancer.feeder import (
+from balancer.code.feeder import (
     AMPACITY_A,
     RESISTANCE_OHM_PER_KFT,
     SIZES,

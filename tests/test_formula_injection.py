@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 from openpyxl import load_workbook
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 HYPERLINK = '=HYPERLINK("http://example.invalid","click")'
 COMMAND = "=cmd|' /C calc'!A0"

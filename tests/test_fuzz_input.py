@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 from openpyxl import Workbook
 from openpyxl.utils.exceptions import IllegalCharacterError
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 KNOWN_STATUSES = {0, 2, 3, 4}
 # Few examples, a deadline far above the second or so one run takes, no example database in

@@ -11,11 +11,11 @@ from typing import Any
 import pytest
 from conftest import SAMPLES
 
-from balancer.cli import main
+from balancer.cli.main import main
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions
-from balancer.systems import get_system
 
 
 def _balance_json(capsys: pytest.CaptureFixture[str], tmp_path: Path, *args: str) -> Any:

@@ -4,7 +4,7 @@ layout, for each goal, on placed panels and fresh layouts.
 
 The reference figures are computed here from first principles (unity-PF current phasors of the
 system's nominal voltages, common practice), and the transformer loading by
-``balancer.transformer.loading_pct``, not by the optimiser's linear terms.
+``balancer.physics.transformer.loading_pct``, not by the optimiser's linear terms.
 """
 
 from __future__ import annotations
@@ -18,14 +18,14 @@ from dataclasses import dataclass
 import pytest
 from exhaustive import all_layouts, random_panel
 
-from balancer.field import FieldRun
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
+from balancer.domain.systems import Line
+from balancer.field.run import FieldRun
+from balancer.field.tradeoff import count_moves
 from balancer.optimize import balance
 from balancer.optimize.goals import CURRENT_GAP, POLYGON_ERROR, POLYGON_SIDES
-from balancer.panel import Panel
-from balancer.result import BalanceOptions, BalanceResult, SolveStatus
-from balancer.systems import Line
-from balancer.tradeoff import count_moves
-from balancer.transformer import loading_pct, loading_terms, supply_bank
+from balancer.physics.transformer import loading_pct, loading_terms, supply_bank
 
 GOALS = ("spread", "line", "neutral", "transformer")
 BANK_KVA = 15.0

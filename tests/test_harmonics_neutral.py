@@ -12,9 +12,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import System, get_system
 from balancer.errors import ScheduleError
-from balancer.harmonics import (
+from balancer.physics.analysis import analyze
+from balancer.physics.harmonics import (
     Profile,
     all_profiles,
     builtin_profiles,
@@ -23,9 +25,7 @@ from balancer.harmonics import (
     neutral_by_order,
     profile_for,
 )
-from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_harmonic_currents, rms
-from balancer.systems import System, get_system
+from balancer.physics.phasors import circuit_harmonic_currents, rms
 
 ATOL_A = 1e-9
 

@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook, load_workbook
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 SHEET = "xl/worksheets/sheet1.xml"
 STRINGS = "xl/sharedStrings.xml"

@@ -8,13 +8,13 @@ import random
 
 import pytest
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
 from balancer.optimize.goals import POLYGON_ERROR, POLYGON_SIDES
 from balancer.optimize.heuristics import greedy_partition, karmarkar_karp
 from balancer.optimize.solve import cbc_available
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import get_system
 
 ATOL_VA = 1e-6
 

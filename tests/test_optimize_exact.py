@@ -14,10 +14,10 @@ import random
 
 import pytest
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import get_system
 
 TOL_VA = 0.1  # below the 0.5 VA grid of whole-VA loads split over two poles: the optimum is exact
 ATOL_VA = 1e-6

@@ -18,15 +18,15 @@ from collections.abc import Callable, Sequence
 import numpy as np
 import pytest
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.errors import InfeasibleError
 from balancer.optimize import balance
 from balancer.optimize.heuristics import greedy_lines, pattern_spread_va, split_search_lines
 from balancer.optimize.model import build_layout, build_model, spread_lower_bound
 from balancer.optimize.verify import problems
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, BalanceResult, SolveStatus
-from balancer.systems import get_system
+from balancer.physics.analysis import analyze
 
 TOL_VA = 0.1  # below the 0.5 VA grid of whole-VA loads split over two poles: the optimum is exact
 ATOL_VA = 1e-6

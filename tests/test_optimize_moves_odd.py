@@ -16,12 +16,12 @@ from collections.abc import Sequence
 
 import pytest
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
 from balancer.optimize.heuristics import fewest_changes_lines, pattern_spread_va
 from balancer.optimize.model import build_layout
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import get_system
 
 TOL_VA = 0.1  # below the 0.5 VA grid of whole-VA loads over two poles: the spread is exact
 ATOL_VA = 1e-6

@@ -13,13 +13,13 @@ import dataclasses
 
 import pytest
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize import balance
 from balancer.optimize.model import build_layout, build_model
 from balancer.optimize.verify import verify
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import get_system
 
 WYE = get_system("208Y/120")
 HIGH_LEG = get_system("240/120")

@@ -14,10 +14,10 @@ import numpy as np
 import pytest
 from scipy.optimize import Bounds, LinearConstraint, milp
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import get_system
 
 LINES = ("A", "B", "C")
 PAIRS = (("A", "B"), ("B", "C"), ("C", "A"))  # the pairs two adjacent rows give (common practice)

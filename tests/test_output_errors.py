@@ -12,7 +12,7 @@ from pathlib import Path
 import pytest
 from openpyxl import Workbook
 
-from balancer.cli import main
+from balancer.cli.main import main
 from balancer.io import writer
 
 SCHEDULE = "Circuit,Description,Poles,Load (VA)\n1,Lighting,1,1200\n3,Receptacles,1,900\n"

@@ -12,10 +12,10 @@ import pypdf
 import pytest
 from writer_demo import demo_panel, demo_result
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Circuit
 from balancer.errors import BalancerError
 from balancer.io.pdf import PAPER_IN, write_pdf
-from balancer.panel import Circuit
+from balancer.physics.analysis import analyze
 
 POINTS_PER_IN = 72.0
 
@@ -113,7 +113,7 @@ def test_pdf_refuses_the_input_and_bad_paper(tmp_path: Path) -> None:
 
 
 def test_demand_summary_and_page(tmp_path: Path) -> None:
-    from balancer.demand import compute_demand
+    from balancer.code.demand import compute_demand
 
     result = demo_result()
     demand = compute_demand(result.after_panel)

@@ -8,7 +8,7 @@ from pathlib import Path
 import pypdf
 import pytest
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
 

@@ -12,11 +12,12 @@ import math
 import numpy as np
 import pytest
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import System, get_system
 from balancer.errors import ScheduleError
-from balancer.harmonics import Profile
-from balancer.panel import Circuit, Panel
-from balancer.phasors import (
+from balancer.physics.analysis import analyze
+from balancer.physics.harmonics import Profile
+from balancer.physics.phasors import (
     A_OP,
     circuit_harmonic_currents,
     circuit_line_currents,
@@ -24,7 +25,6 @@ from balancer.phasors import (
     sequence_components,
     unbalance_factor_pct,
 )
-from balancer.systems import System, get_system
 
 ATOL_A = 1e-9
 RTOL_TIME = 1e-9  # time-domain RMS of a sampled trigonometric polynomial is exact to rounding

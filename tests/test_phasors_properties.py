@@ -9,11 +9,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from balancer.analysis import analyze
-from balancer.harmonics import builtin_profiles
-from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_harmonic_currents, circuit_line_currents, sum_currents
-from balancer.systems import get_system
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
+from balancer.physics.analysis import analyze
+from balancer.physics.harmonics import builtin_profiles
+from balancer.physics.phasors import circuit_harmonic_currents, circuit_line_currents, sum_currents
 
 DESIGNATIONS = ["208Y/120", "480Y/277", "400Y/230", "120/240", "240/120", "480 delta"]
 CLASSES = ["", "computers", "led lighting", "vfd", "ev charger", "heating"]

@@ -10,9 +10,9 @@ import math
 import numpy as np
 import pytest
 
-from balancer.analysis import analyze
-from balancer.panel import Circuit, Panel
-from balancer.systems import get_system
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
+from balancer.physics.analysis import analyze
 
 pgm = pytest.importorskip("power_grid_model")
 

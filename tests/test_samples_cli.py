@@ -9,7 +9,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from balancer.cli import main
+from balancer.cli.main import main
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
 SAMPLE_FILES = sorted(p.name for p in SAMPLES.glob("*.xlsx")) + sorted(

@@ -6,8 +6,7 @@ from pathlib import Path
 
 import pytest
 
-from balancer.errors import ScheduleError
-from balancer.systems import (
+from balancer.domain.systems import (
     all_systems,
     builtin_systems,
     check_connection,
@@ -16,6 +15,7 @@ from balancer.systems import (
     get_system,
     load_systems,
 )
+from balancer.errors import ScheduleError
 
 # 600Y/347 V is the CSA C235 / ANSI-style 3-phase 4-wire system of Canadian commercial
 # buildings (common practice); 347 ≈ 600/√3.

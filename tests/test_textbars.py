@@ -8,7 +8,7 @@ import re
 import pytest
 from writer_demo import demo_result
 
-from balancer.textbars import before_after_bars, phase_bars, use_color
+from balancer.report.textbars import before_after_bars, phase_bars, use_color
 
 ANSI = re.compile(r"\033\[[0-9;]*m")
 

@@ -15,13 +15,11 @@ from exhaustive import all_layouts, group_ok, random_panel
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.errors import SolverError
-from balancer.panel import Circuit, Panel
-from balancer.phasors import nema_unbalance_pct
-from balancer.result import BalanceOptions, BalanceResult, SolveStatus
-from balancer.systems import get_system
-from balancer.tradeoff import (
+from balancer.field.tradeoff import (
     count_moves,
     fewest_moves_to,
     imbalance_floor_pct,
@@ -30,6 +28,8 @@ from balancer.tradeoff import (
     tradeoff_lines,
     tradeoff_rows,
 )
+from balancer.physics.analysis import analyze
+from balancer.physics.phasors import nema_unbalance_pct
 
 TOL_VA = 1.0  # the optimiser's default absolute tolerance on the spread
 ATOL_VA = 1e-6

@@ -15,10 +15,10 @@ import math
 import numpy as np
 import pytest
 
+from balancer.domain.systems import get_system
 from balancer.errors import ScheduleError
-from balancer.phasors import current_phasor
-from balancer.systems import get_system
-from balancer.transformer import (
+from balancer.physics.phasors import current_phasor
+from balancer.physics.transformer import (
     loading_pct,
     make_transformer,
     primary_line_currents,

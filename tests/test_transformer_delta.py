@@ -26,13 +26,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from balancer.building import Feed, balance_building, make_building, roll_up
+from balancer.building.tree import Feed, balance_building, make_building, roll_up
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import Line, System, get_system
 from balancer.errors import ScheduleError
-from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_line_currents
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import Line, System, get_system
-from balancer.transformer import (
+from balancer.physics.phasors import circuit_line_currents
+from balancer.physics.transformer import (
     Transformer,
     loading_pct,
     make_transformer,

@@ -1,6 +1,6 @@
 """Balancing for the feeding transformer's heaviest winding.
 
-The loading terms must reproduce :func:`balancer.transformer.loading_pct` exactly, and the
+The loading terms must reproduce :func:`balancer.physics.transformer.loading_pct` exactly, and the
 optimiser's proven heaviest winding must match an exhaustive search over every line choice of
 a small panel (invented test data). The polygon that linearises |I| may leave the answer at
 most POLYGON_ERROR above the true least loading, never below it (it is a real arrangement).
@@ -15,15 +15,15 @@ from pathlib import Path
 
 import pytest
 
-from balancer.building import Feed, balance_building, make_building, panel_options, roll_up
-from balancer.building_files import read_building
+from balancer.building.files import read_building
+from balancer.building.tree import Feed, balance_building, make_building, panel_options, roll_up
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.optimize import balance
 from balancer.optimize.goals import POLYGON_ERROR
-from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_line_currents
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import get_system
-from balancer.transformer import loading_pct, loading_terms, make_transformer
+from balancer.physics.phasors import circuit_line_currents
+from balancer.physics.transformer import loading_pct, loading_terms, make_transformer
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO_BOOK = ROOT / "sample_schedules" / "building-demo" / "building-demo.xlsx"
@@ -174,9 +174,9 @@ def test_balance_command_for_the_supply_bank(
 ) -> None:
     import json
 
-    from balancer.cli import main
+    from balancer.cli.main import main
     from balancer.io.reader import read_schedule
-    from balancer.transformer import supply_bank
+    from balancer.physics.transformer import supply_bank
 
     out = tmp_path / "shop.xlsx"
     args = ["balance", str(HIGH_LEG_SAMPLE), "-o", str(out), "--no-tradeoff", "--json"]
@@ -208,7 +208,7 @@ def test_balance_command_for_the_supply_bank(
 def test_balance_command_refuses_an_incomplete_supply_bank(
     tmp_path: Path, capsys: pytest.CaptureFixture[str], extra: list[str], message: str
 ) -> None:
-    from balancer.cli import main
+    from balancer.cli.main import main
 
     out = tmp_path / "x.xlsx"
     assert main(["balance", str(HIGH_LEG_SAMPLE), "-o", str(out), *extra]) == 2
@@ -218,7 +218,7 @@ def test_balance_command_refuses_an_incomplete_supply_bank(
 
 def test_no_single_bank_supplies_two_lines_of_a_wye() -> None:
     from balancer.errors import ScheduleError
-    from balancer.transformer import supply_bank
+    from balancer.physics.transformer import supply_bank
 
     with pytest.raises(ScheduleError, match="two lines of a wye"):
         supply_bank(get_system("120/208 network"), 25)

@@ -10,10 +10,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from balancer.analysis import analyze
-from balancer.panel import Circuit, Panel
-from balancer.systems import get_system
-from balancer.workorder import (
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import get_system
+from balancer.field.workorder import (
     STEP_HEADER,
     Step,
     StepItem,
@@ -24,6 +23,7 @@ from balancer.workorder import (
     work_order_lines,
     work_order_rows,
 )
+from balancer.physics.analysis import analyze
 
 ATOL_A = 1e-9
 

@@ -10,9 +10,9 @@ from typing import Any
 import pytest
 from openpyxl import load_workbook
 
-from balancer.cli import main
+from balancer.cli.main import main
+from balancer.domain.panel import Panel
 from balancer.io.reader import read_schedule
-from balancer.panel import Panel
 
 # Invented test panel (not a real building): five 1-pole loads, three of them on line A.
 SCHEDULE = """\
@@ -137,7 +137,7 @@ def test_no_tradeoff_and_bad_target(
 
 def test_sample_readings_reach_the_basis() -> None:
     """The bundled demo sample (invented clinic) read by the schedule reader."""
-    from balancer.basis import apply_basis
+    from balancer.field.basis import apply_basis
 
     sample = Path(__file__).resolve().parents[1] / "sample_schedules"
     panel = read_schedule(sample / "clinic-after-additions-208y120.xlsx")

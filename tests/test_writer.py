@@ -9,10 +9,10 @@ import pytest
 from openpyxl import load_workbook
 from writer_demo import DEMO_NOTICE, demo_panel, demo_result
 
-from balancer.analysis import analyze
 from balancer.errors import BalancerError, OutputError
 from balancer.io.reader import read_schedule
 from balancer.io.writer import SAFETY_NOTES, row_role, write_workbook
+from balancer.physics.analysis import analyze
 
 ATOL_VA = 1e-6
 
@@ -208,7 +208,7 @@ def test_work_order_sheet_follows_the_planner(written: Path) -> None:
 
 
 def test_demand_sheet_when_demand_is_given(tmp_path: Path) -> None:
-    from balancer.demand import compute_demand
+    from balancer.code.demand import compute_demand
 
     result = demo_result()
     demand = compute_demand(result.after_panel)

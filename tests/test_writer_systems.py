@@ -10,13 +10,13 @@ import pypdf
 import pytest
 from openpyxl import load_workbook
 
-from balancer.analysis import Loads, analyze
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceResult, SolveStatus
+from balancer.domain.systems import get_system
 from balancer.io.pdf import write_pdf
 from balancer.io.reader import read_schedule
 from balancer.io.writer import write_workbook
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceResult, SolveStatus
-from balancer.systems import get_system
+from balancer.physics.analysis import Loads, analyze
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_schedules"
 SAMPLE_FILES = [

@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from balancer.analysis import analyze
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceResult, Move, SolveStatus, TradeoffRow
-from balancer.systems import get_system
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceResult, Move, SolveStatus, TradeoffRow
+from balancer.domain.systems import get_system
+from balancer.physics.analysis import analyze
 
 DEMO_NOTICE = "Demo data: invented panel for tests."
 

@@ -20,9 +20,9 @@ from openpyxl.chart import BarChart, LineChart, Reference
 from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.drawing.line import LineProperties
 
-from balancer.harmonics import Profile, spectrum_for
-from balancer.panel import Panel
-from balancer.phasors import circuit_harmonic_currents
+from balancer.domain.panel import Panel
+from balancer.physics.harmonics import Profile, spectrum_for
+from balancer.physics.phasors import circuit_harmonic_currents
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -137,7 +137,7 @@ class Arrow:
 def phasor_arrows(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> tuple[Arrow, ...]:
     """Fundamental line current phasors of the panel as placed, then the neutral (if any).
 
-    Built from the same per-circuit currents as :func:`balancer.analysis.analyze`, so the
+    Built from the same per-circuit currents as :func:`balancer.physics.analysis.analyze`, so the
     magnitudes equal ``Loads.line_a`` and ``Loads.neutral_a``; the neutral is what the lines
     carry out and does not return on them (Kirchhoff's current law).
     """

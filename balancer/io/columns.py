@@ -205,8 +205,9 @@ COLUMNS: tuple[ColumnSpec, ...] = (
 BY_KEY = {spec.key: spec for spec in COLUMNS}
 
 # Headers the reader keeps verbatim in Circuit.extra for other parts to read (normalised form):
-# per-line clamp readings (balancer.basis), a harmonic profile name (balancer.harmonics) and a
-# conductor size (balancer.feeder). They draw no "did you mean" notice.
+# per-line clamp readings (balancer.field.basis), a harmonic profile name
+# (balancer.physics.harmonics) and a conductor size (balancer.code.feeder). They draw no "did you
+# mean" notice.
 KEPT_FOR_LATER = frozenset(
     f"measured{word}{line}" for word in ("line", "phase", "leg") for line in "abc"
 ) | {"harmonics", "harmonicprofile", "wire", "conductor", "conductorsize", "wiresize"}

@@ -13,7 +13,8 @@ from functools import cache
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
-from balancer.analysis import Loads, share_by_line
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceResult
 from balancer.io.writer import (
     SAFETY_NOTES,
     STATUS_TEXT,
@@ -22,14 +23,13 @@ from balancer.io.writer import (
     refuse_input_path,
     row_role,
 )
-from balancer.panel import Panel
-from balancer.result import BalanceResult
+from balancer.physics.analysis import Loads, share_by_line
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-    from balancer.demand import DemandResult
-    from balancer.workorder import WorkOrder
+    from balancer.code.demand import DemandResult
+    from balancer.field.workorder import WorkOrder
 
 Paper = Literal["letter", "a4"]
 PAPER_IN: dict[Paper, tuple[float, float]] = {"letter": (8.5, 11.0), "a4": (8.27, 11.69)}
@@ -470,14 +470,14 @@ def _work_pages(
 
 def _work_order_table(result: BalanceResult) -> list[list[Any]]:
     """The result's steps from the work-order planner, as printed rows."""
-    from balancer.workorder import work_order_for
+    from balancer.field.workorder import work_order_for
 
     return work_rows(work_order_for(result))
 
 
 def work_rows(order: WorkOrder) -> list[list[Any]]:
     """A work order's breaker steps as printed rows, in the columns of ``WORK_HEADER``."""
-    from balancer.workorder import ACTION_TEXT
+    from balancer.field.workorder import ACTION_TEXT
 
     return [
         [
@@ -637,7 +637,7 @@ def pdf_pages(
         _work_order_pages(pages, make, result)
     extra = list(sections)
     if demand is not None:
-        from balancer.demand import demand_sheet_rows
+        from balancer.code.demand import demand_sheet_rows
 
         extra.insert(0, ("Demand load and feeder check", demand_sheet_rows(demand)))
     _section_pages(pages, make, extra)
@@ -671,7 +671,7 @@ def write_pdf(
     sections
         Extra ``(title, rows)`` tables, free-form rows as the workbook's extra sheets take them.
     demand
-        Demand loads and feeder check (:func:`balancer.demand.compute_demand`): a few lines on
+        Demand loads and feeder check (:func:`balancer.code.demand.compute_demand`): a few lines on
         the summary and a page of their own.
     input_path
         The schedule that was read, when known.
@@ -713,7 +713,7 @@ def write_building_pdf(
 ) -> Path:
     """A building's printout, written atomically: a summary page with the cautions, then for
     every panel its circuit directory and, when it changes, its work order (rows in the columns
-    of ``WORK_HEADER``, from :func:`balancer.building_report.pdf_work_rows`).
+    of ``WORK_HEADER``, from :func:`balancer.building.report.pdf_work_rows`).
 
     ``panels`` are as they should be posted: the revised layout after balancing. ``inputs``
     are refused as ``path``.

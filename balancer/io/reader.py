@@ -1,4 +1,4 @@
-"""Read a panel schedule (.xlsx or .csv) into a :class:`~balancer.panel.Panel`.
+"""Read a panel schedule (.xlsx or .csv) into a :class:`~balancer.domain.panel.Panel`.
 
 Every problem is collected with its place (``Circuits!E14``) and reported at once as a
 :class:`~balancer.errors.ScheduleError`; the input file is only ever opened for reading.
@@ -26,10 +26,10 @@ from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 from openpyxl.utils.exceptions import InvalidFileException
 
+from balancer.domain.panel import SPARE, Circuit, Geometry, Panel, smallest_space_count
+from balancer.domain.systems import System, check_connection, find_system, known_designations
 from balancer.errors import Problem, ScheduleError
 from balancer.io.columns import BY_KEY, KEPT_FOR_LATER, ColumnSpec, all_spellings, match, normalise
-from balancer.panel import SPARE, Circuit, Geometry, Panel, smallest_space_count
-from balancer.systems import System, check_connection, find_system, known_designations
 
 DEFAULT_SYSTEM = "208Y/120"
 HEADER_SEARCH_ROWS = 40

@@ -21,13 +21,13 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from balancer.analysis import Loads, share_by_line
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceResult, SolveStatus
 from balancer.errors import OutputError
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceResult, SolveStatus
+from balancer.physics.analysis import Loads, share_by_line
 
 if TYPE_CHECKING:
-    from balancer.demand import DemandResult
+    from balancer.code.demand import DemandResult
 
 ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
 """A sheet another part of balancer adds: its title and its rows (the first row is the header)."""
@@ -781,7 +781,7 @@ def write_workbook(
         More ``(title, rows)`` sheets, placed after the built-in ones. Rows are free-form: a
         one-cell row is a title, a row of four or more text cells a table header.
     demand
-        Demand loads and feeder check (:func:`balancer.demand.compute_demand`), as a "Demand"
+        Demand loads and feeder check (:func:`balancer.code.demand.compute_demand`), as a "Demand"
         sheet.
     work_order
         Add the "Work order" sheet (steps through free spaces) when breakers move.
@@ -827,11 +827,11 @@ def write_workbook(
         _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
     sheets = list(extra_sheets)
     if demand is not None:
-        from balancer.demand import demand_sheet_rows
+        from balancer.code.demand import demand_sheet_rows
 
         sheets.insert(0, ("Demand", demand_sheet_rows(demand)))
     if work_order and result.moves:
-        from balancer.workorder import work_order_for, work_order_rows
+        from balancer.field.workorder import work_order_for, work_order_rows
 
         sheets.insert(0, ("Work order", work_order_rows(work_order_for(result))))
     taken = set(wb.sheetnames)

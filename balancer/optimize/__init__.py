@@ -19,7 +19,8 @@ import time
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
 
-from balancer.analysis import analyze
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, Move, SolveStatus
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.goals import MOVES_GAP, goal_for
 from balancer.optimize.heuristics import (
@@ -46,8 +47,7 @@ from balancer.optimize.model import (
 )
 from balancer.optimize.solve import StageResult, cap, evaluate, solve_goal
 from balancer.optimize.verify import verify
-from balancer.panel import Panel
-from balancer.result import BalanceOptions, BalanceResult, Move, SolveStatus
+from balancer.physics.analysis import analyze
 
 __all__ = ["balance"]
 

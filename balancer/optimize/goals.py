@@ -12,11 +12,11 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
-from balancer.analysis import Loads
-from balancer.harmonics import circuit_currents_by_order
-from balancer.panel import Panel
-from balancer.result import BalanceOptions, Objective
-from balancer.systems import Line
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, Objective
+from balancer.domain.systems import Line
+from balancer.physics.analysis import Loads
+from balancer.physics.harmonics import circuit_currents_by_order
 
 # Sides of the regular polygon that linearises |I|: max_k Re(I e^{-jθk}) ≤ |I| ≤ that / cos(π/m).
 POLYGON_SIDES = 64
@@ -98,7 +98,7 @@ def goal_for(name: str) -> Goal:
 
 def fundamental_currents(panel: Panel) -> Mapping[Line, complex]:
     """Fundamental line current phasors of the panel as its circuits are placed (the same
-    phasors :func:`balancer.analysis.analyze` sums)."""
+    phasors :func:`balancer.physics.analysis.analyze` sums)."""
     out: dict[Line, complex] = dict.fromkeys(panel.lines, 0j)
     for circuit in panel.circuits:
         lines = panel.lines_of(circuit)

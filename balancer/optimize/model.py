@@ -18,12 +18,12 @@ from typing import Literal
 
 import pulp
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions
+from balancer.domain.systems import Line
 from balancer.errors import InfeasibleError
-from balancer.harmonics import circuit_currents_by_order
 from balancer.optimize.goals import POLYGON_SIDES
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceOptions
-from balancer.systems import Line
+from balancer.physics.harmonics import circuit_currents_by_order
 
 ModelKind = Literal["line", "space", "mixed"]
 

@@ -1,18 +1,19 @@
 """Independent check of an arrangement against the panelboard's rules and the solver's claim.
 
 Nothing here trusts the model: spaces, spans, locks, multiwire groups and the high leg are checked
-from the circuits themselves, and phase sums are recomputed with :func:`balancer.analysis.analyze`.
+from the circuits themselves, and phase sums are recomputed with
+:func:`balancer.physics.analysis.analyze`.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 
-from balancer.analysis import Loads, analyze
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions
+from balancer.domain.systems import Line
 from balancer.errors import SolverError
-from balancer.panel import Panel
-from balancer.result import BalanceOptions
-from balancer.systems import Line
+from balancer.physics.analysis import Loads, analyze
 
 PHASE_ATOL_VA = 1e-6  # relative to the total load, for comparing phase sums
 

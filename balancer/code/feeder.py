@@ -2,8 +2,8 @@
 termination column, conductor protection (240.4(B), 240.4(D)), the 220.61 neutral and an
 informational voltage drop.
 
-Pure functions of numbers; :mod:`balancer.demand` decides which loads go in. Tables are those of
-NFPA 70 (NEC); each constant names its table and how its values were obtained.
+Pure functions of numbers; :mod:`balancer.code.demand` decides which loads go in. Tables are
+those of NFPA 70 (NEC); each constant names its table and how its values were obtained.
 """
 
 from __future__ import annotations

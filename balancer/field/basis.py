@@ -18,9 +18,9 @@ import re
 from dataclasses import dataclass, replace
 from typing import Any, Literal
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import Line, System
 from balancer.errors import Problem, ScheduleError
-from balancer.panel import Circuit, Panel
-from balancer.systems import Line, System
 
 Basis = Literal["nameplate", "measured", "larger"]
 BasisUsed = Literal["nameplate", "measured"]
@@ -145,7 +145,7 @@ def apply_basis(panel: Panel, basis: Basis) -> tuple[Panel, dict[str, BasisUsed]
 
     Examples
     --------
-    >>> from balancer.systems import get_system
+    >>> from balancer.domain.systems import get_system
     >>> p = Panel("P", get_system("208Y/120"), 6, (Circuit("1", "Lights", 1, 1000.0, (1,),
     ...     measured_a=10.0),))
     >>> new, used = apply_basis(p, "measured")

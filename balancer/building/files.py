@@ -18,10 +18,10 @@ from typing import TYPE_CHECKING
 
 from openpyxl.utils import get_column_letter
 
-from balancer.building import MAX_LEVELS, Building, Feed, deepest, make_building
+from balancer.building.tree import MAX_LEVELS, Building, Feed, deepest, make_building
+from balancer.domain.panel import Panel
 from balancer.errors import Problem, ScheduleError
-from balancer.panel import Panel
-from balancer.transformer import make_transformer
+from balancer.physics.transformer import make_transformer
 
 if TYPE_CHECKING:
     from openpyxl import Workbook

@@ -13,10 +13,10 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import Any
 
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus, TradeoffRow
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.goals import Goal, goal_for
-from balancer.panel import Panel
-from balancer.result import BalanceOptions, BalanceResult, SolveStatus, TradeoffRow
 
 BalanceFn = Callable[[Panel, BalanceOptions], BalanceResult]
 

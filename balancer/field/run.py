@@ -7,11 +7,17 @@ from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from typing import Any, Literal
 
-from balancer.basis import Basis, CircuitBasis, apply_basis, basis_details, basis_json, basis_lines
-from balancer.optimize.goals import goal_for
-from balancer.panel import Panel
-from balancer.result import BalanceOptions, BalanceResult, Recommendation, SolveStatus
-from balancer.tradeoff import (
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, Recommendation, SolveStatus
+from balancer.field.basis import (
+    Basis,
+    CircuitBasis,
+    apply_basis,
+    basis_details,
+    basis_json,
+    basis_lines,
+)
+from balancer.field.tradeoff import (
     TargetAnswer,
     Tradeoff,
     count_moves,
@@ -20,7 +26,8 @@ from balancer.tradeoff import (
     tradeoff_json,
     tradeoff_lines,
 )
-from balancer.workorder import WorkOrder, work_order_for, work_order_json, work_order_lines
+from balancer.field.workorder import WorkOrder, work_order_for, work_order_json, work_order_lines
+from balancer.optimize.goals import goal_for
 
 BalanceFn = Callable[[Panel, BalanceOptions], BalanceResult]
 NEUTRAL_RISE_A = 0.05  # a rise in neutral current smaller than this is not worth a word

@@ -11,7 +11,7 @@ from functools import cache
 from pathlib import Path
 from typing import Literal
 
-from balancer.datafiles import array_of_tables, read_toml
+from balancer.domain.datafiles import array_of_tables, read_toml
 from balancer.errors import Problem, ScheduleError
 
 Line = str  # "A", "B" or "C"
@@ -321,7 +321,7 @@ def check_connection(
 
     Examples
     --------
-    >>> from balancer.systems import get_system
+    >>> from balancer.domain.systems import get_system
     >>> check_connection(get_system("240/120"), ["A"], 1, 120.0) is None
     True
     >>> print(check_connection(get_system("240/120"), ["B"], 1, 120.0))  # doctest: +ELLIPSIS

@@ -11,7 +11,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from pathlib import Path
 
-from balancer.building import (
+from balancer.building.files import index_file, read_building
+from balancer.building.tree import (
     Building,
     BuildingResult,
     RollUp,
@@ -19,13 +20,12 @@ from balancer.building import (
     demand_roll_up,
     roll_up,
 )
-from balancer.building_files import index_file, read_building
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.systems import Line
 from balancer.errors import Problem, ScheduleError
 from balancer.io.pdf import add_pdf_arguments
-from balancer.panel import Panel
-from balancer.report import GOAL_NAMES
-from balancer.result import BalanceOptions, SolveStatus
-from balancer.systems import Line
+from balancer.report.text import GOAL_NAMES
 
 SAFETY = (
     "An engineering aid, not a design approval: moving breakers or re-landing feeder conductors "
@@ -346,7 +346,7 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
     """The field steps of every panel that changes, service first: the cautions, then per panel
     its breaker steps (one free space at a time), the feeder conductors to re-land and the
     currents to expect afterwards (fundamental, with everything the panel feeds)."""
-    from balancer.workorder import CAUTIONS, STEP_HEADER, step_rows, work_order
+    from balancer.field.workorder import CAUTIONS, STEP_HEADER, step_rows, work_order
 
     rows: list[list[object]] = [[f"Work order — building {result.before.name}"], []]
     rows += [["Caution", c] for c in CAUTIONS]
@@ -396,8 +396,8 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
 def pdf_work_rows(result: BuildingResult) -> dict[str, list[list[object]]]:
     """Per panel that changes, its work-order rows for the printout (the columns of
     :data:`balancer.io.pdf.WORK_HEADER`): breaker steps, then feeder conductors to re-land."""
+    from balancer.field.workorder import work_order
     from balancer.io.pdf import place_text, work_rows
-    from balancer.workorder import work_order
 
     out: dict[str, list[list[object]]] = {}
     for name in reversed(result.before.order()):
@@ -448,7 +448,7 @@ def write_building_workbook(
     from openpyxl import Workbook
     from openpyxl.styles import Alignment, Font
 
-    from balancer.building_files import write_building_sheets
+    from balancer.building.files import write_building_sheets
     from balancer.io.writer import print_setup, save_workbook, write_rows_sheet
 
     book = Workbook()
@@ -642,7 +642,7 @@ def run_command(args: argparse.Namespace) -> int:
         result = balance_building(building, options, jobs=max(1, args.jobs))
     demand = None
     if args.demand:
-        from balancer.demand import DemandOptions, check_choices
+        from balancer.code.demand import DemandOptions, check_choices
 
         check_choices(args.rules, args.occupancy)
         choices = DemandOptions(rules=args.rules, occupancy=args.occupancy)

@@ -29,9 +29,9 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Literal
 
+from balancer.domain.result import CurrentTerm
+from balancer.domain.systems import Line, System, find_system
 from balancer.errors import Problem, ScheduleError
-from balancer.result import CurrentTerm
-from balancer.systems import Line, System, find_system
 
 Connection = Literal[
     "delta-wye", "wye-wye", "single-phase", "delta-delta", "wye-delta", "open-delta"

@@ -15,10 +15,10 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, Literal
 
-from balancer.analysis import analyze
-from balancer.panel import Circuit, Panel
-from balancer.result import BalanceResult
-from balancer.systems import Line
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceResult
+from balancer.domain.systems import Line
+from balancer.physics.analysis import analyze
 
 Action = Literal["install", "move", "park", "set aside", "reinstall"]
 

@@ -10,12 +10,14 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import Any
 
-from balancer import batch, building_report, report
-from balancer.analysis import analyze
+from balancer import batch
+from balancer.building import report as building_report
+from balancer.domain.panel import Panel
 from balancer.errors import BalancerError, Problem, ScheduleError
 from balancer.io.pdf import add_pdf_arguments
 from balancer.io.reader import PanelOverrides, read_schedule
-from balancer.panel import Panel
+from balancer.physics.analysis import analyze
+from balancer.report import text as report
 
 EXIT_OK, EXIT_BAD_INPUT, EXIT_SOLVER, EXIT_INFEASIBLE = 0, 2, 3, 4
 
@@ -91,7 +93,7 @@ def _field_options(parser: argparse.ArgumentParser) -> None:
 
 
 def _field_run(args: argparse.Namespace) -> Any:
-    from balancer.field import FieldRun
+    from balancer.field.run import FieldRun
 
     if args.target_imbalance is not None and args.target_imbalance < 0:
         raise ScheduleError(Problem("--target-imbalance", "must be 0 % or more"))
@@ -184,7 +186,7 @@ def _pdf_path(args: argparse.Namespace, suffix: str) -> Path | None:
 
 
 def _bars(args: argparse.Namespace, before: Any, after: Any = None, neutral: bool = True) -> str:
-    from balancer.textbars import before_after_bars, phase_bars, use_color
+    from balancer.report.textbars import before_after_bars, phase_bars, use_color
 
     color = use_color(sys.stdout, args.no_color)
     if after is None:
@@ -193,7 +195,7 @@ def _bars(args: argparse.Namespace, before: Any, after: Any = None, neutral: boo
 
 
 def _demand_choices(args: argparse.Namespace) -> Any:
-    from balancer.demand import DemandOptions, check_choices
+    from balancer.code.demand import DemandOptions, check_choices
 
     if args.feeder_length is not None and args.feeder_length <= 0:
         raise ScheduleError(Problem("--feeder-length", "must be more than 0 feet"))
@@ -212,7 +214,7 @@ def _demand_choices(args: argparse.Namespace) -> Any:
 
 
 def _demand(args: argparse.Namespace, panel: Panel) -> Any:
-    from balancer.demand import compute_demand
+    from balancer.code.demand import compute_demand
 
     try:
         return compute_demand(panel, _demand_choices(args))
@@ -359,7 +361,7 @@ def _print_json(data: dict[str, Any]) -> None:
 
 def run_check(args: argparse.Namespace) -> int:
     if batch.wanted(args):
-        from balancer.result import BalanceOptions
+        from balancer.domain.result import BalanceOptions
 
         files = [args.schedule, *args.more]
         return batch.command(
@@ -372,14 +374,14 @@ def run_check(args: argparse.Namespace) -> int:
             json_output=args.json,
             demand=_demand_choices(args),
         )
-    from balancer.field import FieldRun
+    from balancer.field.run import FieldRun
 
     field_run = FieldRun(basis=args.basis)
     panel = field_run.prepare(read_schedule(args.schedule, _overrides(args)))
     loads = analyze(panel)
     warnings = _warnings(panel)
     demand = _demand(args, panel)
-    from balancer.demand import demand_to_dict, loads_section_lines
+    from balancer.code.demand import demand_to_dict, loads_section_lines
 
     if args.json:
         _print_json(
@@ -448,7 +450,7 @@ def balance_file(
     if bank is not None:
         from dataclasses import replace
 
-        from balancer.transformer import loading_terms, supply_bank
+        from balancer.physics.transformer import loading_terms, supply_bank
 
         supply = supply_bank(panel.system, bank[0], bank[1], "--bank-kva")
         options = replace(options, transformer_terms=loading_terms(supply))
@@ -552,7 +554,7 @@ def balance_text(
 
 
 def _options(args: argparse.Namespace) -> Any:
-    from balancer.result import BalanceOptions
+    from balancer.domain.result import BalanceOptions
 
     if args.max_moves is not None and args.max_moves < 0:
         raise ScheduleError(Problem("--max-moves", f"{args.max_moves} must be 0 or more"))
@@ -607,7 +609,7 @@ def run_balance(args: argparse.Namespace) -> int:
             json_output=args.json,
             demand=_demand_choices(args),
         )
-    from balancer.demand import demand_to_dict, loads_section_lines
+    from balancer.code.demand import demand_to_dict, loads_section_lines
 
     _demand_choices(args)  # a wrong rule set or occupancy is reported before any work
     field_run = _field_run(args)
@@ -660,7 +662,7 @@ def sample_folder() -> Path:
     """The bundled samples: ./sample_schedules, else the one beside the installed source tree."""
     for candidate in (
         Path.cwd() / "sample_schedules",
-        Path(__file__).resolve().parents[1] / "sample_schedules",
+        Path(__file__).resolve().parents[2] / "sample_schedules",
     ):
         if (candidate / DEMO_SAMPLE).exists():
             return candidate

@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Any
 
-from balancer.systems import Line, System
+from balancer.domain.systems import Line, System
 
 # Load classes balancer treats specially everywhere; the demand rules know many more.
 SPARE = "spare"

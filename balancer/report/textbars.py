@@ -12,8 +12,8 @@ import os
 from collections.abc import Mapping
 from typing import TextIO
 
-from balancer.analysis import Loads
-from balancer.systems import Line
+from balancer.domain.systems import Line
+from balancer.physics.analysis import Loads
 
 _FILL = "#"
 _EMPTY = "."

@@ -12,7 +12,7 @@ Roll-up rules
   A on the breaker's first line (in space order) and B on the second, or the other way round
   when the feed is ``swapped`` (which conductor lands on which pole is free at the terminals).
 * Through a transformer the secondary's winding loads appear on the primary lines as
-  :mod:`balancer.transformer` describes.
+  :mod:`balancer.physics.transformer` describes.
 """
 
 from __future__ import annotations
@@ -23,13 +23,13 @@ from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
-from balancer.analysis import share_by_line, spread_and_imbalance
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
+from balancer.domain.systems import Line, System
 from balancer.errors import Problem, ScheduleError, SolverError
-from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_line_currents
-from balancer.result import BalanceOptions, BalanceResult, SolveStatus
-from balancer.systems import Line, System
-from balancer.transformer import (
+from balancer.physics.analysis import share_by_line, spread_and_imbalance
+from balancer.physics.phasors import circuit_line_currents
+from balancer.physics.transformer import (
     Transformer,
     loading_pct,
     loading_terms,
@@ -39,7 +39,7 @@ from balancer.transformer import (
 )
 
 if TYPE_CHECKING:
-    from balancer.demand import DemandOptions
+    from balancer.code.demand import DemandOptions
 
 VOLTAGE_RTOL = 0.02  # nominal voltages closer than 2 % are taken as the same system
 MAX_LEVELS = 20  # a service, then panels fed from panels: real buildings have well under ten
@@ -384,7 +384,7 @@ def _loop_problems(fed: Mapping[str, Feed]) -> list[Problem]:
 class PanelFigures:
     """A panel's loads with every subpanel rolled up, connected basis.
 
-    ``phase_va`` follows the schedule convention of :func:`balancer.analysis.share_by_line`;
+    ``phase_va`` follows the schedule convention of :func:`balancer.physics.analysis.share_by_line`;
     ``branch_va`` is the panel's own branch circuits (feeders excluded) and ``tree_branch_va``
     that plus every panel below it, so ``sum(phase_va) == tree_branch_va``.
     """
@@ -566,10 +566,10 @@ def demand_roll_up(building: Building, options: DemandOptions | None = None) -> 
     A feeder's demand is worked out on all the loads it serves (the class factors of the rule
     set apply to the combined class totals, so demand is not the sum of the subpanels' demand
     loads). For each panel: every branch circuit of its subtree is given to
-    :func:`balancer.demand.compute_demand` on one list, each circuit's demand VA replaces its
+    :func:`balancer.code.demand.compute_demand` on one list, each circuit's demand VA replaces its
     connected VA, and that is rolled up through the tree as the connected loads are.
     """
-    from balancer.demand import compute_demand
+    from balancer.code.demand import compute_demand
 
     figures: dict[str, PanelFigures] = {}
     feeders: dict[str, FeederFigures] = {}

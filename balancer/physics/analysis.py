@@ -6,17 +6,17 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import Line
 from balancer.errors import Problem, ScheduleError
-from balancer.harmonics import Profile, spectrum_for
-from balancer.panel import Circuit, Panel
-from balancer.phasors import (
+from balancer.physics.harmonics import Profile, spectrum_for
+from balancer.physics.phasors import (
     circuit_harmonic_currents,
     circuit_power,
     nema_unbalance_pct,
     rms,
     unbalance_factor_pct,
 )
-from balancer.systems import Line
 
 # Relative margin by which the neutral RMS current must exceed the largest line RMS current
 # before it is flagged; keeps rounding noise on a balanced panel from raising the flag.

@@ -8,9 +8,9 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Literal
 
-from balancer.analysis import Loads
-from balancer.panel import Panel
-from balancer.systems import Line
+from balancer.domain.panel import Panel
+from balancer.domain.systems import Line
+from balancer.physics.analysis import Loads
 
 Engine = Literal["highs", "cbc"]
 Objective = Literal["spread", "line", "neutral", "transformer"]
@@ -42,8 +42,8 @@ class BalanceOptions:
     """Choices for one balancing run; passed explicitly, never global.
 
     ``transformer_terms`` describe the windings of the transformer feeding the panel (see
-    :func:`balancer.transformer.loading_terms`); with them, objective ``"transformer"`` keeps
-    the heaviest winding's loading lowest.
+    :func:`balancer.physics.transformer.loading_terms`); with them, objective
+    ``"transformer"`` keeps the heaviest winding's loading lowest.
     """
 
     fresh: bool = False

@@ -7,8 +7,8 @@ import math
 import textwrap
 from typing import Any
 
-from balancer.analysis import Loads
-from balancer.panel import Panel
+from balancer.domain.panel import Panel
+from balancer.physics.analysis import Loads
 
 GOAL_NAMES = {
     "spread": "the phase spread",

@@ -1,7 +1,7 @@
 """Current phasors of branch circuits, line and neutral currents, symmetrical components,
 harmonic currents and the RMS figures made from them.
 
-Pure functions of numbers and a :class:`~balancer.systems.System`; RMS phasors throughout.
+Pure functions of numbers and a :class:`~balancer.domain.systems.System`; RMS phasors throughout.
 Power factor: a positive value is lagging (current behind voltage), a negative value leading.
 """
 
@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from balancer.systems import Line, System, check_connection, circuit_wiring
+from balancer.domain.systems import Line, System, check_connection, circuit_wiring
 
 # Fortescue's operator a = 1∠120°.
 A_OP = cmath.rect(1.0, math.radians(120.0))
@@ -50,7 +50,7 @@ def circuit_line_currents(
     two lines (I_pq leaves on p, returns on q); a 3-pole circuit a balanced load, taken as three
     equal delta branches so the result holds on wye and delta supplies alike. The fundamental
     of a sinusoidal load only, and no check of the connection: see
-    :func:`~balancer.systems.check_connection` and :func:`circuit_harmonic_currents`.
+    :func:`~balancer.domain.systems.check_connection` and :func:`circuit_harmonic_currents`.
     """
     if len(lines) == 1:
         (line,) = lines
@@ -163,10 +163,10 @@ def circuit_harmonic_currents(
 ) -> dict[int, CircuitCurrents]:
     """Current phasors of one circuit by harmonic order; order 1 is the fundamental.
 
-    How the circuit connects follows :func:`~balancer.systems.circuit_wiring`: a line-to-neutral
-    load, a line-to-line load (a 3-pole load as three equal delta elements), or a multiwire
-    circuit with one line-to-neutral element per pole. ``neutral_va`` of a load between lines
-    is a line-to-neutral element on the circuit's first line; the rest stays between lines.
+    How the circuit connects follows :func:`~balancer.domain.systems.circuit_wiring`: a
+    line-to-neutral load, a line-to-line load (a 3-pole load as three equal delta elements), or a
+    multiwire circuit with one line-to-neutral element per pole. ``neutral_va`` of a load between
+    lines is a line-to-neutral element on the circuit's first line; the rest stays between lines.
 
     ``load_va`` is taken as each element's voltage times its RMS current (how nameplates and
     clamp-meter readings state it), so with a spectrum the fundamental is the RMS current
@@ -178,7 +178,8 @@ def circuit_harmonic_currents(
     Raises
     ------
     ValueError
-        When the circuit cannot connect that way (see :func:`~balancer.systems.check_connection`).
+        When the circuit cannot connect that way (see
+        :func:`~balancer.domain.systems.check_connection`).
     """
     problem = check_connection(system, tuple(lines), len(lines), voltage_v, neutral_va)
     if problem:

@@ -15,11 +15,11 @@ from dataclasses import dataclass
 from functools import cache, lru_cache
 from pathlib import Path
 
-from balancer.datafiles import array_of_tables, read_toml
+from balancer.domain.datafiles import array_of_tables, read_toml
+from balancer.domain.panel import Circuit
+from balancer.domain.systems import Line, System
 from balancer.errors import Problem, ScheduleError
-from balancer.panel import Circuit
-from balancer.phasors import CircuitCurrents, circuit_harmonic_currents
-from balancer.systems import Line, System
+from balancer.physics.phasors import CircuitCurrents, circuit_harmonic_currents
 
 # Column names (normalised) a schedule may use to name a circuit's harmonic profile; the reader
 # keeps unknown columns in Circuit.extra, where this module looks them up.

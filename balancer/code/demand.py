@@ -18,10 +18,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any, Literal
 
-from balancer.analysis import share_by_line
-from balancer.datafiles import parse_toml
-from balancer.errors import Problem, ScheduleError
-from balancer.feeder import (
+from balancer.code.feeder import (
     BRANCH_DROP_GUIDE_PCT,
     NEUTRAL_THRESHOLD_A,
     SMALL_CONDUCTOR_LIMIT_A,
@@ -40,10 +37,13 @@ from balancer.feeder import (
     termination_column_c,
     voltage_drop_pct,
 )
-from balancer.harmonics import profile_for
-from balancer.panel import Circuit, Panel
-from balancer.phasors import circuit_harmonic_currents
-from balancer.systems import Line, System, get_system
+from balancer.domain.datafiles import parse_toml
+from balancer.domain.panel import Circuit, Panel
+from balancer.domain.systems import Line, System, get_system
+from balancer.errors import Problem, ScheduleError
+from balancer.physics.analysis import share_by_line
+from balancer.physics.harmonics import profile_for
+from balancer.physics.phasors import circuit_harmonic_currents
 
 Method = Literal["factor", "tiers", "units"]
 BUILTIN_RULE_SETS = ("nec2023", "nec2020", "connected")
@@ -560,7 +560,7 @@ def _per_line_voltage(system: System, poles: int, line: Line) -> float:
 def _heavier_line_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
     """The heavier line current of a 2-pole load with a line-to-neutral share at ``load_va``.
 
-    The same phasor figure :func:`balancer.analysis.analyze` reports: the share on the first
+    The same phasor figure :func:`balancer.physics.analysis.analyze` reports: the share on the first
     line to neutral, the rest between the lines (the share scales with the load).
     """
     system = panel.system
@@ -655,7 +655,8 @@ def compute_demand(panel: Panel, options: DemandOptions | None = None) -> Demand
     How the class factors reach the lines: each circuit's demand is its connected load times its
     class's effective factor (class demand ÷ class connected load), plus the motor adder on the
     largest motor; its per-line share follows the schedule convention of
-    :func:`balancer.analysis.share_by_line`. Unplaced circuits are spread evenly over the lines.
+    :func:`balancer.physics.analysis.share_by_line`. Unplaced circuits are spread evenly over
+    the lines.
     """
     options = options or DemandOptions()
     rules = resolve_rule_set(options.rules, panel.system)

@@ -1,0 +1,1 @@
+"""Electrical figures: current phasors, harmonics, per-line loads and currents, transformers."""
