@@ -1,1 +1,1 @@
-"""Buildings: panels feeding panels, the roll-up to the service, balancing the tree, and its files."""
+"""Buildings: panels feeding panels, the roll-up to the service, balancing the tree, its files."""

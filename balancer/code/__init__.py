@@ -1,1 +1,1 @@
-"""Code demand loads and the feeder and branch-circuit checks (NEC rule sets as data under balancer/rules)."""
+"""Code demand loads and the feeder and branch-circuit checks (rule sets as data in rules/)."""

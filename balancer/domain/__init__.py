@@ -1,1 +1,2 @@
-"""The domain: immutable panels and circuits, space geometry, voltage systems, and what a balancing run asks for and returns."""
+"""The domain: panels, circuits, space geometry, voltage systems, and balancing runs' options and
+results."""

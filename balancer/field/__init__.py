@@ -1,1 +1,1 @@
-"""Panels in service: the load basis, the trade-off table and the recommended row, the work order."""
+"""Panels in service: the load basis, the trade-off table and recommended row, the work order."""
