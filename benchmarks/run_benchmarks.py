@@ -35,8 +35,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions
 from balancer.domain.systems import get_system
-from balancer.optimize.heuristics import greedy_lines, karmarkar_karp_lines, pattern_spread_va
 from balancer.optimize.model import build_layout, build_model
+from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
+from balancer.optimize.search.lines import pattern_spread_va
 from balancer.optimize.solve import solve_goal
 
 HERE = Path(__file__).resolve().parent

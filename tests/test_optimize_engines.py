@@ -13,7 +13,7 @@ from balancer.domain.result import BalanceOptions, SolveStatus
 from balancer.domain.systems import get_system
 from balancer.optimize import balance
 from balancer.optimize.goals import POLYGON_ERROR, POLYGON_SIDES
-from balancer.optimize.heuristics import greedy_partition, karmarkar_karp
+from balancer.optimize.search.baselines import greedy_partition, karmarkar_karp
 from balancer.optimize.solve import cbc_available
 
 ATOL_VA = 1e-6
@@ -189,13 +189,12 @@ def test_combinatorial_bound_largest_load_and_granularity() -> None:
 def test_panel_heuristics_respect_capacity_and_goal() -> None:
     from balancer.optimize.heuristics import (
         fewer_changes_lines,
-        greedy_lines,
-        karmarkar_karp_lines,
         local_search_lines,
-        pattern_spread_va,
         present_lines,
     )
     from balancer.optimize.model import build_layout
+    from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
+    from balancer.optimize.search.lines import pattern_spread_va
 
     rng = random.Random(12)
     system = get_system("208Y/120")

@@ -20,8 +20,9 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions, SolveStatus
 from balancer.domain.systems import get_system
 from balancer.optimize import balance
-from balancer.optimize.heuristics import fewest_changes_lines, pattern_spread_va
+from balancer.optimize.heuristics import fewest_changes_lines
 from balancer.optimize.model import build_layout
+from balancer.optimize.search.lines import pattern_spread_va
 
 TOL_VA = 0.1  # below the 0.5 VA grid of whole-VA loads over two poles: the spread is exact
 ATOL_VA = 1e-6

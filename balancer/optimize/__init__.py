@@ -27,10 +27,7 @@ from balancer.optimize.heuristics import (
     LOCAL_STEPS,
     fewer_changes_lines,
     fewest_changes_lines,
-    greedy_lines,
-    karmarkar_karp_lines,
     local_search_lines,
-    pattern_spread_va,
     present_lines,
     split_search_lines,
 )
@@ -45,6 +42,8 @@ from balancer.optimize.model import (
     realise,
     spread_lower_bound,
 )
+from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
+from balancer.optimize.search.lines import pattern_spread_va
 from balancer.optimize.solve import StageResult, cap, evaluate, solve_goal
 from balancer.optimize.verify import verify
 from balancer.physics.analysis import analyze

@@ -15,7 +15,6 @@ schedule as it stands in the same way, for the fewest moves within a spread cap 
 from __future__ import annotations
 
 import functools
-import heapq
 import itertools
 import math
 import random
@@ -25,165 +24,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from balancer.optimize.model import Layout, contribution
-
-
-def greedy_partition(values: Sequence[float], ways: int) -> list[list[float]]:
-    """Largest value first onto the lightest subset."""
-    subsets: list[list[float]] = [[] for _ in range(ways)]
-    sums = [0.0] * ways
-    for value in sorted(values, reverse=True):
-        j = min(range(ways), key=lambda i: (sums[i], i))
-        subsets[j].append(value)
-        sums[j] += value
-    return subsets
-
-
-def karmarkar_karp(values: Sequence[float], ways: int) -> list[list[float]]:
-    """Differencing: repeatedly merge the two partial partitions of largest spread."""
-    counter = itertools.count()
-    heap: list[tuple[float, int, list[tuple[float, list[float]]]]] = []
-    for value in values:
-        part = [(value, [value])] + [(0.0, []) for _ in range(ways - 1)]
-        heapq.heappush(heap, (-value, next(counter), part))
-    if not heap:
-        return [[] for _ in range(ways)]
-    while len(heap) > 1:
-        _, _, first = heapq.heappop(heap)
-        _, _, second = heapq.heappop(heap)
-        first.sort(key=lambda s: -s[0])
-        second.sort(key=lambda s: s[0])
-        merged = [(a[0] + b[0], a[1] + b[1]) for a, b in zip(first, second, strict=True)]
-        sums = [m[0] for m in merged]
-        heapq.heappush(heap, (-(max(sums) - min(sums)), next(counter), merged))
-    return [subset for _, subset in heap[0][2]]
-
-
-def greedy_lines(layout: Layout) -> list[int] | None:
-    """Line-pattern index per unit: heaviest unit first, onto the pattern leaving the least spread.
-
-    Returns None when the free spaces per line run out before every unit is placed.
-    """
-    panel = layout.panel
-    lines = panel.lines
-    geometry = panel.geometry
-    room = {
-        line: sum(1 for s in layout.free_spaces if geometry.line_of(s) == line) for line in lines
-    }
-    fixed = contribution(
-        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
-    )
-    load = dict(fixed.phase_va)
-    picks = [-1] * len(layout.units)
-    order = sorted(
-        range(len(layout.units)),
-        key=lambda u: (-sum(panel.circuits[i].load_va for i in layout.units[u].members), u),
-    )
-    for u in order:
-        unit = layout.units[u]
-        best: tuple[float, float, int] | None = None
-        for k, option in enumerate(unit.patterns()):
-            use = {line: sum(m.count(line) for m in option.lines) for line in lines}
-            if any(use[line] > room[line] for line in lines):
-                continue
-            share = contribution(panel, unit.members, option.lines).phase_va
-            after = [load[line] + share[line] for line in lines]
-            score = (max(after) - min(after), max(after), k)
-            if best is None or score < best:
-                best = score
-        if best is None:
-            return None
-        k = best[2]
-        option = unit.patterns()[k]
-        for line in lines:
-            room[line] -= sum(m.count(line) for m in option.lines)
-        for line, va in contribution(panel, unit.members, option.lines).phase_va.items():
-            load[line] += va
-        picks[u] = k
-    return picks
-
-
-def karmarkar_karp_lines(layout: Layout, rng: random.Random | None = None) -> list[int] | None:
-    """Line-pattern index per unit by vector differencing; None when the result breaks a rule.
-
-    Each unit is a vector of its per-line VA in its first pattern; merging permutes whole
-    subsets, which maps every unit onto another legal pattern except where a high leg or the
-    space count per line forbids it, which is then reported as None.
-    """
-    panel = layout.panel
-    lines = panel.lines
-    ways = len(lines)
-    counter = itertools.count()
-    Bin = tuple[float, list[tuple[int, int]]]  # (VA, [(unit or -1 for fixed, position)])
-    heap: list[tuple[float, int, list[Bin]]] = []
-
-    def push(vector: list[float], owner: int) -> None:
-        part: list[Bin] = [(vector[j], [(owner, j)]) for j in range(ways)]
-        heapq.heappush(heap, (-(max(vector) - min(vector)), next(counter), part))
-
-    fixed = contribution(
-        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
-    )
-    push([fixed.phase_va[line] for line in lines], -1)
-    reference = [unit.patterns()[0] for unit in layout.units]
-    for u, unit in enumerate(layout.units):
-        share = contribution(panel, unit.members, reference[u].lines).phase_va
-        # With ``rng``, slightly disturbed loads give another near-balanced split (a restart).
-        scale = 1.0 + (rng.uniform(-0.02, 0.02) if rng else 0.0)
-        push([share[line] * scale for line in lines], u)
-    while len(heap) > 1:
-        _, _, first = heapq.heappop(heap)
-        _, _, second = heapq.heappop(heap)
-        first.sort(key=lambda b: -b[0])
-        second.sort(key=lambda b: b[0])
-        merged: list[Bin] = [(a[0] + b[0], a[1] + b[1]) for a, b in zip(first, second, strict=True)]
-        sums = [m[0] for m in merged]
-        heapq.heappush(heap, (-(max(sums) - min(sums)), next(counter), merged))
-    bins = heap[0][2]
-    # Name the subsets so the fixed loads stay on their own lines.
-    line_of_bin = {}
-    for b, (_, owners) in enumerate(bins):
-        for owner, position in owners:
-            if owner == -1:
-                line_of_bin[b] = lines[position]
-    moved_to: dict[tuple[int, int], str] = {}
-    for b, (_, owners) in enumerate(bins):
-        for owner, position in owners:
-            moved_to[owner, position] = line_of_bin[b]
-    picks: list[int] = []
-    for u, unit in enumerate(layout.units):
-        mapping = {lines[j]: moved_to[u, j] for j in range(ways)}
-        wanted = tuple(tuple(sorted(mapping[x] for x in m)) for m in reference[u].lines)
-        found = [k for k, o in enumerate(unit.patterns()) if o.pattern == wanted]
-        if not found:
-            return None
-        picks.append(found[0])
-    room = {
-        line: sum(1 for s in layout.free_spaces if panel.geometry.line_of(s) == line)
-        for line in lines
-    }
-    for u, unit in enumerate(layout.units):
-        for member in unit.patterns()[picks[u]].lines:
-            for line in member:
-                room[line] -= 1
-    if any(v < 0 for v in room.values()):
-        return None
-    return picks
-
-
-def pattern_spread_va(layout: Layout, picks: Sequence[int]) -> float:
-    """Spread of the phase VA for a line-pattern choice per unit."""
-    panel = layout.panel
-    fixed = contribution(
-        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
-    )
-    load = dict(fixed.phase_va)
-    for u, unit in enumerate(layout.units):
-        option = unit.patterns()[picks[u]]
-        for line, va in contribution(panel, unit.members, option.lines).phase_va.items():
-            load[line] += va
-    return max(load.values()) - min(load.values())
-
+from balancer.optimize.model import Layout
+from balancer.optimize.search.baselines import greedy_lines
+from balancer.optimize.search.lines import LineState, pattern_spread_va
 
 # Work budgets, so that a panel gets the same answer on every run and every machine; the time
 # budgets the callers pass are only a safety net for a slow machine.
@@ -191,178 +34,6 @@ LOCAL_STEPS = 25  # improving steps (or shakes) of the local search
 UNDO_STEPS = 150  # handfuls re-decided while undoing needless changes
 PATIENCE = 5  # shakes per unit without a better answer before the search gives up
 UNDO_TRIES = 400  # fruitless handfuls before undoing changes stops (each finds one ~1 in 50)
-
-
-class _LineState:
-    """Phase sums and free spaces per line for a choice of line pattern per unit."""
-
-    def __init__(self, layout: Layout, picks: Sequence[int]) -> None:
-        panel = layout.panel
-        lines = panel.lines
-        self.patterns = [unit.patterns() for unit in layout.units]
-        self.share = [
-            [
-                tuple(contribution(panel, unit.members, o.lines).phase_va[x] for x in lines)
-                for o in opts
-            ]
-            for unit, opts in zip(layout.units, self.patterns, strict=True)
-        ]
-        self.use = [
-            [tuple(sum(m.count(x) for m in o.lines) for x in lines) for o in opts]
-            for opts in self.patterns
-        ]
-        fixed = contribution(
-            panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
-        )
-        self.load = [fixed.phase_va[x] for x in lines]
-        self.room = [
-            sum(1 for s in layout.free_spaces if panel.geometry.line_of(s) == x) for x in lines
-        ]
-        self.picks = list(picks)
-        for u, k in enumerate(self.picks):
-            for j in range(len(lines)):
-                self.load[j] += self.share[u][k][j]
-                self.room[j] -= self.use[u][k][j]
-
-    def score(self, load: Sequence[float]) -> tuple[float, float]:
-        mean = sum(load) / len(load)
-        return max(load) - min(load), sum((v - mean) ** 2 for v in load)
-
-    def trial(self, changes: Sequence[tuple[int, int]]) -> list[float] | None:
-        """Phase sums after the changes (unit, new pattern), or None when a line runs out."""
-        load = list(self.load)
-        room = list(self.room)
-        for u, k in changes:
-            old = self.picks[u]
-            for j in range(len(load)):
-                load[j] += self.share[u][k][j] - self.share[u][old][j]
-                room[j] += self.use[u][old][j] - self.use[u][k][j]
-        return None if min(room) < 0 else load
-
-    def apply(self, changes: Sequence[tuple[int, int]]) -> None:
-        for u, k in changes:
-            old = self.picks[u]
-            for j in range(len(self.load)):
-                self.load[j] += self.share[u][k][j] - self.share[u][old][j]
-                self.room[j] += self.use[u][old][j] - self.use[u][k][j]
-            self.picks[u] = k
-
-    def best_change(self) -> list[tuple[int, int]] | None:
-        """The single change, else the pair of changes, that lowers (spread, squared deviation)
-        most while every line keeps room; None at a local optimum."""
-        moves = [
-            (u, k)
-            for u in range(len(self.picks))
-            for k in range(len(self.patterns[u]))
-            if k != self.picks[u]
-        ]
-        if not moves:
-            return None
-        owner = np.array([u for u, _ in moves])
-        delta = np.array(
-            [np.subtract(self.share[u][k], self.share[u][self.picks[u]]) for u, k in moves]
-        )
-        need = np.array([np.subtract(self.use[u][k], self.use[u][self.picks[u]]) for u, k in moves])
-        load = np.asarray(self.load)
-        room = np.asarray(self.room)
-        here = self.score(self.load)
-        single = load + delta
-        ok: np.ndarray = np.asarray((need <= room).all(axis=1))
-        found = _pick(single, ok, here)
-        if found is not None:
-            return [moves[found]]
-        pair = load + delta[:, None, :] + delta[None, :, :]
-        ok2 = ((need[:, None, :] + need[None, :, :]) <= room).all(axis=2)
-        ok2 &= owner[:, None] < owner[None, :]
-        found = _pick(pair.reshape(-1, load.size), ok2.reshape(-1), here)
-        if found is None:
-            return None
-        i, j = divmod(found, len(moves))
-        return [moves[i], moves[j]]
-
-    def _joint(
-        self, units: Sequence[int], home: Sequence[int] | None = None
-    ) -> tuple[list[int], np.ndarray, np.ndarray, np.ndarray] | None:
-        """Every joint choice for the first ``units`` (up to REOPT_COMBINATIONS), the others
-        held: (units chosen, line loads per combination, fits-the-room flags, patterns
-        differing from ``home`` per combination); None when no unit has a choice."""
-        chosen: list[int] = []
-        size = 1
-        for u in units:
-            count = len(self.patterns[u])
-            if count > 1 and size * count <= REOPT_COMBINATIONS:
-                chosen.append(u)
-                size *= count
-        if not chosen:
-            return None
-        n = len(self.load)
-        base = np.asarray(self.load, dtype=float)
-        room = np.asarray(self.room, dtype=float)
-        for u in chosen:
-            base -= self.share[u][self.picks[u]]
-            room += self.use[u][self.picks[u]]
-        loads = base[None, :]
-        used = np.zeros((1, n))
-        changed = np.zeros(1)
-        for u in chosen:
-            loads = (loads[:, None, :] + np.asarray(self.share[u])[None, :, :]).reshape(-1, n)
-            used = (used[:, None, :] + np.asarray(self.use[u])[None, :, :]).reshape(-1, n)
-            if home is not None:
-                away = np.array([k != home[u] for k in range(len(self.patterns[u]))], dtype=float)
-                changed = (changed[:, None] + away[None, :]).reshape(-1)
-        ok: np.ndarray = np.asarray((used <= room).all(axis=1))
-        return chosen, loads, ok, changed
-
-    def _apply_index(self, chosen: list[int], index: int) -> None:
-        ks = np.unravel_index(index, [len(self.patterns[u]) for u in chosen])
-        self.apply([(u, int(k)) for u, k in zip(chosen, ks, strict=True)])
-
-    def reopt(self, order: Sequence[int]) -> bool:
-        """Best joint choice for the first units of ``order`` (up to REOPT_COMBINATIONS
-        combinations), the others held; True when it improved the score."""
-        joint = self._joint(order)
-        if joint is None:
-            return False
-        chosen, loads, ok, _ = joint
-        found = _pick(loads, ok, self.score(self.load))
-        if found is None:
-            return False
-        self._apply_index(chosen, found)
-        return True
-
-    def fewer_changes(self, units: Sequence[int], home: Sequence[int], goal_va: float) -> bool:
-        """Re-decide ``units`` jointly for the fewest patterns differing from ``home`` while the
-        spread stays within ``goal_va``; True when that count went down."""
-        joint = self._joint(units, home)
-        if joint is None:
-            return False
-        chosen, loads, ok, changed = joint
-        ok = ok & (loads.max(axis=1) - loads.min(axis=1) <= goal_va)
-        if not ok.any():
-            return False
-        now = sum(1 for u in chosen if self.picks[u] != home[u])
-        best = int(np.argmin(np.where(ok, changed, np.inf)))
-        if changed[best] >= now:
-            return False
-        self._apply_index(chosen, best)
-        return True
-
-
-REOPT_COMBINATIONS = 60_000  # joint choices tried at once by one re-decision (3^10 ≈ 59 000)
-
-
-def _pick(loads: np.ndarray, ok: np.ndarray, here: tuple[float, float]) -> int | None:
-    """Index of the row with the lowest (spread, squared deviation) below ``here``."""
-    if not ok.any():
-        return None
-    spread = loads.max(axis=1) - loads.min(axis=1)
-    deviation = ((loads - loads.mean(axis=1, keepdims=True)) ** 2).sum(axis=1)
-    spread = np.where(ok, spread, np.inf)
-    order = np.lexsort((deviation, spread))
-    best = int(order[0])
-    if not ok[best] or (spread[best], deviation[best]) >= here:
-        return None
-    return best
 
 
 def local_search_lines(
@@ -379,7 +50,7 @@ def local_search_lines(
     the answer stays close to it (few breakers moved). With ``restarts`` a local optimum is
     shaken by a few random changes (seeded, so runs repeat) and the search goes on.
     """
-    state = _LineState(layout, picks)
+    state = LineState(layout, picks)
     best = (state.score(state.load), list(state.picks))
     rng = random.Random(0)
     stop = time.perf_counter() + budget_s
@@ -423,7 +94,7 @@ def present_lines(layout: Layout) -> list[int] | None:
             current = tuple(tuple(sorted(panel.lines_of(panel.circuits[i]))) for i in unit.members)
             if current not in {o.pattern for o in unit.patterns()}:
                 picks[u] = greedy[u]
-    state = _LineState(layout, picks)
+    state = LineState(layout, picks)
     return picks if min(state.room) >= 0 else None
 
 
@@ -440,7 +111,7 @@ def fewer_changes_lines(
     Random handfuls of changed units, with one unchanged unit, are re-decided jointly for the
     fewest changes; the spread never leaves ``goal_va``. Seeded, so runs repeat.
     """
-    state = _LineState(layout, picks)
+    state = LineState(layout, picks)
     rng = random.Random(1)
     stop = time.perf_counter() + budget_s
     stale = 0
@@ -496,7 +167,7 @@ class _Half:
     use: np.ndarray  # (choices, lines) spaces
 
 
-def _kinds(state: _LineState, units: Sequence[int]) -> list[list[int]]:
+def _kinds(state: LineState, units: Sequence[int]) -> list[list[int]]:
     """Units grouped when their patterns add the same VA and use the same lines (in order)."""
     groups: dict[object, list[int]] = {}
     for u in units:
@@ -504,12 +175,12 @@ def _kinds(state: _LineState, units: Sequence[int]) -> list[list[int]]:
     return list(groups.values())
 
 
-def _split_count(state: _LineState, kind: Sequence[int]) -> int:
+def _split_count(state: LineState, kind: Sequence[int]) -> int:
     patterns = len(state.patterns[kind[0]])
     return math.comb(len(kind) + patterns - 1, len(kind))
 
 
-def _kind_splits(state: _LineState, kind: Sequence[int]) -> tuple[np.ndarray, np.ndarray]:
+def _kind_splits(state: LineState, kind: Sequence[int]) -> tuple[np.ndarray, np.ndarray]:
     """Pattern per unit (rows: every way to share the kind out) and the counts per pattern."""
     patterns = len(state.patterns[kind[0]])
     assign = np.array(
@@ -519,7 +190,7 @@ def _kind_splits(state: _LineState, kind: Sequence[int]) -> tuple[np.ndarray, np
     return assign, counts
 
 
-def _half(state: _LineState, kinds: list[list[int]]) -> _Half:
+def _half(state: LineState, kinds: list[list[int]]) -> _Half:
     n = len(state.load)
     load = np.zeros((1, n))
     use = np.zeros((1, n))
@@ -534,7 +205,7 @@ def _half(state: _LineState, kinds: list[list[int]]) -> _Half:
     return _Half(kinds, sizes, load, use)
 
 
-def _decode(state: _LineState, half: _Half, row: int) -> list[tuple[int, int]]:
+def _decode(state: LineState, half: _Half, row: int) -> list[tuple[int, int]]:
     """(unit, pattern) changes for one row of a half."""
     if not half.kinds:
         return []
@@ -617,7 +288,7 @@ def _best_pair(
     return best[2], best[3], best[0], best[1]
 
 
-def _two_halves(state: _LineState, kinds: list[list[int]]) -> tuple[list[list[int]], ...]:
+def _two_halves(state: LineState, kinds: list[list[int]]) -> tuple[list[list[int]], ...]:
     """Kinds shared out so the two products of split counts are about equal (largest first)."""
     halves: tuple[list[list[int]], list[list[int]]] = ([], [])
     products = [1, 1]
@@ -631,7 +302,7 @@ def _two_halves(state: _LineState, kinds: list[list[int]]) -> tuple[list[list[in
 class _Pairing:
     """Two halves of some units enumerated once, the other units held where they are."""
 
-    def __init__(self, state: _LineState, units: Sequence[int], halves: Sequence[list[list[int]]]):
+    def __init__(self, state: LineState, units: Sequence[int], halves: Sequence[list[list[int]]]):
         self.state = state
         base = np.asarray(state.load, dtype=float)
         room = np.asarray(state.room, dtype=float)
@@ -654,7 +325,7 @@ class _Pairing:
         self.state.apply(_decode(self.state, self.first, ia) + _decode(self.state, self.second, ib))
 
 
-def _exact_halves(state: _LineState, half_limit: int) -> tuple[list[list[int]], ...] | None:
+def _exact_halves(state: LineState, half_limit: int) -> tuple[list[list[int]], ...] | None:
     """Every movable unit in two halves of at most ``half_limit`` choices each, or None."""
     movable = [u for u in range(len(state.picks)) if len(state.patterns[u]) > 1]
     halves = _two_halves(state, _kinds(state, movable))
@@ -663,7 +334,7 @@ def _exact_halves(state: _LineState, half_limit: int) -> tuple[list[list[int]], 
     return halves
 
 
-def _exhaustive(state: _LineState, halves: Sequence[list[list[int]]], first_radius: float) -> bool:
+def _exhaustive(state: LineState, halves: Sequence[list[list[int]]], first_radius: float) -> bool:
     """Apply the least spread over every line assignment to ``state``; False (``state``
     unchanged) when the widest window would hold too many pairs.
 
@@ -711,7 +382,7 @@ def split_search_lines(
     The steps are seeded, so a panel gives the same answer each run unless the time budget
     stops the search first.
     """
-    state = _LineState(layout, picks)
+    state = LineState(layout, picks)
     if min(state.room) < 0:
         raise ValueError("the starting line choice needs more spaces than a line has")
     begin = time.perf_counter()
@@ -982,7 +653,7 @@ def fewest_changes_lines(layout: Layout, cap_va: float, budget_s: float) -> Fewe
         elif len(stay) != 1:
             return None  # moves not counted per changed unit
         home.append(stay[0] if stay else 0)
-    state = _LineState(layout, home)
+    state = LineState(layout, home)
     unplaced = set(free)
     changes = [
         (u, k)
@@ -1046,7 +717,7 @@ def fewest_changes_lines(layout: Layout, cap_va: float, budget_s: float) -> Fewe
     return FewestChanges(None, None, units + 1)  # no line assignment reaches the cap
 
 
-def _free_choices(state: _LineState, free: Sequence[int], offset: int) -> _ChangeSets | None:
+def _free_choices(state: LineState, free: Sequence[int], offset: int) -> _ChangeSets | None:
     """Every joint choice of lines for the unplaced units (indices into the change list from
     ``offset``), with the VA and spaces they add; None beyond FEWEST_FREE_CHOICES."""
     sets = _ChangeSets.empty(len(state.load))
