@@ -187,14 +187,14 @@ def test_combinatorial_bound_largest_load_and_granularity() -> None:
 
 
 def test_panel_heuristics_respect_capacity_and_goal() -> None:
-    from balancer.optimize.heuristics import (
+    from balancer.optimize.model import build_layout
+    from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
+    from balancer.optimize.search.lines import pattern_spread_va
+    from balancer.optimize.search.local import (
         fewer_changes_lines,
         local_search_lines,
         present_lines,
     )
-    from balancer.optimize.model import build_layout
-    from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
-    from balancer.optimize.search.lines import pattern_spread_va
 
     rng = random.Random(12)
     system = get_system("208Y/120")

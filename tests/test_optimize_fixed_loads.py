@@ -23,10 +23,10 @@ from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.domain.systems import get_system
 from balancer.errors import InfeasibleError
 from balancer.optimize import balance
-from balancer.optimize.heuristics import split_search_lines
 from balancer.optimize.model import build_layout, build_model, spread_lower_bound
 from balancer.optimize.search.baselines import greedy_lines
 from balancer.optimize.search.lines import pattern_spread_va
+from balancer.optimize.search.split import split_search_lines
 from balancer.optimize.verify import problems
 from balancer.physics.analysis import analyze
 

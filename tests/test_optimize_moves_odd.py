@@ -20,8 +20,8 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions, SolveStatus
 from balancer.domain.systems import get_system
 from balancer.optimize import balance
-from balancer.optimize.heuristics import fewest_changes_lines
 from balancer.optimize.model import build_layout
+from balancer.optimize.search.fewest import fewest_changes_lines
 from balancer.optimize.search.lines import pattern_spread_va
 
 TOL_VA = 0.1  # below the 0.5 VA grid of whole-VA loads over two poles: the spread is exact
@@ -382,9 +382,9 @@ def test_bound_stays_valid_when_the_search_stops_early(
     pair_limit: int, monkeypatch: pytest.MonkeyPatch
 ) -> None:
     # a tiny pair limit stops the search part-way: what it then claims must still hold
-    from balancer.optimize import heuristics
+    from balancer.optimize.search import fewest
 
-    monkeypatch.setattr(heuristics, "FEWEST_PAIR_LIMIT", pair_limit)
+    monkeypatch.setattr(fewest, "FEWEST_PAIR_LIMIT", pair_limit)
     for seed in (0, 4, 6, 7):
         panel = placed_in_order(24, seed)
         layout = build_layout(panel, BalanceOptions())

@@ -23,14 +23,6 @@ from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, BalanceResult, Move, SolveStatus
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.goals import MOVES_GAP, goal_for
-from balancer.optimize.heuristics import (
-    LOCAL_STEPS,
-    fewer_changes_lines,
-    fewest_changes_lines,
-    local_search_lines,
-    present_lines,
-    split_search_lines,
-)
 from balancer.optimize.model import (
     Layout,
     Model,
@@ -43,7 +35,15 @@ from balancer.optimize.model import (
     spread_lower_bound,
 )
 from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
+from balancer.optimize.search.fewest import fewest_changes_lines
 from balancer.optimize.search.lines import pattern_spread_va
+from balancer.optimize.search.local import (
+    LOCAL_STEPS,
+    fewer_changes_lines,
+    local_search_lines,
+    present_lines,
+)
+from balancer.optimize.search.split import split_search_lines
 from balancer.optimize.solve import StageResult, cap, evaluate, solve_goal
 from balancer.optimize.verify import verify
 from balancer.physics.analysis import analyze
