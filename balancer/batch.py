@@ -1,22 +1,21 @@
 """Many schedules at once: ``check`` or ``balance`` over folders and file lists, in parallel.
 
-Each file is handled in its own worker process (the optimiser is CPU-bound); a file that fails
-is reported with its error and the rest carry on. The summary is printed as a table and written
-as a workbook (atomically).
+Each file goes through the same pipeline as a single schedule (:mod:`balancer.api`), in its own
+worker process (the optimiser is CPU-bound); a file that fails is reported with its error and
+the rest carry on. The summary is a table and a workbook (written atomically).
 """
 
 from __future__ import annotations
 
-import argparse
-import json
 import os
-import sys
 import time
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Literal, TextIO
+from typing import TYPE_CHECKING, Any, Literal
 
+from balancer import api
+from balancer.api import FieldChoices
 from balancer.domain.result import BalanceOptions
 from balancer.errors import BalancerError
 from balancer.io.reader import PanelOverrides
@@ -24,8 +23,7 @@ from balancer.io.reader import PanelOverrides
 if TYPE_CHECKING:
     from concurrent.futures import Future
 
-    from balancer.code.demand import DemandOptions
-    from balancer.domain.panel import Panel
+    from balancer.code.demand import DemandOptions, DemandResult
 
 Mode = Literal["check", "balance"]
 SCHEDULE_SUFFIXES = (".xlsx", ".xlsm", ".csv")
@@ -44,6 +42,7 @@ class Task:
     overrides: PanelOverrides
     output: Path | None = None  # revised workbook (balance mode)
     demand: DemandOptions | None = None  # demand load and feeder check of the (revised) panel
+    choices: FieldChoices = field(default_factory=FieldChoices)  # basis, trade-off, pick
 
 
 @dataclass(frozen=True, slots=True)
@@ -101,57 +100,42 @@ def find_schedules(paths: Iterable[Path]) -> list[Path]:
 
 
 def run_task(task: Task) -> Row:
-    """Read, then check or balance, one file; every failure becomes a row, never an exception."""
-    from balancer.io.reader import read_schedule
-    from balancer.physics.analysis import analyze
-
+    """Read, then check or balance, one file through the pipeline (:mod:`balancer.api`); every
+    failure becomes a row, never an exception."""
     start = time.perf_counter()
     name = str(task.path)
     try:
-        panel = read_schedule(task.path, task.overrides)
         if task.mode == "check":
-            loads = analyze(panel)
+            checked = api.run_check(task.path, task.overrides, task.choices.basis, task.demand)
             return replace(
                 Row(
                     name,
-                    panel.name,
+                    checked.panel.name,
                     "checked",
-                    imbalance_before_pct=loads.imbalance_pct,
-                    spread_before_va=loads.spread_va,
+                    imbalance_before_pct=checked.loads.imbalance_pct,
+                    spread_before_va=checked.loads.spread_va,
                 ),
-                **_demand_fields(panel, task.demand),
+                **_demand_fields(checked.demand),
                 seconds=time.perf_counter() - start,
             )
-        from balancer.io.writer import write_workbook
-        from balancer.optimize import balance
-
-        result = balance(panel, task.options)
-        output = task.output or task.path.with_name(f"{task.path.stem}{OUTPUT_SUFFIX}.xlsx")
-        if output.resolve() == task.path.resolve():
-            from balancer.errors import Problem, ScheduleError
-
-            raise ScheduleError(
-                Problem(str(output), "is the input; balancer never writes its input")
-            )
-        demand = None
-        if task.demand is not None:
-            from balancer.code.demand import compute_demand
-
-            demand = compute_demand(result.after_panel, task.demand)
-        written = write_workbook(result, output, demand=demand)
+        output = task.output or api.default_output(task.path, OUTPUT_SUFFIX)
+        api.refuse_inputs([output], [task.path])
+        report = api.run_balance(task.path, task.options, task.overrides, task.choices, task.demand)
+        report = api.write_balance(report, output, schedule=task.path)
+        result = report.result
         return replace(
             Row(
                 name,
-                panel.name,
+                result.after_panel.name,
                 result.status.value,
                 imbalance_before_pct=result.before.imbalance_pct,
                 imbalance_after_pct=result.after.imbalance_pct,
                 spread_before_va=result.before.spread_va,
                 spread_after_va=result.after.spread_va,
                 moves=len(result.moves),
-                output=str(written),
+                output=str(report.written[0]),
             ),
-            **_demand_fields(result.after_panel, task.demand, demand),
+            **_demand_fields(report.demand),
             seconds=time.perf_counter() - start,
         )
     except BalancerError as exc:
@@ -172,15 +156,10 @@ def run_task(task: Task) -> Row:
         )
 
 
-def _demand_fields(
-    panel: Panel, options: DemandOptions | None, known: Any = None
-) -> dict[str, Any]:
-    """The summary's demand and feeder figures for ``panel`` (none without ``options``)."""
-    if options is None:
+def _demand_fields(demand: DemandResult | None) -> dict[str, Any]:
+    """The summary's demand and feeder figures (none when no demand was computed)."""
+    if demand is None:
         return {}
-    from balancer.code.demand import compute_demand
-
-    demand = known if known is not None else compute_demand(panel, options)
     feeder = demand.feeder
     return {
         "demand_va": demand.total_demand_va,
@@ -191,45 +170,24 @@ def _demand_fields(
     }
 
 
-class Progress:
-    """A one-line progress bar on a terminal; silent when the stream is not a terminal."""
-
-    def __init__(self, total: int, stream: TextIO | None = None, width: int = 30) -> None:
-        self.total = total
-        self.stream = stream or sys.stderr
-        self.width = width
-        self.done = 0
-        self.enabled = total > 1 and self.stream.isatty()
-
-    def step(self, label: str = "") -> None:
-        self.done += 1
-        if not self.enabled:
-            return
-        filled = round(self.width * self.done / self.total)
-        bar = "#" * filled + "." * (self.width - filled)
-        self.stream.write(f"\r[{bar}] {self.done}/{self.total} {label[-40:]:<40}")
-        if self.done == self.total:
-            self.stream.write("\n")
-        self.stream.flush()
-
-
 def run_batch(
     tasks: Sequence[Task],
     jobs: int | None = None,
-    progress: Progress | None = None,
+    on_done: Callable[[str], object] | None = None,
     runner: Callable[[Task], Row] = run_task,
 ) -> list[Row]:
     """Run every task, ``jobs`` worker processes at a time (default: one per core).
 
-    Rows come back in the order of ``tasks``. With one job (or one task) nothing is spawned.
+    Rows come back in the order of ``tasks``; ``on_done`` is told each file's name as it is
+    done. With one job (or one task) nothing is spawned.
     """
-    progress = progress or Progress(len(tasks))
+    step = on_done or (lambda name: None)
     workers = max(1, min(jobs or os.cpu_count() or 1, len(tasks)))
     rows: list[Row | None] = [None] * len(tasks)
     if workers == 1:
         for i, task in enumerate(tasks):
             rows[i] = runner(task)
-            progress.step(task.path.name)
+            step(task.path.name)
         return [r for r in rows if r is not None]
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
@@ -248,7 +206,7 @@ def run_batch(
                         error=f"the worker handling this file stopped: {exc}",
                         exit_status=UNEXPECTED_EXIT,
                     )
-                progress.step(tasks[i].path.name)
+                step(tasks[i].path.name)
     return [r for r in rows if r is not None]
 
 
@@ -366,6 +324,7 @@ def make_tasks(
     overrides: PanelOverrides,
     output_dir: Path | None = None,
     demand: DemandOptions | None = None,
+    choices: FieldChoices | None = None,
 ) -> list[Task]:
     """One task per schedule found; revised workbooks go to ``output_dir`` when given."""
     # a name override would give every panel the same name; the rest apply to all files alike
@@ -375,67 +334,7 @@ def make_tasks(
         output = None
         if output_dir is not None:
             output = output_dir / f"{path.stem}{OUTPUT_SUFFIX}.xlsx"
-        tasks.append(Task(path, mode, options, overrides, output, demand))
+        tasks.append(
+            Task(path, mode, options, overrides, output, demand, choices or FieldChoices())
+        )
     return tasks
-
-
-def command(
-    paths: Sequence[Path],
-    mode: Mode,
-    options: BalanceOptions,
-    overrides: PanelOverrides,
-    jobs: int | None = None,
-    summary: Path | None = None,
-    output_dir: Path | None = None,
-    json_output: bool = False,
-    demand: DemandOptions | None = None,
-) -> int:
-    """``balancer check|balance`` over many files: run, print the summary, write the workbook."""
-    from balancer.errors import Problem, ScheduleError
-
-    if jobs is not None and jobs < 1:
-        raise ScheduleError(Problem("--jobs", f"{jobs} must be 1 or more"))
-    if output_dir is not None:
-        output_dir.mkdir(parents=True, exist_ok=True)
-    tasks = make_tasks(paths, mode, options, overrides, output_dir, demand)
-    if not tasks:
-        raise ScheduleError(
-            Problem(", ".join(str(p) for p in paths), "no .xlsx or .csv schedules found")
-        )
-    inputs = {t.path.resolve() for t in tasks}
-    summary = summary or Path.cwd() / SUMMARY_NAME
-    if summary.resolve() in inputs:
-        raise ScheduleError(
-            Problem("--summary", f"{summary} is one of the inputs; balancer never writes its input")
-        )
-    rows = run_batch(tasks, jobs)
-    written = write_summary(summary, rows, mode)
-    if json_output:
-        files = [{k: getattr(r, k) for k in Row.__dataclass_fields__} for r in rows]
-        print(json.dumps({"files": files, "summary_workbook": str(written)}, indent=2))
-    else:
-        print(summary_text(rows, mode))
-        print(f"\nSummary workbook: {written}")
-    return exit_status(rows)
-
-
-def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Arguments that turn ``check``/``balance`` into a batch over many files."""
-    group = parser.add_argument_group("many files (a folder, or more than one schedule)")
-    group.add_argument(
-        "more", nargs="*", type=Path, metavar="SCHEDULE", help="further schedules or folders"
-    )
-    group.add_argument(
-        "--jobs", type=int, metavar="N", help="files handled at once (default: one per core)"
-    )
-    group.add_argument(
-        "--summary",
-        type=Path,
-        metavar="XLSX",
-        help=f"summary workbook to write (default: ./{SUMMARY_NAME})",
-    )
-
-
-def wanted(args: argparse.Namespace) -> bool:
-    """Whether the command line names more than one file or a folder."""
-    return bool(args.more) or Path(args.schedule).is_dir()

@@ -97,7 +97,7 @@ def test_output_naming_the_input_is_refused(
     book.save(path)
     before = _digest(path)
     assert main(["balance", str(path), "-o", str(path)]) == 2
-    assert "never overwrites its input" in capsys.readouterr().err
+    assert "never writes its input" in capsys.readouterr().err
     assert _digest(path) == before
 
 

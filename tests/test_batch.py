@@ -14,7 +14,6 @@ from openpyxl import load_workbook
 
 from balancer.batch import (
     SUMMARY_NAME,
-    Progress,
     Row,
     Task,
     exit_status,
@@ -24,6 +23,7 @@ from balancer.batch import (
     summary_text,
     write_summary,
 )
+from balancer.cli.batch import Progress
 from balancer.domain.result import BalanceOptions
 from balancer.io.reader import PanelOverrides
 

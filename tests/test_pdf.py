@@ -14,6 +14,7 @@ from writer_demo import demo_panel, demo_result
 
 from balancer.domain.panel import Circuit
 from balancer.errors import BalancerError
+from balancer.field.workorder import work_order_for
 from balancer.io.pdf import PAPER_IN, write_pdf
 from balancer.physics.analysis import analyze
 
@@ -30,7 +31,13 @@ def _flat(text: str) -> str:
 
 def test_balance_pdf_pages_and_contents(tmp_path: Path) -> None:
     result = demo_result()
-    out = write_pdf(tmp_path / "lp1.pdf", result.after_panel, result.after, result=result)
+    out = write_pdf(
+        tmp_path / "lp1.pdf",
+        result.after_panel,
+        result.after,
+        result=result,
+        order=work_order_for(result),
+    )
     pages = _text(out)
     assert len(pages) == 3  # summary, circuit directory, work order
     summary, directory, work = (_flat(p) for p in pages)
@@ -118,7 +125,12 @@ def test_demand_summary_and_page(tmp_path: Path) -> None:
     result = demo_result()
     demand = compute_demand(result.after_panel)
     out = write_pdf(
-        tmp_path / "dm.pdf", result.after_panel, result.after, result=result, demand=demand
+        tmp_path / "dm.pdf",
+        result.after_panel,
+        result.after,
+        result=result,
+        demand=demand,
+        order=work_order_for(result),
     )
     pages = [_flat(t) for t in _text(out)]
     assert len(pages) == 4  # summary, directory, work order, demand and feeder check

@@ -66,7 +66,7 @@ def test_check_text_names_the_figures(capsys: pytest.CaptureFixture[str]) -> Non
         "neutral",
         "NEMA MG 1",
         "qualified",
-        "de-energised",
+        "de-energise",
     ):
         assert words in out
 

@@ -10,16 +10,19 @@ from openpyxl import load_workbook
 from writer_demo import DEMO_NOTICE, demo_panel, demo_result
 
 from balancer.errors import BalancerError, OutputError
+from balancer.field.workorder import work_order_for
 from balancer.io.reader import read_schedule
-from balancer.io.writer import SAFETY_NOTES, row_role, write_workbook
+from balancer.io.writer import row_role, write_workbook
 from balancer.physics.analysis import analyze
+from balancer.report.safety import CAUTIONS
 
 ATOL_VA = 1e-6
 
 
 @pytest.fixture
 def written(tmp_path: Path) -> Path:
-    return write_workbook(demo_result(), tmp_path / "demo-lp1-balanced.xlsx")
+    result = demo_result()
+    return write_workbook(result, tmp_path / "demo-lp1-balanced.xlsx", order=work_order_for(result))
 
 
 def _find(ws: object, text: str) -> tuple[int, int]:
@@ -84,10 +87,10 @@ def test_safety_notes_on_summary_and_notes(written: Path) -> None:
     wb = load_workbook(written)
     for name in ("Summary", "Notes"):
         texts = {c.value for row in wb[name].iter_rows() for c in row if isinstance(c.value, str)}
-        for note in SAFETY_NOTES:
+        for note in CAUTIONS:
             assert note in texts, (name, note)
-    joined = " ".join(SAFETY_NOTES)
-    for phrase in ("qualified persons", "de-energised", "meter", "authority having jurisdiction"):
+    joined = " ".join(CAUTIONS)
+    for phrase in ("qualified persons", "De-energise", "meter", "authority having jurisdiction"):
         assert phrase in joined
 
 
@@ -212,7 +215,7 @@ def test_demand_sheet_when_demand_is_given(tmp_path: Path) -> None:
 
     result = demo_result()
     demand = compute_demand(result.after_panel)
-    out = write_workbook(result, tmp_path / "d.xlsx", demand=demand)
+    out = write_workbook(result, tmp_path / "d.xlsx", demand=demand, order=work_order_for(result))
     wb = load_workbook(out)
     assert wb.sheetnames[-3:] == ["Work order", "Demand", "Notes"]
     values = [r for r in wb["Demand"].iter_rows(values_only=True)]

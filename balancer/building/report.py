@@ -1,38 +1,22 @@
-"""Building figures for people: tables, terminal text, the figures workbook and the
-``balancer building`` command."""
+"""Building figures for people: tables, terminal text and the figures workbook."""
 
 from __future__ import annotations
 
-import argparse
-import json
-import os
 import textwrap
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from pathlib import Path
 
-from balancer.building.files import index_file, read_building
 from balancer.building.tree import (
     Building,
     BuildingResult,
     RollUp,
-    balance_building,
-    demand_roll_up,
-    roll_up,
 )
 from balancer.domain.panel import Panel
-from balancer.domain.result import BalanceOptions, SolveStatus
+from balancer.domain.result import SolveStatus
 from balancer.domain.systems import Line
-from balancer.errors import Problem, ScheduleError
-from balancer.io.pdf import add_pdf_arguments
+from balancer.report.safety import CAUTION, CAUTIONS
 from balancer.report.text import GOAL_NAMES
-
-SAFETY = (
-    "An engineering aid, not a design approval: moving breakers or re-landing feeder conductors "
-    "is work for qualified persons with the equipment de-energised and absence of voltage "
-    "verified with a meter. The adopted code, local amendments and the authority having "
-    "jurisdiction govern."
-)
 
 
 def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
@@ -299,7 +283,7 @@ def building_text(
                 )
             if not outcome.exact or outcome.status is SolveStatus.FEASIBLE:
                 lines += [f"{name}: {n}" for n in outcome.notes if "proven" in n or "exactly" in n]
-    lines += ["", textwrap.fill(SAFETY, 88)]
+    lines += ["", textwrap.fill(CAUTION, 88)]
     return "\n".join(lines)
 
 
@@ -346,7 +330,7 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
     """The field steps of every panel that changes, service first: the cautions, then per panel
     its breaker steps (one free space at a time), the feeder conductors to re-land and the
     currents to expect afterwards (fundamental, with everything the panel feeds)."""
-    from balancer.field.workorder import CAUTIONS, STEP_HEADER, step_rows, work_order
+    from balancer.field.workorder import STEP_HEADER, step_rows, work_order
 
     rows: list[list[object]] = [[f"Work order — building {result.before.name}"], []]
     rows += [["Caution", c] for c in CAUTIONS]
@@ -457,7 +441,7 @@ def write_building_workbook(
     summary.title = "Summary"
     summary.append([f"Building {building.name}"])
     summary["A1"].font = Font(bold=True, size=14)
-    for line in ["", *summary_lines(building, before, result), "", SAFETY]:
+    for line in ["", *summary_lines(building, before, result), "", CAUTION]:
         summary.append([line])
     if result is not None:
         summary.append([])
@@ -551,136 +535,3 @@ def _feeder_ids(result: BuildingResult, name: str) -> frozenset[str]:
         if feed is not None:
             ids.add(feed.circuit_id)
     return frozenset(ids)
-
-
-# ---------------------------------------------------------------- command line
-
-
-def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
-    """The ``building`` subcommand's arguments."""
-    parser = commands.add_parser(
-        "building",
-        help="roll up and balance a whole building: panels feeding panels",
-        description="Read a building (a workbook with a 'Building' sheet and one sheet per "
-        "panel, or a building.xlsx/building.csv index naming one schedule file per panel), roll "
-        "every subpanel's per-line loads up to its feeder circuit, and with --balance balance "
-        "every panel, subpanels first (a panel behind a delta-secondary transformer for that "
-        "transformer's heaviest winding). The inputs are never changed.",
-    )
-    parser.add_argument("index", type=Path, help="the building workbook, index file or folder")
-    parser.add_argument(
-        "--balance", action="store_true", help="balance every panel (default: figures only)"
-    )
-    parser.add_argument(
-        "-o",
-        "--output",
-        type=Path,
-        help="workbook to write (.xlsx): the figures, and with --balance the moves, work order "
-        "and revised building (default with --balance: <index>-balanced.xlsx beside the index)",
-    )
-    add_pdf_arguments(
-        parser,
-        "a printout: summary and cautions, every panel's circuit directory and, with "
-        "--balance, its work order (default: beside the workbook or the index)",
-    )
-    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
-    parser.add_argument(
-        "--engine", choices=("highs", "cbc"), default="highs", help="MILP engine (default: highs)"
-    )
-    parser.add_argument(
-        "--time-limit", type=float, default=60.0, metavar="S", help="per panel (default 60)"
-    )
-    parser.add_argument(
-        "--tolerance", type=float, default=1.0, metavar="VA", help="spread tolerance (default 1)"
-    )
-    parser.add_argument(
-        "--demand",
-        action="store_true",
-        help="also roll up code demand loads (each feeder over all the loads it serves)",
-    )
-    parser.add_argument("--rules", help="demand rule set: nec2023, nec2020, connected, or a file")
-    parser.add_argument(
-        "--occupancy", default="other", help="dwelling, hotel, warehouse or other (default: other)"
-    )
-    parser.add_argument(
-        "--jobs",
-        type=int,
-        default=os.cpu_count() or 1,
-        metavar="N",
-        help="panels balanced at once (default: one per core)",
-    )
-
-
-def run_command(args: argparse.Namespace) -> int:
-    """``balancer building``: returns the exit status (0 done; errors raise)."""
-    if args.time_limit <= 0:
-        raise ScheduleError(Problem("--time-limit", "must be more than 0 seconds"))
-    building = read_building(args.index)
-    if args.output is None and args.balance:
-        index = index_file(args.index)
-        args.output = index.with_name(f"{index.stem}-balanced.xlsx")
-    sources = {Path(p.source).resolve() for p in building.panels if p.source}
-    sources.add(index_file(args.index).resolve())
-    if args.output is not None and args.output.resolve() in sources:
-        raise ScheduleError(
-            Problem("--output", f"{args.output} is an input; balancer never writes its input")
-        )
-    pdf = None
-    if args.pdf is not None:
-        pdf = Path(args.pdf) if args.pdf is not True else None
-        pdf = pdf or (args.output or index_file(args.index)).with_suffix(".pdf")
-        if pdf.resolve() in sources or (args.output and pdf.resolve() == args.output.resolve()):
-            raise ScheduleError(
-                Problem("--pdf", f"{pdf} is an input or the workbook; choose another name")
-            )
-    before = roll_up(building)
-    result = None
-    if args.balance:
-        options = BalanceOptions(
-            engine=args.engine, time_limit_s=args.time_limit, tolerance_va=args.tolerance
-        )
-        result = balance_building(building, options, jobs=max(1, args.jobs))
-    demand = None
-    if args.demand:
-        from balancer.code.demand import DemandOptions, check_choices
-
-        check_choices(args.rules, args.occupancy)
-        choices = DemandOptions(rules=args.rules, occupancy=args.occupancy)
-        after = demand_roll_up(result.after, choices) if result else None
-        demand = (demand_roll_up(building, choices), after)
-    if args.json:
-        data = {
-            "building": building.name,
-            "panels": panel_rows(building, before, result, demand),
-            "feeders": feeder_rows(building, before, result),
-            "summary": summary_lines(building, before, result),
-            "caution": SAFETY,
-        }
-        if result is not None:
-            data["moves"] = move_rows(result)
-        print(json.dumps(data, indent=2, ensure_ascii=False))
-    else:
-        print(building_text(building, before, result, demand))
-    if args.output is not None:
-        written = write_building_workbook(args.output, building, before, result, demand)
-        if not args.json:
-            what = "Figures, work order and revised schedules" if result else "Figures"
-            print(f"\n{what} written to {written}")
-    if pdf is not None:
-        from balancer.io.pdf import write_building_pdf
-
-        panels = printed_panels(
-            result.after if result else building, result.after_figures if result else before
-        )
-        printed = write_building_pdf(
-            pdf,
-            f"Building {building.name}" + (", revised" if result else ""),
-            summary_lines(building, before, result),
-            panels,
-            pdf_work_rows(result) if result else {},
-            paper=args.paper,
-            inputs=[*sources, *([args.output] if args.output else [])],
-        )
-        if not args.json:
-            print(f"Printout written to {printed}")
-    return 0

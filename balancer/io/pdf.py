@@ -16,7 +16,6 @@ from typing import TYPE_CHECKING, Any, Literal
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceResult
 from balancer.io.writer import (
-    SAFETY_NOTES,
     STATUS_TEXT,
     ExtraSheet,
     _atomic,
@@ -24,6 +23,7 @@ from balancer.io.writer import (
     row_role,
 )
 from balancer.physics.analysis import Loads, share_by_line
+from balancer.report.safety import CAUTIONS
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -359,7 +359,7 @@ def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | 
 
 def _cautions(page: _Page) -> None:
     page.heading("Cautions", size=11)
-    for note in SAFETY_NOTES:
+    for note in CAUTIONS:
         page.paragraph(f"• {note}")
         page.y_in += 0.03
 
@@ -444,8 +444,8 @@ def _directory_pages(pages: list[_Page], make: Any, panel: Panel) -> None:
 WORK_HEADER = ("Step", "Action", "Circuit", "Description", "From", "To", "Done")
 
 
-def _work_order_pages(pages: list[_Page], make: Any, result: BalanceResult) -> None:
-    _work_pages(pages, make, result.after_panel.name, _work_order_table(result))
+def _work_order_pages(pages: list[_Page], make: Any, panel_name: str, order: WorkOrder) -> None:
+    _work_pages(pages, make, panel_name, work_rows(order))
 
 
 def _work_pages(
@@ -466,13 +466,6 @@ def _work_pages(
         page.y_in += 0.05
         page.table(WORK_HEADER, rows[start : start + per_page], widths, size=8)
         pages.append(page)
-
-
-def _work_order_table(result: BalanceResult) -> list[list[Any]]:
-    """The result's steps from the work-order planner, as printed rows."""
-    from balancer.field.workorder import work_order_for
-
-    return work_rows(work_order_for(result))
 
 
 def work_rows(order: WorkOrder) -> list[list[Any]]:
@@ -588,17 +581,6 @@ def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]
         pages.append(page)
 
 
-def add_pdf_arguments(parser: Any, what: str) -> None:
-    """``--pdf [PATH]`` and ``--paper`` on a command's argument parser (or group); ``what``
-    says what the printout holds and where it goes by default."""
-    parser.add_argument(
-        "--pdf", nargs="?", const=True, default=None, metavar="PATH", help=f"also write {what}"
-    )
-    parser.add_argument(
-        "--paper", choices=tuple(PAPER_IN), default="letter", help="PDF page size (default letter)"
-    )
-
-
 def _numbered(pages: Sequence[_Page]) -> list[Figure]:
     """The pages' figures, each with "page n of N" in its corner."""
     for number, page in enumerate(pages, start=1):
@@ -621,9 +603,10 @@ def pdf_pages(
     paper: Paper = "letter",
     sections: Sequence[ExtraSheet] = (),
     demand: DemandResult | None = None,
+    order: WorkOrder | None = None,
 ) -> list[Figure]:
-    """The PDF's pages as figures: summary, directory, work order (with moves), demand and
-    feeder check (when given), extra sections."""
+    """The PDF's pages as figures: summary, directory, work order (when given, with steps),
+    demand and feeder check (when given), extra sections."""
     pages: list[_Page] = []
 
     def make() -> _Page:
@@ -633,8 +616,8 @@ def pdf_pages(
     _summary_page(first, panel, loads, result, demand)
     pages.append(first)
     _directory_pages(pages, make, panel)
-    if result is not None and result.moves:
-        _work_order_pages(pages, make, result)
+    if order is not None and order.steps:
+        _work_order_pages(pages, make, panel.name, order)
     extra = list(sections)
     if demand is not None:
         from balancer.code.demand import demand_sheet_rows
@@ -654,6 +637,7 @@ def write_pdf(
     sections: Sequence[ExtraSheet] = (),
     demand: DemandResult | None = None,
     input_path: Path | str | None = None,
+    order: WorkOrder | None = None,
 ) -> Path:
     """Write the panel's PDF to ``path`` (atomically) and return the path.
 
@@ -665,7 +649,7 @@ def write_pdf(
         The panel to describe and its figures: the revised panel after ``balance``, the panel
         as read for ``check``.
     result
-        The balancing result, for before/after figures, the proof status and the work order.
+        The balancing result, for before/after figures and the proof status.
     paper
         ``"letter"`` (8.5 × 11 in) or ``"a4"`` (210 × 297 mm).
     sections
@@ -675,6 +659,8 @@ def write_pdf(
         the summary and a page of their own.
     input_path
         The schedule that was read, when known.
+    order
+        The work order planned for the result (printed when it has steps).
     """
     from matplotlib import rc_context
     from matplotlib.backends.backend_pdf import PdfPages
@@ -690,7 +676,13 @@ def write_pdf(
             {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "text.parse_math": False}
         ):
             figures = pdf_pages(
-                panel, loads, result=result, paper=paper, sections=sections, demand=demand
+                panel,
+                loads,
+                result=result,
+                paper=paper,
+                sections=sections,
+                demand=demand,
+                order=order,
             )
             with PdfPages(
                 tmp, metadata={"Title": f"Panel {panel.name}", "Creator": "balancer"}

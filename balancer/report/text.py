@@ -5,10 +5,12 @@ from __future__ import annotations
 import dataclasses
 import math
 import textwrap
+from pathlib import Path
 from typing import Any
 
 from balancer.domain.panel import Panel
 from balancer.physics.analysis import Loads
+from balancer.report.safety import CAUTION
 
 GOAL_NAMES = {
     "spread": "the phase spread",
@@ -17,12 +19,6 @@ GOAL_NAMES = {
     "transformer": "the supply transformer's heaviest winding",
 }
 
-SAFETY_NOTE = (
-    "An engineering aid, not a design approval. Work inside a panelboard is for qualified "
-    "persons, with the equipment de-energised and absence of voltage verified with a meter. "
-    "The adopted code, local amendments, the authority having jurisdiction and licensed "
-    "practice govern."
-)
 IMBALANCE_DEFINITION = (
     "imbalance: NEMA MG 1 definition applied to phase loads, "
     "largest deviation from the average ÷ average"
@@ -77,7 +73,10 @@ def circuits_to_list(panel: Panel) -> list[dict[str, Any]]:
                 "id": c.id,
                 "description": c.description,
                 "poles": c.poles,
-                "load_va": c.load_va,
+                "load_va": c.load_va,  # design (schedule) load, whatever the basis
+                "balance_va": c.basis_va,  # the load balanced and analysed on
+                "measured_a": c.measured_a,
+                "measured_line_a": c.measured_line_a.as_dict(),
                 "spaces": list(c.spaces),
                 "phases": list(panel.lines_of(c)),
                 "trip_a": c.trip_a,
@@ -169,9 +168,66 @@ def check_text(
             lines += ["", *section]
     if warnings:
         lines += ["", "Notes:"] + [f"  - {w}" for w in warnings]
-    lines += ["", *wrap(SAFETY_NOTE)]
+    lines += ["", *wrap(CAUTION)]
     return "\n".join(lines)
 
 
 def wrap(text: str, width: int = 88) -> list[str]:
     return textwrap.wrap(text, width)
+
+
+def balance_text(
+    result: Any,
+    written: Path | list[Path],
+    *,
+    bars: list[str] | None = None,
+    sections: list[list[str]] | None = None,
+) -> str:
+    """The ``balance`` summary: bars, before and after, proof, moves, extra sections, files."""
+    before, after = result.before, result.after
+    lines = [panel_heading(result.before_panel)]
+    if bars:
+        lines += ["", *bars]
+    lines += ["", *loads_table(before, title="Before")]
+    lines += ["", *loads_table(after, title="After")]
+    status = result.status.value
+    if result.first_goal == "spread":
+        lines += [
+            "",
+            f"Result: {status} ({result.engine}); spread {after.spread_va:,.1f} VA, lower bound "
+            f"{result.lower_bound_spread_va:,.1f} VA, tolerance {result.tolerance_va:g} VA"
+            + (f", gap {result.gap_va:,.1f} VA" if status != "optimal" else ""),
+        ]
+    else:
+        goal = GOAL_NAMES.get(result.first_goal, result.first_goal)
+        lines += [
+            "",
+            f"Result: {status} ({result.engine}) on the first goal, {goal} (see the notes); "
+            f"spread {after.spread_va:,.1f} VA, a tie-breaker here",
+        ]
+    if result.after_panel.system.high_leg and result.first_goal == "spread":
+        lines += wrap(
+            f"High leg: the 120 V loads on A and C share one winding of the supply bank "
+            f"(neutral after: {after.neutral_a:.1f} A); --objective transformer --bank-kva KVA "
+            "balances for that winding instead."
+        )
+    if result.moves:
+        lines += ["", f"Moves ({len(result.moves)}):"]
+        for m in result.moves:
+            origin = ",".join(map(str, m.from_spaces)) or "new"
+            lines.append(
+                f"  {m.description:<32} {origin:>8} ({''.join(m.from_lines) or '-'}) -> "
+                f"{','.join(map(str, m.to_spaces)):>8} ({''.join(m.to_lines)})"
+            )
+    else:
+        lines += ["", "Moves: none needed."]
+    for section in sections or []:
+        if section:
+            lines += ["", *section]
+    notes = list(result.notes) + list(result.before_panel.notices)
+    if notes:
+        lines += ["", "Notes:"] + [f"  - {n}" for n in notes]
+    files = written if isinstance(written, list) else [written]
+    lines += [""] + [f"Wrote {path}" for path in files]
+    lines += ["", *wrap(CAUTION)]
+    return "\n".join(lines)

@@ -1,0 +1,323 @@
+"""The pipeline every runner calls: the command line, the batch runner, the building command and
+a web page. Each job reads top to bottom here; the stages live in their own packages.
+
+    read → load basis → analyse / balance → trade-off and recommended row → work order → demand
+
+Nothing here parses arguments or prints; errors are raised (see :mod:`balancer.errors`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+from balancer.building.tree import Building, BuildingResult, RollUp
+from balancer.code.demand import (
+    DemandOptions,
+    DemandResult,
+    RuleSet,
+    check_choices,
+    compute_demand,
+)
+from balancer.domain.panel import Panel
+from balancer.domain.result import BalanceOptions, BalanceResult
+from balancer.errors import OutputError, Problem, ScheduleError
+from balancer.field.basis import Basis
+from balancer.field.run import FieldRun
+from balancer.io.pdf import Paper
+from balancer.io.reader import PanelOverrides, read_schedule
+from balancer.physics.analysis import Loads, analyze
+
+__all__ = [
+    "BalanceReport",
+    "BuildingReport",
+    "CheckReport",
+    "FieldChoices",
+    "Supply",
+    "balance_panel",
+    "check_panel",
+    "default_output",
+    "refuse_inputs",
+    "run_balance",
+    "run_building",
+    "run_check",
+    "write_balance",
+    "write_building",
+    "write_check_pdf",
+]
+
+
+@dataclass(frozen=True, slots=True)
+class FieldChoices:
+    """Choices for a panel in service (see docs/field.md)."""
+
+    basis: Basis = "nameplate"
+    tradeoff: bool | None = None  # None: on for a placed panel that is not laid out afresh
+    tradeoff_moves: int | None = None
+    target_imbalance_pct: float | None = None
+    within_pct: float | None = None  # None: 1 point on a placed panel balanced for the spread
+
+    def field_run(self) -> FieldRun:
+        return FieldRun(
+            basis=self.basis,
+            tradeoff=self.tradeoff,
+            tradeoff_moves=self.tradeoff_moves,
+            target_imbalance_pct=self.target_imbalance_pct,
+            within_pct=self.within_pct,
+        )
+
+
+@dataclass(frozen=True, slots=True)
+class Supply:
+    """The transformer that feeds the panel, for the transformer goal."""
+
+    kva: float
+    open_delta: bool = False
+
+
+@dataclass(frozen=True, slots=True)
+class CheckReport:
+    """A schedule's figures: the panel on the chosen basis, its loads and its demand."""
+
+    panel: Panel
+    loads: Loads
+    demand: DemandResult | None
+    field: FieldRun  # the load basis, circuit by circuit
+    warnings: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class BalanceReport:
+    """A balancing run: the recommended arrangement, how it was chosen, the trade-off table, the
+    work order and the revised panel's demand."""
+
+    result: BalanceResult
+    field: FieldRun
+    demand: DemandResult | None
+    warnings: tuple[str, ...] = ()
+    written: tuple[Path, ...] = ()
+
+
+def run_check(
+    schedule: Path,
+    overrides: PanelOverrides | None = None,
+    basis: Basis = "nameplate",
+    demand: DemandOptions | None = None,
+) -> CheckReport:
+    """Read a schedule and report its figures."""
+    return check_panel(read_schedule(schedule, overrides or PanelOverrides()), basis, demand)
+
+
+def check_panel(
+    panel: Panel, basis: Basis = "nameplate", demand: DemandOptions | None = None
+) -> CheckReport:
+    """The figures of a panel already read."""
+    run = FieldRun(basis=basis)
+    prepared = run.prepare(panel)
+    loads = analyze(prepared)
+    return CheckReport(prepared, loads, _demand(prepared, demand), run, tuple(panel.notices))
+
+
+def run_balance(
+    schedule: Path,
+    options: BalanceOptions | None = None,
+    overrides: PanelOverrides | None = None,
+    choices: FieldChoices | None = None,
+    demand: DemandOptions | None = None,
+    supply: Supply | None = None,
+) -> BalanceReport:
+    """Read a schedule and find its recommended arrangement (nothing is written)."""
+    panel = read_schedule(schedule, overrides or PanelOverrides())
+    return balance_panel(panel, options, choices, demand, supply)
+
+
+def balance_panel(
+    panel: Panel,
+    options: BalanceOptions | None = None,
+    choices: FieldChoices | None = None,
+    demand: DemandOptions | None = None,
+    supply: Supply | None = None,
+) -> BalanceReport:
+    """Balance a panel already read: basis, solve, trade-off and recommended row, work order."""
+    from balancer.optimize import balance
+
+    options = options or BalanceOptions()
+    if demand is not None and not isinstance(demand.rules, RuleSet):
+        # a wrong rule set, occupancy or class is reported before the long solve
+        check_choices(demand.rules, demand.occupancy, demand.nonlinear_classes)
+    run = (choices or FieldChoices()).field_run()
+    prepared = run.prepare(panel)
+    options = _with_supply(prepared, options, supply)
+    result = run.finish(prepared, balance(prepared, options), options, balance)
+    return BalanceReport(result, run, _demand(result.after_panel, demand), tuple(panel.notices))
+
+
+def write_balance(
+    report: BalanceReport,
+    workbook: Path,
+    pdf: Path | None = None,
+    *,
+    schedule: Path | None = None,
+    paper: Paper = "letter",
+) -> BalanceReport:
+    """Write the revised workbook (and the PDF); the report comes back naming the files."""
+    from balancer.io.pdf import write_pdf
+    from balancer.io.writer import write_workbook
+
+    refuse_inputs([workbook, *([pdf] if pdf else [])], [schedule])
+    if pdf is not None and _same_file(workbook, pdf):
+        raise OutputError(Problem(str(pdf), "is the workbook too; give the PDF another name"))
+    result = report.result
+    written = [
+        write_workbook(
+            result, workbook, input_path=schedule, demand=report.demand, order=report.field.order
+        )
+    ]
+    if pdf is not None:
+        written.append(
+            write_pdf(
+                pdf,
+                result.after_panel,
+                result.after,
+                result=result,
+                paper=paper,
+                demand=report.demand,
+                input_path=schedule,
+                order=report.field.order,
+            )
+        )
+    return replace(report, written=tuple(written))
+
+
+def write_check_pdf(
+    report: CheckReport, pdf: Path, *, schedule: Path | None = None, paper: Paper = "letter"
+) -> Path:
+    """The printout of a checked schedule."""
+    from balancer.io.pdf import write_pdf
+
+    refuse_inputs([pdf], [schedule])
+    return write_pdf(
+        pdf, report.panel, report.loads, paper=paper, demand=report.demand, input_path=schedule
+    )
+
+
+def default_output(schedule: Path, suffix: str = "-balanced", extension: str = ".xlsx") -> Path:
+    """Where an output goes when none is named: beside the schedule, ``<stem><suffix>``."""
+    return schedule.with_name(f"{schedule.stem}{suffix}{extension}")
+
+
+def refuse_inputs(outputs: Sequence[Path | None], inputs: Sequence[Path | str | None]) -> None:
+    """Raise OutputError when an output would be one of the inputs: balancer never writes one."""
+    for output in outputs:
+        for source in inputs:
+            if output is not None and source is not None and _same_file(Path(source), output):
+                raise OutputError(
+                    Problem(str(output), "is an input; balancer never writes its input")
+                )
+
+
+def _same_file(first: Path, second: Path) -> bool:
+    try:
+        return first.resolve() == second.resolve() or (second.exists() and first.samefile(second))
+    except OSError:
+        return False
+
+
+def _demand(panel: Panel, options: DemandOptions | None) -> DemandResult | None:
+    if options is None:
+        return None
+    try:
+        return compute_demand(panel, options)
+    except ValueError as exc:  # ambient or conductor count out of the tables' range
+        raise ScheduleError(Problem("--ambient/--conductors", str(exc))) from exc
+
+
+def _with_supply(panel: Panel, options: BalanceOptions, supply: Supply | None) -> BalanceOptions:
+    if supply is None:
+        return options
+    from balancer.physics.transformer import loading_terms, supply_bank
+
+    bank = supply_bank(panel.system, supply.kva, supply.open_delta, "--bank-kva")
+    return replace(options, transformer_terms=loading_terms(bank))
+
+
+@dataclass(frozen=True, slots=True)
+class BuildingReport:
+    """A building's figures as found, and with balancing the revised building."""
+
+    building: Building
+    before: RollUp
+    result: BuildingResult | None
+    demand: tuple[RollUp, RollUp | None] | None
+    sources: frozenset[Path]  # every file read: the index and each panel's schedule
+    written: tuple[Path, ...] = ()
+
+
+def run_building(
+    index: Path,
+    options: BalanceOptions | None = None,
+    demand: DemandOptions | None = None,
+    jobs: int = 1,
+    outputs: Sequence[Path | None] = (),
+) -> BuildingReport:
+    """Read a building and roll its loads up to the service; with ``options``, balance every
+    panel too (subpanels first). ``outputs`` are refused, before any balancing, when one is a
+    file the building was read from."""
+    from balancer.building.files import index_file, read_building
+    from balancer.building.tree import balance_building, demand_roll_up, roll_up
+
+    if demand is not None and not isinstance(demand.rules, RuleSet):
+        check_choices(demand.rules, demand.occupancy)
+    building = read_building(index)
+    sources = {Path(p.source).resolve() for p in building.panels if p.source}
+    sources.add(index_file(index).resolve())
+    refuse_inputs(outputs, list(sources))
+    result = None if options is None else balance_building(building, options, jobs=max(1, jobs))
+    demands = None
+    if demand is not None:
+        after = demand_roll_up(result.after, demand) if result else None
+        demands = (demand_roll_up(building, demand), after)
+    return BuildingReport(building, roll_up(building), result, demands, frozenset(sources))
+
+
+def write_building(
+    report: BuildingReport,
+    workbook: Path | None,
+    pdf: Path | None = None,
+    *,
+    paper: Paper = "letter",
+) -> BuildingReport:
+    """Write the building workbook (figures; with balancing the moves, work order and revised
+    schedules) and the printout."""
+    from balancer.building.report import (
+        pdf_work_rows,
+        printed_panels,
+        summary_lines,
+        write_building_workbook,
+    )
+    from balancer.io.pdf import write_building_pdf
+
+    refuse_inputs([workbook, pdf], list(report.sources))
+    if workbook is not None and pdf is not None and _same_file(workbook, pdf):
+        raise OutputError(Problem(str(pdf), "is the workbook too; give the PDF another name"))
+    building, before, result = report.building, report.before, report.result
+    written: list[Path] = []
+    if workbook is not None:
+        written.append(write_building_workbook(workbook, building, before, result, report.demand))
+    if pdf is not None:
+        panels = printed_panels(
+            result.after if result else building, result.after_figures if result else before
+        )
+        written.append(
+            write_building_pdf(
+                pdf,
+                f"Building {building.name}" + (", revised" if result else ""),
+                summary_lines(building, before, result),
+                panels,
+                pdf_work_rows(result) if result else {},
+                paper=paper,
+                inputs=[*report.sources, *written],
+            )
+        )
+    return replace(report, written=tuple(written))

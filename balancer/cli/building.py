@@ -1,0 +1,105 @@
+"""``balancer building``: the building pipeline (:func:`balancer.api.run_building`) with text or
+JSON out and the workbook and printout written."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+from pathlib import Path
+
+from balancer import api
+from balancer.building.files import index_file
+from balancer.building.report import (
+    building_text,
+    feeder_rows,
+    move_rows,
+    panel_rows,
+    summary_lines,
+)
+from balancer.cli import options
+from balancer.code.demand import DemandOptions
+from balancer.report.safety import CAUTION
+
+
+def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
+    """The ``building`` subcommand's arguments."""
+    parser = commands.add_parser(
+        "building",
+        help="roll up and balance a whole building: panels feeding panels",
+        description="Read a building (a workbook with a 'Building' sheet and one sheet per "
+        "panel, or a building.xlsx/building.csv index naming one schedule file per panel), roll "
+        "every subpanel's per-line loads up to its feeder circuit, and with --balance balance "
+        "every panel, subpanels first (a panel behind a delta-secondary transformer for that "
+        "transformer's heaviest winding). The inputs are never changed.",
+    )
+    parser.add_argument("index", type=Path, help="the building workbook, index file or folder")
+    parser.add_argument(
+        "--balance", action="store_true", help="balance every panel (default: figures only)"
+    )
+    parser.add_argument(
+        "-o",
+        "--output",
+        type=Path,
+        help="workbook to write (.xlsx): the figures, and with --balance the moves, work order "
+        "and revised building (default with --balance: <index>-balanced.xlsx beside the index)",
+    )
+    options.add_pdf(
+        parser,
+        "a printout: summary and cautions, every panel's circuit directory and, with "
+        "--balance, its work order (default: beside the workbook or the index)",
+    )
+    parser.add_argument("--json", action="store_true", help="print one JSON object instead")
+    options.add_engine(parser, "per panel (default 60)")
+    parser.add_argument(
+        "--demand",
+        action="store_true",
+        help="also roll up code demand loads (each feeder over all the loads it serves)",
+    )
+    options.add_rules(parser)
+    parser.add_argument(
+        "--jobs",
+        type=int,
+        default=os.cpu_count() or 1,
+        metavar="N",
+        help="panels balanced at once (default: one per core)",
+    )
+
+
+def run_command(args: argparse.Namespace) -> int:
+    """``balancer building``: returns the exit status (0 done; errors raise)."""
+    balance_options = options.engine(args) if args.balance else None
+    index = index_file(args.index)
+    workbook = args.output
+    if workbook is None and args.balance:
+        workbook = index.with_name(f"{index.stem}-balanced.xlsx")
+    pdf = None
+    if args.pdf is not None:
+        pdf = Path(args.pdf) if args.pdf is not True else (workbook or index).with_suffix(".pdf")
+    demand = DemandOptions(rules=args.rules, occupancy=args.occupancy) if args.demand else None
+    report = api.run_building(
+        args.index, balance_options, demand, jobs=args.jobs, outputs=[workbook, pdf]
+    )
+    building, before, result = report.building, report.before, report.result
+    if args.json:
+        data = {
+            "building": building.name,
+            "panels": panel_rows(building, before, result, report.demand),
+            "feeders": feeder_rows(building, before, result),
+            "summary": summary_lines(building, before, result),
+            "caution": CAUTION,
+        }
+        if result is not None:
+            data["moves"] = move_rows(result)
+        print(json.dumps(data, indent=2, ensure_ascii=False))
+    else:
+        print(building_text(building, before, result, report.demand))
+    report = api.write_building(report, workbook, pdf, paper=args.paper)
+    if not args.json:
+        for path in report.written:
+            if path.suffix == ".pdf":
+                print(f"Printout written to {path}")
+            else:
+                what = "Figures, work order and revised schedules" if result else "Figures"
+                print(f"\n{what} written to {path}")
+    return 0

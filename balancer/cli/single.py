@@ -1,0 +1,101 @@
+"""``balancer check``, ``balance`` and ``demo`` on one schedule: options in, the pipeline
+(:mod:`balancer.api`), text or JSON out."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from balancer import api
+from balancer.cli import options
+from balancer.code.demand import loads_section_lines
+from balancer.errors import Problem, ScheduleError
+from balancer.physics.analysis import Loads
+from balancer.report import text
+from balancer.report.json import balance_json, check_json
+from balancer.report.textbars import before_after_bars, phase_bars, use_color
+
+DEMO_SAMPLE = "office-208y120.xlsx"
+
+
+def print_json(data: dict[str, Any]) -> None:
+    print(json.dumps(data, indent=2, ensure_ascii=False))
+
+
+def _bars(args: argparse.Namespace, before: Loads, after: Loads | None, neutral: bool) -> list[str]:
+    color = use_color(sys.stdout, args.no_color)
+    if after is None:
+        return phase_bars(before, color=color, show_neutral=neutral)
+    return before_after_bars(before, after, color=color, show_neutral=neutral)
+
+
+def run_check(args: argparse.Namespace) -> int:
+    report = api.run_check(args.schedule, options.overrides(args), args.basis, options.demand(args))
+    if args.json:
+        print_json(check_json(report))
+    else:
+        panel, loads = report.panel, report.loads
+        bars = _bars(args, loads, None, panel.system.neutral)
+        demand = loads_section_lines(report.demand) if report.demand else []
+        sections = [report.field.text_lines(), demand]
+        print(text.check_text(panel, loads, list(report.warnings), bars=bars, sections=sections))
+    pdf = options.pdf_path(args, args.schedule, "")
+    if pdf is not None:
+        written = api.write_check_pdf(report, pdf, schedule=args.schedule, paper=args.paper)
+        print(f"Wrote {written}", file=sys.stderr if args.json else sys.stdout)
+    return 0
+
+
+def run_balance(args: argparse.Namespace) -> int:
+    workbook = args.output or api.default_output(args.schedule)
+    pdf = options.pdf_path(args, args.schedule, "-balanced")
+    api.refuse_inputs([workbook, pdf], [args.schedule])  # before the long solve
+    report = api.run_balance(
+        args.schedule,
+        options.balance(args),
+        options.overrides(args),
+        options.field(args),
+        options.demand(args),
+        options.supply(args, batch=False),
+    )
+    report = api.write_balance(report, workbook, pdf, schedule=args.schedule, paper=args.paper)
+    if args.json:
+        print_json(balance_json(report))
+        return 0
+    result = report.result
+    bars = _bars(args, result.before, result.after, result.after_panel.system.neutral)
+    sections = [
+        report.field.text_lines(args.work_order),
+        ["After balancing:", *loads_section_lines(report.demand)] if report.demand else [],
+    ]
+    print(text.balance_text(result, list(report.written), bars=bars, sections=sections))
+    return 0
+
+
+def sample_folder() -> Path:
+    """The bundled samples (package data, so an installed balancer has them too)."""
+    folder = Path(str(resources.files("balancer.samples")))
+    if not (folder / DEMO_SAMPLE).exists():
+        raise ScheduleError(Problem("demo", "the bundled samples are missing from this install"))
+    return folder
+
+
+def run_demo(args: argparse.Namespace, parser: argparse.ArgumentParser) -> int:
+    """``balance`` on the bundled office sample, with every default, into ``--output-dir``."""
+    schedule = sample_folder() / DEMO_SAMPLE
+    args.output_dir.mkdir(parents=True, exist_ok=True)
+    stem = api.default_output(schedule).stem
+    print(f"Demo: balancing {schedule} (demo data)\n")
+    argv = [
+        "balance",
+        str(schedule),
+        "-o",
+        str(args.output_dir / f"{stem}.xlsx"),
+        "--pdf",
+        str(args.output_dir / f"{stem}.pdf"),
+    ]
+    return run_balance(parser.parse_args(argv))
