@@ -9,12 +9,14 @@ multiwire members adjacent on one side on different lines (NEC 210.4, from memor
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 import random
 from collections.abc import Sequence
 
 import pytest
+from conftest import slow_cases
 
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions, SolveStatus
@@ -106,21 +108,7 @@ def exhaustive_moves(panel: Panel) -> dict[tuple[float, ...], int]:
     states: dict[tuple[int, tuple[float, ...]], int] = {(occupied, tuple(start)): 0}
     for piece in pieces:
         members = [panel.circuits[i] for i in piece]
-        poles = sum(c.poles for c in members)
-        placements: set[tuple[tuple[int, ...], ...]] = set()
-        for order in itertools.permutations(range(len(members))):
-            for first in range(1, panel.spaces + 1):
-                block = _block(panel, first, poles)
-                if block is None:
-                    continue
-                spans: list[tuple[int, ...]] = [()] * len(members)
-                at = 0
-                for k in order:
-                    spans[k] = block[at : at + members[k].poles]
-                    at += members[k].poles
-                if any(keep[i] and spans[k] != members[k].spaces for k, i in enumerate(piece)):
-                    continue
-                placements.add(tuple(spans))
+        placements = _piece_placements(panel, piece, keep)
         following: dict[tuple[int, tuple[float, ...]], int] = {}
         for (mask, phase), moves in states.items():
             for spans in sorted(placements):
@@ -141,6 +129,30 @@ def exhaustive_moves(panel: Panel) -> dict[tuple[float, ...], int]:
     for (_, phase), moves in states.items():
         out[phase] = min(moves, out.get(phase, moves))
     return out
+
+
+def _piece_placements(
+    panel: Panel, piece: list[int], keep: list[bool]
+) -> set[tuple[tuple[int, ...], ...]]:
+    """Every span per member of a piece (a circuit or a multiwire group), its kept members in
+    their own spaces."""
+    members = [panel.circuits[i] for i in piece]
+    poles = sum(c.poles for c in members)
+    placements: set[tuple[tuple[int, ...], ...]] = set()
+    for order in itertools.permutations(range(len(members))):
+        for first in range(1, panel.spaces + 1):
+            block = _block(panel, first, poles)
+            if block is None:
+                continue
+            spans: list[tuple[int, ...]] = [()] * len(members)
+            at = 0
+            for k in order:
+                spans[k] = block[at : at + members[k].poles]
+                at += members[k].poles
+            if any(keep[i] and spans[k] != members[k].spaces for k, i in enumerate(piece)):
+                continue
+            placements.add(tuple(spans))
+    return placements
 
 
 def line_moves(panel: Panel) -> dict[tuple[float, ...], int]:
@@ -252,7 +264,8 @@ def test_the_family_exercises_unplaced_locked_and_grouped_circuits() -> None:
     assert sum(a is not None for a in applies) >= 30
 
 
-@pytest.mark.parametrize("seed", range(24))
+# the seeds whose exhaustive reference takes a second or more run in the whole suite only
+@pytest.mark.parametrize("seed", slow_cases(range(24), slow={6, 9, 14, 16, 17}))
 def test_balance_moves_match_exhaustive_search(seed: int) -> None:
     panel = odd_panel(200 + seed, extras=seed % 2 == 1)
     reachable = exhaustive_moves(panel)
@@ -362,7 +375,14 @@ def fewest_by_subsets(panel: Panel, cap_va: float, most: int) -> int | None:
     return None
 
 
-@pytest.mark.parametrize("seed", [0, 4, 6, 7])
+@functools.cache
+def _fewest_by_subsets_placed(seed: int, most: int) -> int | None:
+    """``fewest_by_subsets`` of ``placed_in_order(24, seed)`` at a 10 VA cap, worked out once:
+    seed 0 alone takes seconds, and three tests ask for it."""
+    return fewest_by_subsets(placed_in_order(24, seed), 10.0, most)
+
+
+@pytest.mark.parametrize("seed", slow_cases([0, 4, 6, 7], slow={0}))
 def test_larger_counts_match_subset_enumeration(seed: int) -> None:
     # 24 spaces, 12 to 17 circuits: five to eight changes, so both halves of the meeting hold
     # several changes; the reference tries every smaller set of changes first
@@ -373,10 +393,12 @@ def test_larger_counts_match_subset_enumeration(seed: int) -> None:
     assert found.picks is not None
     assert found.bound == found.moves
     assert found.bound >= 5
-    assert fewest_by_subsets(panel, 10.0, found.bound) == found.bound
+    # up to 8 changes, or the bound if larger: the same answer as stopping at the bound
+    assert _fewest_by_subsets_placed(seed, max(8, found.bound)) == found.bound
     assert pattern_spread_va(layout, found.picks) <= 10.0 + ATOL_VA
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("pair_limit", [0, 20, 200])
 def test_bound_stays_valid_when_the_search_stops_early(
     pair_limit: int, monkeypatch: pytest.MonkeyPatch
@@ -390,7 +412,7 @@ def test_bound_stays_valid_when_the_search_stops_early(
         layout = build_layout(panel, BalanceOptions())
         found = fewest_changes_lines(layout, 10.0, SEARCH_S)
         assert found is not None
-        fewest = fewest_by_subsets(panel, 10.0, 8)
+        fewest = _fewest_by_subsets_placed(seed, 8)
         assert fewest is not None
         assert found.bound <= fewest
         if found.picks is not None:
