@@ -23,14 +23,13 @@ from dataclasses import dataclass, replace
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, BalanceResult, Move, SolveStatus
 from balancer.errors import InfeasibleError, SolverError
-from balancer.optimize.goals import MOVES_GAP, goal_for
+from balancer.optimize.goals import GOALS, MOVES_GAP, goal_for
 from balancer.optimize.model import (
     Layout,
     Model,
     Option,
     build_layout,
     build_model,
-    has_neutral_goal,
     placed_circuits,
     realise,
     spread_lower_bound,
@@ -449,9 +448,7 @@ def _solve_on_lines(
     The spread is tried by the searches first, which prove it without a solver when they meet
     the combinatorial bound or try every line assignment; the solver starts from their answer.
     """
-    available = ["spread", "moves", "line"] + (["neutral"] if has_neutral_goal(layout) else [])
-    if options.transformer_terms:
-        available.append("transformer")
+    available = ["moves"] + [g.name for g in GOALS.values() if g.applies(layout, options)]
     goals = _goal_order(
         replace(options, target_imbalance_pct=target), layout.count_moves, available
     )

@@ -22,7 +22,7 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions
 from balancer.domain.systems import Line
 from balancer.errors import InfeasibleError
-from balancer.optimize.goals import POLYGON_SIDES
+from balancer.optimize.goals import MODEL_ORDER, POLYGON_SIDES, Goal, goal_for
 from balancer.physics.harmonics import circuit_currents_by_order
 
 ModelKind = Literal["line", "space", "mixed"]
@@ -282,14 +282,6 @@ def _polygon_rows(
         prob += (bound >= expr + (constant * turn).real, f"{tag}_{k}")
 
 
-def has_neutral_goal(layout: Layout) -> bool:
-    """Whether the neutral current depends on the arrangement (a neutral and a 1-pole load)."""
-    panel = layout.panel
-    return panel.system.neutral and any(
-        panel.circuits[i].poles == 1 for unit in layout.units for i in unit.members
-    )
-
-
 def _single_pole(layout: Layout, unit: Unit) -> bool:
     return len(unit.members) == 1 and layout.panel.circuits[unit.members[0]].poles == 1
 
@@ -352,10 +344,48 @@ def build_model(
     amperes), and with ``options.transformer_terms`` ``transformer`` (polygon bound on the
     heaviest winding of the feeding transformer, % of its rating).
     """
-    panel = layout.panel
-    lines = panel.lines
-    geometry = panel.geometry
     prob = pulp.LpProblem(f"balance_{kind}", pulp.LpMinimize)
+    unit_options = _unit_options(layout, kind, allowed)
+    choice = define_choice(prob, unit_options)
+    if kind in ("line", "mixed"):
+        define_line_room(prob, layout, unit_options, choice)
+    if kind in ("space", "mixed"):
+        define_space_cover(prob, unit_options, choice)
+    panel = layout.panel
+    fixed = contribution(
+        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
+    )
+    parts = [
+        [contribution(panel, layout.units[u].members, o.lines) for o in opts]
+        for u, opts in enumerate(unit_options)
+    ]
+    phase_va = phase_sums(panel.lines, choice, fixed, parts)
+    goals: dict[str, pulp.LpAffineExpression] = {"spread": define_spread(prob, phase_va)}
+    goals["moves"] = define_moves(prob, layout, options, unit_options, choice)
+    if target_imbalance_pct is not None:
+        define_target(prob, layout, fixed, phase_va, target_imbalance_pct)
+    wanted = set(include) if include is not None else {"neutral", options.objective}
+    for name in MODEL_ORDER:
+        if name in wanted:
+            bound = define_current_goal(prob, goal_for(name), layout, options, choice, fixed, parts)
+            if bound is not None:
+                goals[name] = bound
+    prob.setObjective(goals["spread"])
+    return Model(kind, layout, prob, tuple(unit_options), choice, phase_va, goals)
+
+
+# One function per family of variables and constraints, in the order build_model adds them:
+# the solver's path depends on the order of variables and rows, so keep it.
+
+Choice = dict[tuple[int, int], pulp.LpVariable]
+
+
+def _unit_options(
+    layout: Layout,
+    kind: ModelKind,
+    allowed: Mapping[int, set[tuple[tuple[Line, ...], ...]]] | None,
+) -> list[tuple[Option, ...]]:
+    """The options each unit chooses among in a model of ``kind``."""
     unit_options: list[tuple[Option, ...]] = []
     for u, unit in enumerate(layout.units):
         if kind == "line":
@@ -367,46 +397,66 @@ def build_model(
         if allowed is not None and u in allowed:
             opts = tuple(o for o in opts if o.pattern in allowed[u])
         unit_options.append(opts)
-    choice: dict[tuple[int, int], pulp.LpVariable] = {}
+    return unit_options
+
+
+def define_choice(prob: pulp.LpProblem, unit_options: Sequence[Sequence[Option]]) -> Choice:
+    """A binary ``y_u_k`` per option of each unit, and exactly one option per unit."""
+    choice: Choice = {}
     for u, opts in enumerate(unit_options):
         for k in range(len(opts)):
             choice[u, k] = prob.add_variable(f"y_{u}_{k}", 0, 1, cat=pulp.LpBinary)
     for u, opts in enumerate(unit_options):
         prob += (pulp.lpSum(choice[u, k] for k in range(len(opts))) == 1, f"one_{u}")
+    return choice
 
-    if kind in ("line", "mixed"):
-        free_on = {
-            line: sum(1 for s in layout.free_spaces if geometry.line_of(s) == line)
-            for line in lines
-        }
-        for j, line in enumerate(lines):
-            use = [
-                (choice[u, k], sum(member.count(line) for member in o.lines))
-                for u, opts in enumerate(unit_options)
-                for k, o in enumerate(opts)
-            ]
-            prob += (
-                pulp.LpAffineExpression([(x, n) for x, n in use if n]) <= free_on[line],
-                f"room_{j}",
-            )
-    if kind in ("space", "mixed"):
-        cover: dict[int, list[pulp.LpVariable]] = {}
-        for u, opts in enumerate(unit_options):
-            for k, o in enumerate(opts):
-                for span in o.spans:
-                    for s in span:
-                        cover.setdefault(s, []).append(choice[u, k])
-        for s in sorted(cover):
-            if len(cover[s]) > 1:
-                prob += (pulp.lpSum(cover[s]) <= 1, f"space_{s}")
 
-    fixed = contribution(
-        panel, layout.fixed, [panel.lines_of(panel.circuits[i]) for i in layout.fixed]
-    )
-    parts = [
-        [contribution(panel, layout.units[u].members, o.lines) for o in opts]
-        for u, opts in enumerate(unit_options)
-    ]
+def define_line_room(
+    prob: pulp.LpProblem,
+    layout: Layout,
+    unit_options: Sequence[Sequence[Option]],
+    choice: Choice,
+) -> None:
+    """No line takes more poles than it has free spaces (``room_j``)."""
+    geometry = layout.panel.geometry
+    lines = layout.panel.lines
+    free_on = {
+        line: sum(1 for s in layout.free_spaces if geometry.line_of(s) == line) for line in lines
+    }
+    for j, line in enumerate(lines):
+        use = [
+            (choice[u, k], sum(member.count(line) for member in o.lines))
+            for u, opts in enumerate(unit_options)
+            for k, o in enumerate(opts)
+        ]
+        prob += (
+            pulp.LpAffineExpression([(x, n) for x, n in use if n]) <= free_on[line],
+            f"room_{j}",
+        )
+
+
+def define_space_cover(
+    prob: pulp.LpProblem, unit_options: Sequence[Sequence[Option]], choice: Choice
+) -> None:
+    """No space is taken by two chosen placements (``space_s``)."""
+    cover: dict[int, list[pulp.LpVariable]] = {}
+    for u, opts in enumerate(unit_options):
+        for k, o in enumerate(opts):
+            for span in o.spans:
+                for s in span:
+                    cover.setdefault(s, []).append(choice[u, k])
+    for s in sorted(cover):
+        if len(cover[s]) > 1:
+            prob += (pulp.lpSum(cover[s]) <= 1, f"space_{s}")
+
+
+def phase_sums(
+    lines: Sequence[Line],
+    choice: Choice,
+    fixed: Contribution,
+    parts: Sequence[Sequence[Contribution]],
+) -> dict[Line, pulp.LpAffineExpression]:
+    """The VA on each line: what stays put, plus each chosen option's share."""
     phase_va: dict[Line, pulp.LpAffineExpression] = {}
     for line in lines:
         phase_va[line] = pulp.LpAffineExpression(
@@ -418,13 +468,30 @@ def build_model(
             ],
             constant=fixed.phase_va[line],
         )
+    return phase_va
+
+
+def define_spread(
+    prob: pulp.LpProblem, phase_va: Mapping[Line, pulp.LpAffineExpression]
+) -> pulp.LpAffineExpression:
+    """``t_max`` above and ``t_min`` below every phase sum (``hi_j``, ``lo_j``); the spread is
+    their difference."""
     high = prob.add_variable("t_max", None, None)
     low = prob.add_variable("t_min", None, None)
-    for j, line in enumerate(lines):
-        prob += (high >= phase_va[line], f"hi_{j}")
-        prob += (low <= phase_va[line], f"lo_{j}")
-    goals: dict[str, pulp.LpAffineExpression] = {"spread": high - low}
+    for j, expr in enumerate(phase_va.values()):
+        prob += (high >= expr, f"hi_{j}")
+        prob += (low <= expr, f"lo_{j}")
+    return high - low
 
+
+def define_moves(
+    prob: pulp.LpProblem,
+    layout: Layout,
+    options: BalanceOptions,
+    unit_options: Sequence[Sequence[Option]],
+    choice: Choice,
+) -> pulp.LpAffineExpression:
+    """The move count, and on a placed schedule the budget ``options.max_moves``."""
     moves = pulp.LpAffineExpression(
         [
             (choice[u, k], o.moves)
@@ -433,51 +500,54 @@ def build_model(
             if o.moves
         ]
     )
-    goals["moves"] = moves
     if layout.count_moves and options.max_moves is not None:
         prob += (moves <= options.max_moves, "move_budget")
+    return moves
 
-    if target_imbalance_pct is not None:
-        total = sum(fixed.phase_va.values()) + sum(
-            panel.circuits[i].load_va for unit in layout.units for i in unit.members
-        )
-        allowance = target_imbalance_pct / 100.0 * total / len(lines)
-        for j, line in enumerate(lines):
-            prob += (phase_va[line] <= total / len(lines) + allowance, f"target_hi_{j}")
-            prob += (phase_va[line] >= total / len(lines) - allowance, f"target_lo_{j}")
 
-    wanted = set(include) if include is not None else {"neutral", options.objective}
-    if "neutral" in wanted and has_neutral_goal(layout):
-        neutral = prob.add_variable("z_n", 0, None)
+def define_target(
+    prob: pulp.LpProblem,
+    layout: Layout,
+    fixed: Contribution,
+    phase_va: Mapping[Line, pulp.LpAffineExpression],
+    target_imbalance_pct: float,
+) -> None:
+    """Every phase sum within the target imbalance of the average (``target_hi_j``,
+    ``target_lo_j``)."""
+    panel = layout.panel
+    lines = panel.lines
+    total = sum(fixed.phase_va.values()) + sum(
+        panel.circuits[i].load_va for unit in layout.units for i in unit.members
+    )
+    allowance = target_imbalance_pct / 100.0 * total / len(lines)
+    for j, line in enumerate(lines):
+        prob += (phase_va[line] <= total / len(lines) + allowance, f"target_hi_{j}")
+        prob += (phase_va[line] >= total / len(lines) - allowance, f"target_lo_{j}")
+
+
+def define_current_goal(
+    prob: pulp.LpProblem,
+    goal: Goal,
+    layout: Layout,
+    options: BalanceOptions,
+    choice: Choice,
+    fixed: Contribution,
+    parts: Sequence[Sequence[Contribution]],
+) -> pulp.LpAffineExpression | None:
+    """One variable above the polygon of every current ``goal`` keeps low; that variable is the
+    goal's expression. None when the goal has no current the arrangement changes."""
+    currents = goal.currents(layout, options) if goal.currents else ()
+    if not currents:
+        return None
+    bound = prob.add_variable(goal.variable, 0, None)
+    for tag, phasor in currents:
         terms = [
-            (choice[u, k], part.neutral)
+            (choice[u, k], phasor(part))
             for u, unit_parts in enumerate(parts)
             for k, part in enumerate(unit_parts)
         ]
-        _polygon_rows(prob, neutral, terms, fixed.neutral, "neutral")
-        goals["neutral"] = pulp.LpAffineExpression([(neutral, 1.0)])
-    if "line" in wanted:
-        worst = prob.add_variable("z_l", 0, None)
-        for j, line in enumerate(lines):
-            terms = [
-                (choice[u, k], part.line_current[line])
-                for u, unit_parts in enumerate(parts)
-                for k, part in enumerate(unit_parts)
-            ]
-            _polygon_rows(prob, worst, terms, fixed.line_current[line], f"line_{j}")
-        goals["line"] = pulp.LpAffineExpression([(worst, 1.0)])
-    if "transformer" in wanted and options.transformer_terms:
-        heaviest = prob.add_variable("z_t", 0, None)
-        for j, term in enumerate(options.transformer_terms):
-            terms = [
-                (choice[u, k], term.value(part.line_current))
-                for u, unit_parts in enumerate(parts)
-                for k, part in enumerate(unit_parts)
-            ]
-            _polygon_rows(prob, heaviest, terms, term.value(fixed.line_current), f"winding_{j}")
-        goals["transformer"] = pulp.LpAffineExpression([(heaviest, 1.0)])
-    prob.setObjective(goals["spread"])
-    return Model(kind, layout, prob, tuple(unit_options), choice, phase_va, goals)
+        _polygon_rows(prob, bound, terms, phasor(fixed), tag)
+    return pulp.LpAffineExpression([(bound, 1.0)])
 
 
 def placed_circuits(layout: Layout, options: Sequence[Option]) -> list[Circuit]:
