@@ -135,5 +135,11 @@ def cli(capsys: pytest.CaptureFixture[str]) -> Cli:
 
 def slow_cases(values: Iterable[Any], slow: Collection[Any]) -> list[Any]:
     """``values`` as parameters, those in ``slow`` marked slow: cases whose exhaustive reference
-    takes seconds run in the whole suite, the rest in the quick one too."""
-    return [pytest.param(v, marks=pytest.mark.slow) if v in slow else v for v in values]
+    takes seconds run in the whole suite, the rest in the quick one too. A tuple value gives
+    one argument per name, as in ``parametrize(("make", "seed"), ...)``."""
+    return [
+        pytest.param(*(v if isinstance(v, tuple) else (v,)), marks=pytest.mark.slow)
+        if v in slow
+        else v
+        for v in values
+    ]

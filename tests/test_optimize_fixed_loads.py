@@ -10,6 +10,7 @@ line-to-neutral load on a high leg (NEC 408.3(E) puts it on B).
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 import random
@@ -17,6 +18,7 @@ from collections.abc import Callable, Sequence
 
 import numpy as np
 import pytest
+from conftest import slow_cases
 
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
@@ -279,14 +281,25 @@ def repeated_panel(seed: int) -> Panel:
     return Panel("repeated demo", system, 42, tuple(circuits))
 
 
-@pytest.mark.parametrize(
-    ("make", "seed"), [(small_panel, s) for s in range(30)] + [(full_panel, s) for s in range(4)]
+# Every small panel; the full ones take seconds to enumerate, so one runs in the quick suite.
+CASES = slow_cases(
+    [(small_panel, s) for s in range(30)] + [(full_panel, s) for s in range(4)],
+    slow={(full_panel, s) for s in range(1, 4)},
 )
+
+
+@functools.cache
+def _best_by_spaces_of(make: Callable[[int], Panel], seed: int) -> float:
+    """``best_by_spaces`` of one invented panel, enumerated once for the two tests that use it."""
+    return best_by_spaces(make(seed))
+
+
+@pytest.mark.parametrize(("make", "seed"), CASES)
 def test_fixed_loads_match_exhaustive_search_over_spaces(
     make: Callable[[int], Panel], seed: int
 ) -> None:
     panel = make(seed)
-    best = best_by_spaces(panel)
+    best = _best_by_spaces_of(make, seed)
     if best == math.inf:
         with pytest.raises(InfeasibleError):
             balance(panel, FRESH)
@@ -298,9 +311,7 @@ def test_fixed_loads_match_exhaustive_search_over_spaces(
     _claim_is_honest(result, TOL_VA)
 
 
-@pytest.mark.parametrize(
-    ("make", "seed"), [(small_panel, s) for s in range(30)] + [(full_panel, s) for s in range(4)]
-)
+@pytest.mark.parametrize(("make", "seed"), CASES)
 def test_whole_enumeration_finds_the_least_spread_by_lines(
     make: Callable[[int], Panel], seed: int
 ) -> None:
@@ -311,7 +322,7 @@ def test_whole_enumeration_finds_the_least_spread_by_lines(
     found = split_search_lines(layout, start, -1.0, 30.0)  # a goal below zero: search it all
     assert found.exhaustive  # a few units: every assignment fits in two halves
     assert found.spread_va == pytest.approx(best_by_lines(panel), abs=ATOL_VA)
-    assert found.spread_va <= best_by_spaces(panel) + ATOL_VA  # lines relax spaces
+    assert found.spread_va <= _best_by_spaces_of(make, seed) + ATOL_VA  # lines relax spaces
 
 
 def _meets_line_model(panel: Panel, picks: Sequence[int]) -> None:
