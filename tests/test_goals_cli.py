@@ -3,26 +3,21 @@ default recommendation on a placed panel; and the same answer on every run."""
 
 from __future__ import annotations
 
-import json
 import random
 from pathlib import Path
 from typing import Any
 
 import pytest
-from conftest import SAMPLES
+from conftest import SAMPLES, Cli
 
-from balancer.cli.main import main
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions
 from balancer.domain.systems import get_system
 from balancer.optimize import balance
 
 
-def _balance_json(capsys: pytest.CaptureFixture[str], tmp_path: Path, *args: str) -> Any:
-    code = main(["balance", *args, "--json", "-o", str(tmp_path / "out.xlsx")])
-    out = capsys.readouterr().out
-    assert code == 0, out
-    return json.loads(out)
+def _balance_json(cli: Cli, tmp_path: Path, *args: str) -> Any:
+    return cli.json("balance", *args, "-o", tmp_path / "out.xlsx")
 
 
 def _without_timings(data: Any) -> Any:
@@ -35,10 +30,10 @@ def _without_timings(data: Any) -> Any:
 
 @pytest.mark.slow
 def test_transformer_goal_with_tradeoff_reaches_the_least_winding_loading(
-    capsys: pytest.CaptureFixture[str], tmp_path: Path
+    cli: Cli, tmp_path: Path
 ) -> None:
     data = _balance_json(
-        capsys,
+        cli,
         tmp_path,
         str(SAMPLES / "machine-shop-240-120-high-leg.xlsx"),
         "--objective",
@@ -59,24 +54,20 @@ def test_transformer_goal_with_tradeoff_reaches_the_least_winding_loading(
 
 
 @pytest.mark.slow
-def test_neutral_goal_with_tradeoff_reaches_zero(
-    capsys: pytest.CaptureFixture[str], tmp_path: Path
-) -> None:
+def test_neutral_goal_with_tradeoff_reaches_zero(cli: Cli, tmp_path: Path) -> None:
     data = _balance_json(
-        capsys, tmp_path, str(SAMPLES / "office-208y120.xlsx"), "--objective", "neutral"
+        cli, tmp_path, str(SAMPLES / "office-208y120.xlsx"), "--objective", "neutral"
     )
     assert data["first_goal"] == "neutral"
     assert data["after"]["neutral_a"] <= 0.05  # fundamental neutral, 0.00 A without the table
 
 
 @pytest.mark.slow
-def test_line_goal_with_tradeoff_succeeds(
-    capsys: pytest.CaptureFixture[str], tmp_path: Path
-) -> None:
+def test_line_goal_with_tradeoff_succeeds(cli: Cli, tmp_path: Path) -> None:
     # The table used to compare spreads and stop with "4 moves proven at 1060.0 VA but 3 moves
     # reach 1040.0 VA": under the line goal the spread is only a tie-breaker.
     data = _balance_json(
-        capsys,
+        cli,
         tmp_path,
         str(SAMPLES / "office-208y120.xlsx"),
         "--objective",
@@ -91,10 +82,8 @@ def test_line_goal_with_tradeoff_succeeds(
 
 
 @pytest.mark.slow
-def test_placed_panel_gets_the_fewest_moves_within_one_point(
-    capsys: pytest.CaptureFixture[str], tmp_path: Path
-) -> None:
-    data = _balance_json(capsys, tmp_path, str(SAMPLES / "office-208y120.xlsx"))
+def test_placed_panel_gets_the_fewest_moves_within_one_point(cli: Cli, tmp_path: Path) -> None:
+    data = _balance_json(cli, tmp_path, str(SAMPLES / "office-208y120.xlsx"))
     chosen = data["recommendation"]
     best = chosen["best"]
     assert chosen["rule"] == "within"
@@ -107,25 +96,21 @@ def test_placed_panel_gets_the_fewest_moves_within_one_point(
         assert by_moves[moves]["imbalance_pct"] > best["imbalance_pct"] + 1.0
     assert len(data["moves"]) == chosen["moves"] < best["moves"]
     # 0 asks for the best balance whatever it costs in moves
-    full = _balance_json(
-        capsys, tmp_path, str(SAMPLES / "office-208y120.xlsx"), "--within-pct", "0"
-    )
+    full = _balance_json(cli, tmp_path, str(SAMPLES / "office-208y120.xlsx"), "--within-pct", "0")
     assert len(full["moves"]) == best["moves"]
     assert full["recommendation"]["rule"] == "best"
 
 
-def test_within_pct_out_of_range_is_refused(
-    capsys: pytest.CaptureFixture[str], tmp_path: Path
-) -> None:
-    code = main(["balance", str(SAMPLES / "bakery-120-240.xlsx"), "--within-pct", "-1", "--json"])
-    assert code == 2
-    assert "--within-pct" in capsys.readouterr().err
+def test_within_pct_out_of_range_is_refused(cli: Cli, tmp_path: Path) -> None:
+    run = cli("balance", SAMPLES / "bakery-120-240.xlsx", "--within-pct", "-1", "--json")
+    assert run.code == 2
+    assert "--within-pct" in run.err
 
 
-def test_two_runs_print_the_same_json(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+def test_two_runs_print_the_same_json(cli: Cli, tmp_path: Path) -> None:
     schedule = str(SAMPLES / "bakery-120-240.xlsx")
-    first = _without_timings(_balance_json(capsys, tmp_path, schedule))
-    second = _without_timings(_balance_json(capsys, tmp_path, schedule))
+    first = _without_timings(_balance_json(cli, tmp_path, schedule))
+    second = _without_timings(_balance_json(cli, tmp_path, schedule))
     assert first == second
 
 
