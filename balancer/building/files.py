@@ -145,9 +145,16 @@ def index_file(path: str | Path) -> Path:
     path = Path(path)
     if path.is_dir():
         found = [path / n for n in INDEX_FILES if (path / n).is_file()]
-        if not found:
+        # a folder holding one building workbook (a Building sheet and a sheet per panel)
+        found = found or [p for p in sorted(path.glob("*.xlsx")) if _has_building_sheet(p)]
+        if len(found) != 1:
+            what = "more than one building workbook" if found else "no building index"
             raise ScheduleError(
-                Problem(str(path), f"the folder holds no {' or '.join(INDEX_FILES)}")
+                Problem(
+                    str(path),
+                    f"the folder holds {what}: name the file, or keep one "
+                    f"{' or '.join(INDEX_FILES)} (or one workbook with a 'Building' sheet)",
+                )
             )
         path = found[0]
     if not path.is_file():
@@ -155,6 +162,19 @@ def index_file(path: str | Path) -> Path:
     return path
 
 
+def _has_building_sheet(path: Path) -> bool:
+    """Whether a workbook has a sheet named like "Building" (its sheet list only is read)."""
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as book:
+            names = book.read("xl/workbook.xml")[:200_000].decode("utf-8", "replace")
+    except (OSError, KeyError, zipfile.BadZipFile):
+        return False
+    return 'name="Building"' in names or "name='Building'" in names
+
+
+# long: every problem in the index, its panels and its feeds is gathered before one refusal
 def read_building(path: str | Path) -> Building:
     """Read a building: a workbook with a ``Building`` index sheet and one sheet per panel, or
     an index file (``.csv``/``.xlsx``, or a folder holding ``building.xlsx``/``building.csv``)

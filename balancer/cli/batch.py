@@ -74,14 +74,19 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
         raise ScheduleError(
             Problem(", ".join(str(p) for p in paths), "no .xlsx or .csv schedules found")
         )
-    summary = args.summary or Path.cwd() / SUMMARY_NAME
+    # check writes nothing unless asked; balance writes revised workbooks, and so a summary
+    summary = args.summary
+    if summary is None and mode == "balance":
+        summary = Path.cwd() / SUMMARY_NAME
     refuse_inputs([summary], [t.path for t in tasks])
     rows = run_batch(tasks, args.jobs, Progress(len(tasks)).step)
-    written = write_summary(summary, rows, mode)
+    written = write_summary(summary, rows, mode) if summary is not None else None
     if args.json:
         files = [{k: getattr(r, k) for k in Row.__dataclass_fields__} for r in rows]
-        print(json.dumps({"files": files, "summary_workbook": str(written)}, indent=2))
+        book = None if written is None else str(written)
+        print(json.dumps({"files": files, "summary_workbook": book}, indent=2))
     else:
         print(summary_text(rows, mode))
-        print(f"\nSummary workbook: {written}")
+        if written is not None:
+            print(f"\nSummary workbook: {written}")
     return exit_status(rows)

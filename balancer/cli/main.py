@@ -4,6 +4,7 @@ become exit statuses."""
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -42,7 +43,9 @@ def _check_parser(commands: argparse._SubParsersAction[argparse.ArgumentParser])
         description="Read a schedule (.xlsx or .csv) and report per-line loads, imbalance, "
         "line and neutral currents. Nothing is written unless --pdf is given.",
     )
-    check.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
+    check.add_argument(
+        "schedule", type=Path, nargs="?", help="the panel schedule (.xlsx or .csv), or a folder"
+    )
     options.add_batch(check)
     check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     options.add_basis(check)
@@ -59,7 +62,9 @@ def _balance_parser(commands: argparse._SubParsersAction[argparse.ArgumentParser
         "(then the fewest moves, then the smallest neutral current), prove how good it is, and "
         "write a revised schedule workbook. The input file is never changed.",
     )
-    balance.add_argument("schedule", type=Path, help="the panel schedule (.xlsx or .csv)")
+    balance.add_argument(
+        "schedule", type=Path, nargs="?", help="the panel schedule (.xlsx or .csv), or a folder"
+    )
     options.add_batch(balance)
     balance.add_argument(
         "-o",
@@ -152,12 +157,39 @@ def _run(args: argparse.Namespace, parser: argparse.ArgumentParser) -> int:
     return building.run_command(args)
 
 
+SCHEDULE_SUFFIXES = (".xlsx", ".xlsm", ".csv")
+
+
+def _parse(parser: argparse.ArgumentParser, argv: Sequence[str] | None) -> argparse.Namespace:
+    """Parse, and give ``--pdf`` back the schedule it took: ``check --pdf office.xlsx`` means
+    the schedule office.xlsx with a PDF beside it, not a PDF named office.xlsx."""
+    args = parser.parse_args(argv)
+    pdf = getattr(args, "pdf", None)
+    taken = isinstance(pdf, str) and pdf.lower().endswith(SCHEDULE_SUFFIXES)
+    if taken and getattr(args, "schedule", None) is None:
+        args.schedule, args.pdf = Path(pdf), True
+    if hasattr(args, "schedule") and args.schedule is None:
+        parser.error(f"{args.command}: name the schedule to read (.xlsx or .csv), or a folder")
+    return args
+
+
+def _error_json(exc: BalancerError) -> str:
+    problems = [{"where": p.where, "what": p.what} for p in getattr(exc, "problems", ())]
+    return json.dumps(
+        {"error": str(exc), "exit_status": exc.exit_status, "problems": problems},
+        indent=2,
+        ensure_ascii=False,
+    )
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = _parse(parser, argv)
     try:
         return _run(args, parser)
     except BalancerError as exc:
+        if getattr(args, "json", False):
+            print(_error_json(exc))  # scripts read stdout; the exit status is the same
         print(f"balancer: {exc}", file=sys.stderr)
         return exc.exit_status
     except BrokenPipeError:  # output piped into head or a pager that closed early

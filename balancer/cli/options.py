@@ -41,7 +41,8 @@ def add_batch(parser: argparse.ArgumentParser) -> None:
         "--summary",
         type=Path,
         metavar="XLSX",
-        help=f"summary workbook to write (default: ./{SUMMARY_NAME})",
+        help=f"summary workbook to write (balance: default ./{SUMMARY_NAME}; check writes "
+        "one only when this is given)",
     )
 
 
