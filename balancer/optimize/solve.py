@@ -139,72 +139,103 @@ def solve_goal(
     begin = time.perf_counter()
     values = _start_values(model, start)
     if engine == "highs":
-        highs = _run_highs(model, values, limit, gap_abs, node_limit)
-        claimed = float(highs.getInfo().objective_function_value) + float(expr.constant)
-        if values and abs(claimed - evaluate(expr)) > 1e-6 * max(1.0, abs(claimed)):
-            # Seen with highspy 1.16: after a start, the reported objective (and so the bound)
-            # need not belong to the solution returned. Solve again without the start.
-            highs = _run_highs(
-                model, None, max(0.05, limit - (time.perf_counter() - begin)), gap_abs, node_limit
-            )
-        text = highs.modelStatusToString(highs.getModelStatus())
-        info = highs.getInfo()
-        bound = float(info.mip_dual_bound) + float(expr.constant)
-        has_solution = int(info.primal_solution_status) == int(
-            highspy.SolutionStatus.kSolutionStatusFeasible
-        )
-        infeasible = highs.getModelStatus() == highspy.HighsModelStatus.kInfeasible
+        run = _solve_highs(model, expr, values, limit, gap_abs, node_limit, begin)
     elif engine == "cbc":
-        if not cbc_available():
-            raise SolverError("the CBC engine is not available in this installation")
-        with tempfile.TemporaryDirectory() as folder:
-            if values:
-                for var in model.prob.variables():
-                    if var.name in values:
-                        var.setInitialValue(values[var.name])
-            solver = pulp.COIN_CMD(
-                path=PULP_CBC_CMD.pulp_cbc_path,
-                msg=False,
-                timeLimit=limit,
-                gapAbs=gap_abs,
-                gapRel=0.0,
-                warmStart=bool(values),
-            )
-            solver.tmpDir = folder
-            with quiet_stdout():
-                model.prob.solve(solver)
-        text = pulp.LpStatus[model.prob.status]
-        has_solution = model.prob.sol_status in (
-            pulp.LpSolutionOptimal,
-            pulp.LpSolutionIntegerFeasible,
-        )
-        infeasible = model.prob.status == pulp.LpStatusInfeasible
-        # PuLP gives no dual bound from CBC; a proven answer is within gap_abs of the optimum.
-        bound = -math.inf
+        run = _solve_cbc(model, values, limit, gap_abs)
     else:
         raise SolverError(f"unknown engine {engine!r}; use 'highs' or 'cbc'")
     seconds = time.perf_counter() - begin
-    if infeasible:
+    if run.infeasible:
         raise InfeasibleError(f"no arrangement satisfies the panel's rules ({goal} stage)")
-    if not has_solution:
+    if not run.has_solution:
         raise SolverError(
-            f"{engine} found no arrangement within {limit:.1f} s ({text}); raise the time limit"
+            f"{engine} found no arrangement within {limit:.1f} s ({run.text}); raise the time limit"
         )
     picks = tuple(model.chosen())
     if any(p < 0 for p in picks):
         raise SolverError(f"{engine} returned a fractional choice; the answer was discarded")
     value = evaluate(expr)
+    bound = run.bound
     if goal == "moves" and math.isfinite(bound):
         bound = math.ceil(bound - 1e-6)  # whole numbers of moves: the bound rounds up
     if engine == "cbc":
-        proven = model.prob.sol_status == pulp.LpSolutionOptimal
+        proven = run.optimal
         bound = value - gap_abs if proven else -math.inf
     else:
-        proven = (
-            highs.getModelStatus() == highspy.HighsModelStatus.kOptimal
-            and value - bound <= gap_abs + BOUND_SLACK * max(1.0, abs(value))
+        proven = run.optimal and value - bound <= gap_abs + BOUND_SLACK * max(1.0, abs(value))
+    return StageResult(goal, value, bound, proven, picks, seconds, run.text)
+
+
+@dataclass(frozen=True, slots=True)
+class _EngineRun:
+    """What an engine said about one solve, before the answer is checked."""
+
+    text: str  # the engine's own status, for the notes
+    bound: float  # its dual bound on the objective (-inf when it gives none)
+    has_solution: bool
+    infeasible: bool
+    optimal: bool  # the engine's claim of optimality, not yet compared with the gap
+
+
+def _solve_highs(
+    model: Model,
+    expr: pulp.LpAffineExpression,
+    values: dict[str, float] | None,
+    limit: float,
+    gap_abs: float,
+    node_limit: int | None,
+    begin: float,
+) -> _EngineRun:
+    highs = _run_highs(model, values, limit, gap_abs, node_limit)
+    claimed = float(highs.getInfo().objective_function_value) + float(expr.constant)
+    if values and abs(claimed - evaluate(expr)) > 1e-6 * max(1.0, abs(claimed)):
+        # Seen with highspy 1.16: after a start, the reported objective (and so the bound)
+        # need not belong to the solution returned. Solve again without the start.
+        highs = _run_highs(
+            model, None, max(0.05, limit - (time.perf_counter() - begin)), gap_abs, node_limit
         )
-    return StageResult(goal, value, bound, proven, picks, seconds, text)
+    info = highs.getInfo()
+    status = highs.getModelStatus()
+    return _EngineRun(
+        text=highs.modelStatusToString(status),
+        bound=float(info.mip_dual_bound) + float(expr.constant),
+        has_solution=int(info.primal_solution_status)
+        == int(highspy.SolutionStatus.kSolutionStatusFeasible),
+        infeasible=status == highspy.HighsModelStatus.kInfeasible,
+        optimal=status == highspy.HighsModelStatus.kOptimal,
+    )
+
+
+def _solve_cbc(
+    model: Model, values: dict[str, float] | None, limit: float, gap_abs: float
+) -> _EngineRun:
+    if not cbc_available():
+        raise SolverError("the CBC engine is not available in this installation")
+    with tempfile.TemporaryDirectory() as folder:
+        if values:
+            for var in model.prob.variables():
+                if var.name in values:
+                    var.setInitialValue(values[var.name])
+        solver = pulp.COIN_CMD(
+            path=PULP_CBC_CMD.pulp_cbc_path,
+            msg=False,
+            timeLimit=limit,
+            gapAbs=gap_abs,
+            gapRel=0.0,
+            warmStart=bool(values),
+        )
+        solver.tmpDir = folder
+        with quiet_stdout():
+            model.prob.solve(solver)
+    return _EngineRun(
+        text=pulp.LpStatus[model.prob.status],
+        # PuLP gives no dual bound from CBC; a proven answer is within gap_abs of the optimum.
+        bound=-math.inf,
+        has_solution=model.prob.sol_status
+        in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible),
+        infeasible=model.prob.status == pulp.LpStatusInfeasible,
+        optimal=model.prob.sol_status == pulp.LpSolutionOptimal,
+    )
 
 
 def evaluate(expr: pulp.LpAffineExpression) -> float:
