@@ -61,6 +61,8 @@ def _default_balance() -> BalanceFn:
     return balance  # type: ignore[no-any-return,unused-ignore]
 
 
+# long: one loop over the move budgets; each row's checks (budget kept, same goal, no row worse
+# than a smaller budget's, the early stop) read and change the rows before it
 def tradeoff(
     panel: Panel,
     options: BalanceOptions | None = None,
@@ -187,6 +189,8 @@ def imbalance_floor_pct(spread_va: float, total_va: float, line_count: int) -> f
     return 0.0 if average <= 0 else max(0.0, spread_va) / 2.0 / average * 100.0
 
 
+# long: the ways of settling the answer in order (the table's proof, proven impossible, the
+# optimiser asked directly, the table's unproven row), each returning its own wording
 def fewest_moves_to(
     table: Tradeoff,
     target_pct: float,

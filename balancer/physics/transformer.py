@@ -194,6 +194,7 @@ def _delta_windings(connection: Connection, secondary: System) -> tuple[Winding,
     return tuple(windings)
 
 
+# long: one branch per connection, each naming what it refuses for the two systems
 def make_transformer(
     name: str,
     kva: float,
