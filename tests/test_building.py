@@ -445,7 +445,7 @@ def test_feeder_demand_is_worked_out_on_all_the_loads_it_serves() -> None:
     from balancer.building.tree import demand_roll_up
 
     # Non-dwelling receptacles: first 10 kVA at 100 %, the rest at 50 % (NEC 220.44 in the
-    # 2020 edition, 220.47 in 2023; see REFERENCE.md). The subpanel's 8 kVA stays under 10 kVA;
+    # 2020 edition, 220.47 in 2023; F, docs/references.md). The subpanel's 8 kVA stays under 10 kVA;
     # the service serves 6 kVA + 8 kVA = 14 kVA → 10 000 + 0.5 × 4 000 = 12 000 VA, not the
     # 6 000 + 8 000 = 14 000 VA a sum of the two panels' demand loads would give.
     mdp = Panel(

@@ -87,8 +87,8 @@ def test_single_unity_pf_load_arrow_lies_on_its_voltage() -> None:
 
 
 def test_balanced_panel_has_near_zero_neutral() -> None:
-    """Equal unity-PF loads on A, B and C: the neutral sum vanishes (REFERENCE.md, balanced
-    three-phase; tolerance scaled to the line currents as the phasor notes advise)."""
+    """Equal unity-PF loads on A, B and C: the neutral sum vanishes (balanced three-phase,
+    common practice; docs/references.md); the tolerance is scaled to the line currents."""
     circuits = tuple(
         Circuit(id=str(s), description=f"load {s}", poles=1, load_va=1800.0, spaces=(s,))
         for s in (1, 3, 5)

@@ -5,9 +5,9 @@ from __future__ import annotations
 import math
 
 import pytest
+from conftest import panel_from
 
-from balancer.domain.panel import Circuit, Panel
-from balancer.domain.systems import get_system
+from balancer.domain.panel import Panel
 from balancer.physics.analysis import analyze
 from balancer.physics.phasors import nema_unbalance_pct, neutral_magnitude_unity_pf
 
@@ -16,11 +16,7 @@ ATOL_A = 1e-9
 
 def _panel(loads_va: list[float], system: str = "208Y/120") -> Panel:
     # spaces 1, 3, 5 are on lines A, B, C (common practice numbering)
-    circuits = tuple(
-        Circuit(str(s), f"load {s}", 1, va, (s,))
-        for s, va in zip((1, 3, 5), loads_va, strict=False)
-    )
-    return Panel("T", get_system(system), 12, circuits)
+    return panel_from([(1, va, (s,)) for s, va in zip((1, 3, 5), loads_va, strict=False)], system)
 
 
 @pytest.mark.parametrize("system", ["208Y/120", "480Y/277", "400Y/230"])
@@ -45,9 +41,7 @@ def test_neutral_current_matches_the_unity_pf_formula() -> None:
 def test_single_phase_neutral_is_the_difference_of_the_lines() -> None:
     # 120/240 V single-phase 3-wire: the two 120 V halves are 180° apart, so the neutral
     # carries the difference of the line currents (common practice).
-    system = get_system("120/240")
-    circuits = (Circuit("1", "a", 1, 1800.0, (1,)), Circuit("3", "b", 1, 600.0, (3,)))
-    loads = analyze(Panel("T", system, 12, circuits))
+    loads = analyze(panel_from([(1, 1800.0, (1,)), (1, 600.0, (3,))], "120/240"))
     assert loads.line_a == pytest.approx({"A": 15.0, "B": 5.0})
     assert loads.neutral_a == pytest.approx(10.0)
 
@@ -56,10 +50,10 @@ def test_single_phase_neutral_is_the_difference_of_the_lines() -> None:
     ("values", "expected_pct", "abs_tol"),
     [
         # NEMA MG 1 definition; example 462/463/455 V → 1.1 % (exact 1.087 %), from an
-        # eng-tips forum thread quoting the MG 1 method (REFERENCE.md).
+        # eng-tips forum thread quoting the MG 1 method (F; docs/references.md).
         ((462.0, 463.0, 455.0), 1.087, 0.001),
         # Trade-article example: 480/476/472 V → 0.84 %; (max − min)/average would wrongly
-        # give 1.68 % (REFERENCE.md).
+        # give 1.68 % (F; docs/references.md).
         ((480.0, 476.0, 472.0), 0.84, 0.001),
     ],
 )
@@ -72,15 +66,11 @@ def test_nema_unbalance_published_examples(
 def test_schedule_convention_splits_multipole_loads() -> None:
     # Common practice for panel schedules: a 2-pole line-to-line load counts half on each of
     # its lines, a 3-pole load a third on each.
-    system = get_system("208Y/120")
-    circuits = (
-        Circuit("1", "heater", 2, 3000.0, (1, 3)),
-        Circuit("2", "fan", 3, 9000.0, (2, 4, 6)),
-    )
-    loads = analyze(Panel("T", system, 12, circuits))
+    heater, fan = (2, 3000.0, (1, 3)), (3, 9000.0, (2, 4, 6))
+    loads = analyze(panel_from([heater, fan]))
     assert loads.phase_va == pytest.approx({"A": 4500.0, "B": 4500.0, "C": 3000.0})
     # the 2-pole 208 V load draws 3000/208 = 14.42 A in each of its lines
-    heater_only = analyze(Panel("T", system, 12, circuits[:1]))
+    heater_only = analyze(panel_from([heater]))
     assert heater_only.line_a["A"] == pytest.approx(3000 / 208)
     assert heater_only.neutral_a == pytest.approx(0.0, abs=ATOL_A)
 
@@ -89,7 +79,5 @@ def test_network_single_phase_neutral_does_not_cancel() -> None:
     # Two lines of a 208Y/120 wye are 120° apart, not 180°: 10 A and 5 A at unity PF leave
     # √(10² + 5² − 10·5) = √75 A on the neutral (the phasor sum; common practice for network
     # services), where a 120/240 V panel would carry the 5 A difference.
-    system = get_system("120/208 network")
-    circuits = (Circuit("1", "a", 1, 1200.0, (1,)), Circuit("3", "b", 1, 600.0, (3,)))
-    loads = analyze(Panel("T", system, 12, circuits))
+    loads = analyze(panel_from([(1, 1200.0, (1,)), (1, 600.0, (3,))], "120/208 network"))
     assert loads.neutral_a == pytest.approx(math.sqrt(75.0))

@@ -26,7 +26,7 @@ def _spread(subsets: list[list[float]]) -> float:
 
 def test_karmarkar_karp_reference_example() -> None:
     # Karmarkar & Karp, UCB/CSD 82/113 (1982), two-way {8,7,6,5,4}: differencing leaves 2,
-    # largest-first greedy 4, the optimum 0 (REFERENCE.md, number partitioning).
+    # largest-first greedy 4, the optimum 0 (C by hand; docs/references.md).
     values = [8, 7, 6, 5, 4]
     assert _spread(karmarkar_karp(values, 2)) == 2
     assert _spread(greedy_partition(values, 2)) == 4
@@ -145,8 +145,8 @@ def test_unreachable_target_is_reported() -> None:
 
 @pytest.mark.parametrize("objective", ["neutral", "line"])
 def test_current_goals(objective: str) -> None:
-    # Three equal unity-PF 1-pole loads on three lines cancel in the neutral (REFERENCE.md,
-    # balanced three-phase: the phasors sum to zero); all on A is the worst case.
+    # Three equal unity-PF 1-pole loads on three lines cancel in the neutral (balanced
+    # three-phase, common practice; docs/references.md); all on A is the worst case.
     circuits = tuple(
         Circuit(f"c{i}", "demo load", 1, 1200.0, spaces=(s,)) for i, s in enumerate((1, 2, 7))
     )

@@ -96,12 +96,12 @@ def test_malformed_user_file_names_the_problem(tmp_path: Path, text: str, messag
 
 
 def test_bundled_systems_are_consistent() -> None:
-    # Nominal figures from ANSI C84.1 / IEC 60038 (REFERENCE.md, F): the loader checks that
+    # Nominal figures from ANSI C84.1 / IEC 60038 (F; docs/references.md): the loader checks that
     # line-to-neutral phasors reproduce the line-to-line voltage within 2 %.
     systems = builtin_systems()
     assert len(systems) == 8
     high_leg = systems["240/120"]
-    # High leg ≈ 120·√3 = 208 V to neutral (REFERENCE.md, F).
+    # High leg ≈ 120·√3 = 208 V to neutral (C; NEC 408.3(E) puts it on B, F; docs/references.md).
     assert abs(high_leg.voltage_phasor("B")) == pytest.approx(120 * 3**0.5, rel=1e-5)
     for pair in (("A", "B"), ("B", "C"), ("C", "A")):
         assert abs(high_leg.voltage_phasor(pair[0]) - high_leg.voltage_phasor(pair[1])) == (

@@ -323,7 +323,8 @@ def test_cap_stops_the_table_and_says_so() -> None:
 
 
 def test_floor_against_the_nema_example() -> None:
-    # 462 / 463 / 455 V: NEMA MG 1 unbalance 1.087 % (REFERENCE.md, F). The floor from the
+    # 462 / 463 / 455 V: NEMA MG 1 unbalance 1.087 % (F: an eng-tips forum thread quoting the
+    # MG 1 method; docs/references.md). The floor from the
     # spread (8 / 2 / 460 = 0.870 %) is below it, as it must be.
     assert nema_unbalance_pct([462, 463, 455]) == pytest.approx(1.087, abs=0.001)
     assert imbalance_floor_pct(8.0, 462 + 463 + 455, 3) == pytest.approx(0.8696, abs=1e-4)

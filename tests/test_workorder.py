@@ -173,7 +173,8 @@ def test_expected_currents_are_those_of_the_new_layout() -> None:
     assert order.expected_line_a == pytest.approx(loads.line_a, abs=ATOL_A)
     assert order.expected_neutral_a == pytest.approx(loads.neutral_a, abs=ATOL_A)
     # 1200 VA / 120 V = 10 A on A, 600 VA / 120 V = 5 A on B; the neutral of two unity-PF
-    # currents 120° apart is √(10² + 5² − 10·5) = 8.66 A (REFERENCE.md closed form).
+    # currents 120° apart is √(10² + 5² − 10·5) = 8.66 A (C from the phasor sum, the closed
+    # form in docs/references.md).
     assert order.expected_line_a["A"] == pytest.approx(10.0)
     assert order.expected_neutral_a == pytest.approx(75**0.5)
 

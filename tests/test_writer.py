@@ -266,8 +266,9 @@ def test_phasor_table_matches_analysis(written: Path) -> None:
 
 def test_unity_pf_neutral_closed_form(written: Path) -> None:
     """The neutral the sheet states agrees with the closed form for unity-PF loads 120° apart
-    (REFERENCE.md: |I_N| = √(Ia² + Ib² + Ic² − IaIb − IbIc − IcIa), computed from the phasor
-    sum), using the 1-pole currents only: the 2- and 3-pole loads put nothing on the neutral."""
+    (|I_N| = √(Ia² + Ib² + Ic² − IaIb − IbIc − IcIa), C from the phasor sum;
+    docs/references.md), using the 1-pole currents only: the 2- and 3-pole loads put nothing on
+    the neutral."""
     panel = demo_result().after_panel
     amps = dict.fromkeys("ABC", 0.0)
     for c in panel.circuits:
