@@ -45,7 +45,7 @@ THIRD_ONLY = {"third": Profile("third", "invented: a third harmonic of 40 %", ((
 def test_balanced_third_harmonic_only_neutral_is_three_times_i3() -> None:
     """Balanced non-linear wye loads with only a third harmonic: I_N = 3·I3 (M: textbook
     result, e.g. Dugan, McGranaghan, Santoso & Beaty, Electrical Power Systems Quality,
-    chapter on harmonics; REFERENCE.md)."""
+    chapter on harmonics; docs/references.md)."""
     system = get_system("208Y/120")
     circuits = [with_profile(f"c{i}", s, 1800.0, "third") for i, s in enumerate((1, 3, 5))]
     loads = analyze(panel_of(system, circuits), THIRD_ONLY)
@@ -107,7 +107,7 @@ def test_delta_load_triplens_stay_out_of_the_lines() -> None:
 def test_switch_mode_panel_flags_neutral_above_phase() -> None:
     """Balanced switch-mode loads (bundled profile, typical values from memory): the triplens
     add to a neutral above the phase current, which NEC 310.15(E) counts as current-carrying
-    and 220.61(C) gives no demand reduction (F: NEC)."""
+    and 220.61(C) gives no demand reduction (F: NEC 2023; docs/references.md)."""
     system = get_system("208Y/120")
     circuits = [
         Circuit(f"pc{i}", "demo workstations", 1, 1440.0, spaces=(s,), load_class="computers")

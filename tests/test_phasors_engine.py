@@ -152,7 +152,7 @@ def test_time_domain_matches_phasors_mixed_pf_and_harmonics(designation: str) ->
 
 def test_balanced_three_phase_neutral_zero_and_power_constant() -> None:
     """Balanced wye: I_N = 0 and p(t) = 3·Vm·Im/2·cos θ at every instant (common practice, any
-    circuits textbook; REFERENCE.md)."""
+    circuits textbook; docs/references.md)."""
     system = get_system("480Y/277")
     pf = 0.82
     circuits = [
@@ -210,7 +210,7 @@ def test_v_ab_leads_v_a_by_thirty_degrees() -> None:
 
 def test_high_leg_neutral_is_difference_of_a_and_c() -> None:
     """240/120 V high-leg delta: A-N and C-N are 180° apart, so at unity PF the neutral is
-    |I_A − I_C| (C from the phasor sum, REFERENCE.md)."""
+    |I_A − I_C| (C from the phasor sum; docs/references.md)."""
     system = get_system("240/120")
     circuits = [
         Circuit("a1", "demo", 1, 1800.0, spaces=(1,)),
@@ -315,7 +315,7 @@ def test_pure_sequences() -> None:
 
 def test_nema_and_negative_sequence_unbalance_side_by_side() -> None:
     """Line-to-line voltages 462/463/455 V: NEMA MG 1 1.087 % (F: eng-tips thread quoting the
-    MG 1 method) and |V2|/|V1| = 1.091 % (C, REFERENCE.md) once the three phasors close a
+    MG 1 method) and |V2|/|V1| = 1.091 % (C; docs/references.md) once the three phasors close a
     triangle (Kirchhoff: V_ab + V_bc + V_ca = 0, angles by the law of cosines)."""
     a, b, c = 462.0, 463.0, 455.0
     assert nema_unbalance_pct((a, b, c)) == pytest.approx(1.087, abs=5e-4)
@@ -331,7 +331,8 @@ def test_nema_and_negative_sequence_unbalance_side_by_side() -> None:
     beta = (a**4 + b**4 + c**4) / (a * a + b * b + c * c) ** 2
     root = math.sqrt(3 - 6 * beta)
     assert factor == pytest.approx(100 * math.sqrt((1 - root) / (1 + root)), rel=1e-9)
-    assert nema_unbalance_pct((480.0, 476.0, 472.0)) == pytest.approx(0.84, abs=5e-3)  # F, trade
+    # F: a trade article on motor voltage unbalance (docs/references.md)
+    assert nema_unbalance_pct((480.0, 476.0, 472.0)) == pytest.approx(0.84, abs=5e-3)
 
 
 def test_analysis_reports_both_unbalance_figures() -> None:
@@ -347,7 +348,7 @@ def test_analysis_reports_both_unbalance_figures() -> None:
     expected = unbalance_factor_pct(*phasors)
     assert loads.unbalance_factor_pct == pytest.approx(expected)
     assert loads.imbalance_pct == pytest.approx(50.0)  # (3000 − 2000) / 2000
-    # Unity-PF closed form for the neutral (C, REFERENCE.md).
+    # Unity-PF closed form for the neutral (C; docs/references.md).
     ia, ib, ic = currents
     closed = math.sqrt(ia * ia + ib * ib + ic * ic - ia * ib - ib * ic - ic * ia)
     assert loads.neutral_a == pytest.approx(closed)
