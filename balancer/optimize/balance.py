@@ -61,11 +61,6 @@ UNDO_S = 5.0  # undoing needless changes from the schedule as it stands
 FEWEST_S = 5.0  # the fewest changed units within the spread cap, proven
 TIEBREAK_NODES = 0  # branch-and-bound nodes for each tie-breaking current goal
 TIEBREAK_S = 5.0  # ... and its safety net
-SAFETY_NOTE = (
-    "Moving breakers is work on energised equipment: qualified persons only, de-energise and "
-    "verify absence of voltage with a meter first; the adopted code, local amendments and the "
-    "authority having jurisdiction govern."
-)
 
 
 def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResult:
@@ -187,7 +182,7 @@ def _nothing_to_rearrange(
         before.spread_va,
         (),
         time.perf_counter() - begin,
-        ("every circuit keeps its spaces; nothing to rearrange", SAFETY_NOTE),
+        ("every circuit keeps its spaces; nothing to rearrange",),
         first_goal=goal.name,
         goal_value=value,
         goal_bound=value,  # the only arrangement there is
@@ -369,7 +364,6 @@ def _result(
     spread_bound = min(spread_bound, after.loads.spread_va)
     if options.max_moves is not None and layout.count_moves:
         notes.append(f"limited to at most {options.max_moves} moves; the bound holds within it")
-    notes.append(SAFETY_NOTE)
     first_goal = next(g for g in goals if g != "moves")
     first_stage = next(s for s in stages if s.goal == first_goal)
     return BalanceResult(
