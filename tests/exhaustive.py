@@ -76,7 +76,8 @@ def random_panel(
     circuits: list[Circuit] = []
     taken: set[int] = set()
     if multiwire:
-        # A multiwire pair on two lines: adjacent spaces of one side (NEC 210.4 handle tie).
+        # A multiwire pair on two lines: adjacent spaces of one side (NEC 2023 210.4 handle tie, F;
+        # docs/references.md).
         first = rng.choice([s for s in range(1, spaces - 1)])
         circuits += [
             Circuit("m1", "mwbc 1", 1, 700.0, (first,), group="G"),

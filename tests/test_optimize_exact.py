@@ -3,7 +3,8 @@
 The reference enumerates every legal placement by dynamic programming over occupied spaces, with
 its own reading of the rules (written apart from the engine): odd left / even right, row r on
 line r mod n (common practice), k-pole spans n, n+2, …, multiwire members adjacent on one side
-on different lines (NEC 210.4), no 1-pole load on a high leg (NEC 408.3(E) puts it on B).
+on different lines (NEC 2023 210.4), no 1-pole load on a high leg (NEC 408.3(E) puts it on B); F,
+docs/references.md.
 """
 
 from __future__ import annotations

@@ -4,8 +4,8 @@ Fixed loads are locked 1-pole circuits (as the fixed parts of feeders are modell
 loads are any whole VA, or come from a short list scaled to 277 V. The referees are written
 apart from the engine: exhaustive search over spaces or over lines, with their own reading of
 the rules: odd left / even right, row r on line r mod n, a k-pole breaker on spaces n, n+2, …
-(common practice), multiwire members adjacent on one side on different lines (NEC 210.4), no
-line-to-neutral load on a high leg (NEC 408.3(E) puts it on B).
+(common practice), multiwire members adjacent on one side on different lines (NEC 2023 210.4), no
+line-to-neutral load on a high leg (NEC 408.3(E) puts it on B); F, docs/references.md.
 """
 
 from __future__ import annotations

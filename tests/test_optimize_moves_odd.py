@@ -4,7 +4,7 @@ The invented panels carry any whole-VA loads, so a near-perfect split has to be 
 many near-equal ones and the move count is the hard part. The references below enumerate with
 their own reading of the rules, written apart from the engine: odd spaces left, even right,
 row r on line r mod n (common practice); a k-pole breaker spans n, n + 2, … on distinct lines;
-multiwire members adjacent on one side on different lines (NEC 210.4, from memory).
+multiwire members adjacent on one side on different lines (NEC 2023 210.4, F; docs/references.md).
 """
 
 from __future__ import annotations

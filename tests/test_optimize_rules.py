@@ -1,10 +1,10 @@
 """Each panelboard rule the engine enforces, on small invented panels (demo data made up here).
 
 Sources of the rules checked: multiwire members on different lines and opened together, so on
-adjacent spaces of one side for one handle tie or multipole breaker (NEC 210.4); no 1-pole load
-on the high leg, which NEC 408.3(E) puts on B; odd-left / even-right numbering with rows taking
-the lines in turn (common practice, no published source). Expected figures are computed by hand
-in the comments.
+adjacent spaces of one side for one handle tie or multipole breaker (NEC 2023 210.4, F); no
+1-pole load on the high leg, which NEC 408.3(E) puts on B (F); odd-left / even-right numbering
+with rows taking the lines in turn (common practice, no published source); see
+docs/references.md. Expected figures are computed by hand in the comments.
 """
 
 from __future__ import annotations

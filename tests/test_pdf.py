@@ -141,8 +141,8 @@ def test_demand_summary_and_page(tmp_path: Path) -> None:
 
 
 def test_long_descriptions_shrink_before_they_are_cut(tmp_path: Path) -> None:
-    """The directory must stay legible and complete (NEC 408.4): a 36-character description is
-    set in smaller type rather than cut."""
+    """The directory must stay legible and complete (NEC 408.4, from memory): a 36-character
+    description is set in smaller type rather than cut."""
     base = demo_panel()
     long_name = "Demo receptacles, north open office"
     assert len(long_name) >= 35

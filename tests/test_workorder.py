@@ -310,7 +310,7 @@ def test_random_layouts_replay_without_double_booking(seed: int, spaces: int, fi
 
 
 def test_one_pole_breaker_never_parks_on_the_high_leg() -> None:
-    # 240/120 V high-leg delta: B is the high leg (NEC 110.15, 408.3(E)); spaces 3 and 4 are
+    # 240/120 V high-leg delta: B is the high leg (NEC 2023 110.15, 408.3(E), F); spaces 3 and 4 are
     # the only free ones, so the swap of x and y must set one breaker aside instead.
     before = _panel(
         6,
