@@ -16,6 +16,7 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
 import pytest
+from conftest import slow_cases
 from exhaustive import all_layouts, random_panel
 
 from balancer.domain.panel import Panel
@@ -133,8 +134,9 @@ def _first_goal(panel: Panel, goal: str) -> str:
     return goal
 
 
+# seed 4's panel takes about 4 s over the goals, the others 2 s or less: whole suite only
 @pytest.mark.parametrize("goal", GOALS)
-@pytest.mark.parametrize("seed", range(10))
+@pytest.mark.parametrize("seed", slow_cases(range(10), slow={4}))
 def test_placed_panel_rows_and_pick_follow_the_goal(goal: str, seed: int) -> None:
     panel = _panel(seed)
     options = _options(panel, goal, fresh=False)
@@ -179,7 +181,7 @@ def test_placed_panel_rows_and_pick_follow_the_goal(goal: str, seed: int) -> Non
 
 
 @pytest.mark.parametrize("goal", GOALS)
-@pytest.mark.parametrize("seed", range(5))
+@pytest.mark.parametrize("seed", slow_cases(range(5), slow={4}))
 def test_fresh_layout_reaches_the_goals_least(goal: str, seed: int) -> None:
     panel = _panel(seed)
     result, run = _run(panel, _options(panel, goal, fresh=True))
