@@ -6,6 +6,7 @@ Panels here are invented test data built in code or the bundled demo building.
 
 from __future__ import annotations
 
+import functools
 import json
 from dataclasses import replace
 from pathlib import Path
@@ -15,7 +16,14 @@ from openpyxl import Workbook, load_workbook
 
 from balancer.building.files import panel_sheet_names, read_building, write_building_sheets
 from balancer.building.report import work_order_rows, write_building_workbook
-from balancer.building.tree import Building, Feed, balance_building, make_building, roll_up
+from balancer.building.tree import (
+    Building,
+    BuildingResult,
+    Feed,
+    balance_building,
+    make_building,
+    roll_up,
+)
 from balancer.cli.main import main
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions
@@ -133,9 +141,15 @@ def test_written_building_reads_back_with_its_feeds_transformers_and_swaps(
     _same_figures(building, again)
 
 
-def test_revised_demo_building_reads_back_with_the_balanced_figures(tmp_path: Path) -> None:
+@functools.cache
+def _balanced_demo() -> tuple[Building, BuildingResult]:
+    """The demo building and its balancing, worked out once for the tests that only read them."""
     building = read_building(DEMO_BOOK)
-    result = balance_building(building, BalanceOptions(time_limit_s=20.0))
+    return building, balance_building(building, BalanceOptions(time_limit_s=20.0))
+
+
+def test_revised_demo_building_reads_back_with_the_balanced_figures(tmp_path: Path) -> None:
+    building, result = _balanced_demo()
     out = tmp_path / "revised.xlsx"
     write_building_workbook(out, building, result.before_figures, result)
     again = read_building(out)
@@ -168,8 +182,7 @@ def test_revised_demo_building_reads_back_with_the_balanced_figures(tmp_path: Pa
 
 
 def test_work_order_rows_replay_to_the_revised_layout_and_expect_the_rolled_up_amps() -> None:
-    building = read_building(DEMO_BOOK)
-    result = balance_building(building, BalanceOptions(time_limit_s=20.0))
+    _, result = _balanced_demo()
     rows = work_order_rows(result)
     assert any("qualified persons" in str(r[1]) for r in rows if len(r) > 1)
     titles = [r[0] for r in rows if len(r) == 1]
@@ -253,6 +266,7 @@ def test_building_balance_writes_beside_the_index_by_default(
     assert read_building(written).panel("MDP").spaces == 42
 
 
+@pytest.mark.slow  # the demo building end to end: balanced, then printed, 6 s here
 def test_building_printout_has_every_directory_and_the_work_orders(
     tmp_path: Path, capsys: pytest.CaptureFixture[str]
 ) -> None:

@@ -10,7 +10,8 @@ from collections.abc import Callable
 from pathlib import Path
 
 import pytest
-from openpyxl import Workbook, load_workbook
+from conftest import write_schedule
+from openpyxl import load_workbook
 
 from balancer.cli.main import main
 
@@ -29,15 +30,7 @@ EXTERNAL = b'<?xml version="1.0"?><!DOCTYPE x [<!ENTITY xxe SYSTEM "file:///etc/
 
 
 def _workbook(path: Path, rows: list[list[object]] | None = None) -> Path:
-    book = Workbook()
-    sheet = book.active
-    assert sheet is not None
-    sheet.title = "Circuits"
-    sheet.append(["Circuit", "Description", "Poles", "Load (VA)"])
-    for row in rows or [[1, "Lighting", 1, 1200], [3, "Receptacles", 1, 900]]:
-        sheet.append(row)
-    book.save(path)
-    return path
+    return write_schedule(path, rows or [[1, "Lighting", 1, 1200], [3, "Receptacles", 1, 900]])
 
 
 def _rewrite(path: Path, part: str, change: Callable[[bytes], bytes]) -> Path:
