@@ -7,6 +7,7 @@ import math
 import random
 
 import pytest
+from conftest import panel_from
 
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions, SolveStatus
@@ -30,12 +31,7 @@ def test_karmarkar_karp_reference_example() -> None:
     values = [8, 7, 6, 5, 4]
     assert _spread(karmarkar_karp(values, 2)) == 2
     assert _spread(greedy_partition(values, 2)) == 4
-    panel = Panel(
-        "demo",
-        get_system("120/240"),
-        12,
-        tuple(Circuit(f"c{v}", "demo load", 1, float(v)) for v in values),
-    )
+    panel = panel_from([(1, v, ()) for v in values], "120/240")
     result = balance(panel, BalanceOptions(fresh=True, tolerance_va=0.1))
     assert result.after.spread_va == pytest.approx(0.0, abs=ATOL_VA)
     assert result.status is SolveStatus.OPTIMAL
@@ -165,24 +161,14 @@ def test_combinatorial_bound_largest_load_and_granularity() -> None:
     system = get_system("208Y/120")
     # One 5000 VA load and two of 100 VA: some line carries 5000, the lightest at most
     # (5200 − 5000)/2 = 100, so spread ≥ 4900, which is also the optimum.
-    big = Panel(
-        "demo",
-        system,
-        6,
-        tuple(Circuit(f"c{i}", "demo", 1, v) for i, v in enumerate((5000.0, 100.0, 100.0))),
-    )
+    big = panel_from([(1, v, ()) for v in (5000.0, 100.0, 100.0)], system, spaces=6)
     layout = build_layout(big, BalanceOptions(fresh=True))
     assert spread_lower_bound(layout) == pytest.approx(4900.0)
     result = balance(big, BalanceOptions(fresh=True))
     assert result.after.spread_va == pytest.approx(4900.0)
     assert result.lower_bound_spread_va == pytest.approx(4900.0)
     # Whole-VA loads totalling 10 VA cannot split evenly three ways: spread ≥ 1 VA.
-    odd = Panel(
-        "demo",
-        system,
-        12,
-        tuple(Circuit(f"c{i}", "demo", 1, v) for i, v in enumerate((3.0, 3.0, 3.0, 1.0))),
-    )
+    odd = panel_from([(1, v, ()) for v in (3.0, 3.0, 3.0, 1.0)], system)
     assert spread_lower_bound(build_layout(odd, BalanceOptions(fresh=True))) == pytest.approx(1.0)
 
 
