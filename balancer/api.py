@@ -8,7 +8,7 @@ Nothing here parses arguments or prints; errors are raised (see :mod:`balancer.e
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -36,8 +36,10 @@ __all__ = [
     "FieldChoices",
     "Supply",
     "balance_panel",
+    "balance_row",
     "check_panel",
     "default_output",
+    "lock_circuits",
     "refuse_inputs",
     "run_balance",
     "run_building",
@@ -321,3 +323,47 @@ def write_building(
             )
         )
     return replace(report, written=tuple(written))
+
+
+def lock_circuits(panel: Panel, locks: Mapping[str, bool]) -> Panel:
+    """The panel with the circuits named in ``locks`` held in their spaces (True) or free to
+    move (False); the others as read. An id the panel does not have is a ScheduleError."""
+    known = {c.id for c in panel.circuits}
+    unknown = [cid for cid in locks if cid not in known]
+    if unknown:
+        raise ScheduleError(
+            [Problem(f"circuit {cid}", "is not in the schedule") for cid in unknown]
+        )
+    return panel.with_circuits(
+        [replace(c, locked=bool(locks[c.id])) if c.id in locks else c for c in panel.circuits]
+    )
+
+
+def balance_row(
+    report: BalanceReport, row: int | None, demand: DemandOptions | None = None
+) -> BalanceReport:
+    """The report for one arrangement of the trade-off table (``row`` indexes its rows; None is
+    the recommended arrangement itself): that arrangement with the row's status, its work order
+    and its revised panel's demand, the table and the recommendation kept beside it, so its
+    workbook, PDF and JSON are written as for the recommended one."""
+    from balancer.domain.result import SolveStatus
+    from balancer.field.workorder import work_order_for
+
+    if row is None:
+        return report
+    table = report.field.table
+    if table is None or not 0 <= row < len(table.rows):
+        raise ScheduleError(Problem("row", f"the trade-off table has no row {row}"))
+    status = table.rows[row].status
+    chosen = table.results[row]
+    result = replace(
+        chosen,
+        status=status,  # an unproven row keeps a smaller budget's arrangement: not proven here
+        goal_proven=chosen.goal_proven and status is SolveStatus.OPTIMAL,
+        tradeoff=report.result.tradeoff,
+        recommendation=report.result.recommendation,
+    )
+    field = replace(report.field, order=work_order_for(result))
+    return replace(
+        report, result=result, field=field, demand=_demand(result.after_panel, demand), written=()
+    )

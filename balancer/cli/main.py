@@ -10,7 +10,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from balancer import __version__
-from balancer.cli import batch, building, options, single
+from balancer.cli import batch, building, options, serve, single
 from balancer.errors import BalancerError
 
 EXIT_OK, EXIT_BAD_INPUT, EXIT_SOLVER, EXIT_INFEASIBLE = 0, 2, 3, 4
@@ -22,6 +22,7 @@ Spread a panelboard's branch circuits across its phases.
   balance  find the best arrangement of circuits in spaces and write a revised schedule
   demo     run balance on a bundled sample schedule (demo data)
   building roll up and balance a whole building of panels feeding panels
+  serve    the whole job in a browser on this machine
 
 check and balance take a folder or several schedules too: a batch run in parallel
 with a summary table and workbook.
@@ -130,6 +131,7 @@ def build_parser() -> argparse.ArgumentParser:
     _check_parser(commands)
     _balance_parser(commands)
     building.add_command(commands)
+    serve.add_command(commands)
     demo = commands.add_parser(
         "demo",
         help="balance a bundled sample schedule (demo data)",
@@ -154,6 +156,8 @@ def _run(args: argparse.Namespace, parser: argparse.ArgumentParser) -> int:
         return single.run_balance(args)
     if args.command == "demo":
         return single.run_demo(args, parser)
+    if args.command == "serve":
+        return serve.run(args)
     return building.run_command(args)
 
 

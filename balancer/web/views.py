@@ -1,0 +1,156 @@
+"""What the page shows, as JSON: the reports' own JSON (:mod:`balancer.report.json`) and beside
+it the panel drawn as built and the charts. Nothing here computes a figure; it only arranges
+what the reports carry."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from balancer.api import BalanceReport, CheckReport
+from balancer.domain.panel import Panel
+from balancer.field.tradeoff import _status_text
+from balancer.field.workorder import ACTION_TEXT
+from balancer.report.json import balance_json, check_json
+from balancer.report.safety import CAUTIONS
+from balancer.web import svg
+
+
+def panel_facts(panel: Panel) -> dict[str, Any]:
+    """The system's high leg, if any, and its voltage to neutral (NEC 110.15)."""
+    system = panel.system
+    high = system.high_leg
+    facts: dict[str, Any] = {
+        "lines": list(system.lines),
+        "high_leg": high,
+        "neutral": system.neutral,
+    }
+    if high is not None:
+        facts["high_leg_v"] = system.line_to_neutral_v[system.lines.index(high)]
+    return facts
+
+
+def layout(panel: Panel, before: Panel | None = None) -> dict[str, Any]:
+    """The panel as it is built: rows of two spaces (odd left, even right) with their line, and
+    each breaker with the spaces it spans; against ``before``, which breakers moved or are new."""
+    geometry = panel.geometry
+    rows = []
+    for row in range(geometry.rows()):
+        left, right = 2 * row + 1, 2 * row + 2
+        rows.append(
+            {
+                "left": left,
+                "right": right if right <= panel.spaces else None,
+                "line": geometry.line_of(left),
+            }
+        )
+    was = {c.id: c.spaces for c in before.circuits} if before is not None else {}
+    breakers: list[dict[str, Any]] = []
+    unplaced: list[dict[str, Any]] = []
+    for c in panel.circuits:
+        entry = {
+            "id": c.id,
+            "description": c.description,
+            "poles": c.poles,
+            "load_va": c.load_va,
+            "trip_a": c.trip_a,
+            "spaces": list(c.spaces),
+            "lines": list(panel.lines_of(c)),
+            "locked": c.locked,
+            "spare": c.is_spare,
+            "group": c.group,
+            "from": list(was.get(c.id, ())),
+            "moved": before is not None and bool(was.get(c.id)) and was.get(c.id) != c.spaces,
+            "new": before is not None and not was.get(c.id) and c.placed,
+        }
+        (breakers if c.placed else unplaced).append(entry)
+    return {"spaces": panel.spaces, "rows": rows, "breakers": breakers, "unplaced": unplaced}
+
+
+def check_view(report: CheckReport, name: str) -> dict[str, Any]:
+    data = check_json(report)
+    data["panel"]["source"] = name
+    panel = report.panel
+    facts = panel_facts(panel)
+    return {
+        "name": name,
+        "check": data,
+        "facts": facts,
+        "layout": layout(panel),
+        "bars": svg.line_bars(
+            [("as it stands", report.loads.phase_va)], panel.lines, facts["high_leg"]
+        ),
+    }
+
+
+def _same_layout(first: Panel, second: Panel) -> bool:
+    return {c.id: c.spaces for c in first.circuits} == {c.id: c.spaces for c in second.circuits}
+
+
+def recommended_row(report: BalanceReport) -> int | None:
+    """The trade-off row whose arrangement is the recommended one, if any."""
+    table = report.field.table
+    if table is None:
+        return None
+    for index, candidate in enumerate(table.results):
+        if _same_layout(candidate.after_panel, report.result.after_panel):
+            return index
+    return None
+
+
+def table_view(report: BalanceReport, selected: int | None) -> dict[str, Any]:
+    """The trade-off table, the recommendation and the chart, with ``selected`` marked."""
+    table = report.field.table
+    field = report.field.to_json()
+    rows = field["tradeoff"]
+    for row, source in zip(rows, table.rows if table else (), strict=True):
+        row["status_text"] = _status_text(source.status)
+    recommended = recommended_row(report)
+    result = report.result
+    return {
+        "rows": rows,
+        "notes": list(table.notes) if table else [],
+        "recommended_row": recommended,
+        "recommendation": field["recommendation"],
+        "target": field["target"],
+        "recommended": {
+            "moves": len(result.moves),
+            "spread_va": result.after.spread_va,
+            "imbalance_pct": result.after.imbalance_pct,
+            "neutral_a": result.after.neutral_a,
+            "status": result.status.value,
+            "status_text": _status_text(result.status),
+        },
+        "chart": svg.tradeoff_chart(
+            table.rows if table else (),
+            recommended if selected is None else selected,
+            recommended,
+        ),
+    }
+
+
+def arrangement_view(
+    original: BalanceReport, report: BalanceReport, name: str, row: int | None
+) -> dict[str, Any]:
+    """One arrangement (``report``, from :func:`balancer.api.balance_row` on ``original``): its
+    JSON report, the panel drawn with the moves marked, the bars before and after, the cautions
+    and the trade-off table with this row marked."""
+    data = balance_json(report)
+    data["panel"]["source"] = name
+    result = report.result
+    order = report.field.order
+    facts = panel_facts(result.after_panel)
+    return {
+        "row": row,
+        "balance": data,
+        "status_text": _status_text(result.status),
+        "actions": dict(ACTION_TEXT),
+        "facts": facts,
+        "layout": layout(result.after_panel, result.before_panel),
+        "bars": svg.line_bars(
+            [("as it stands", result.before.phase_va), ("arranged", result.after.phase_va)],
+            result.after_panel.lines,
+            facts["high_leg"],
+        ),
+        "cautions": list(order.cautions if order is not None else CAUTIONS),
+        "table": table_view(original, row),
+    }
