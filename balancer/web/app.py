@@ -357,7 +357,7 @@ def create_app(
         finally:
             sessions.close()
 
-    return Starlette(
+    app = Starlette(
         routes=web.routes(),
         middleware=[
             Middleware(SecurityHeaders),
@@ -365,3 +365,5 @@ def create_app(
         ],
         lifespan=lifespan,
     )
+    app.state.web = web
+    return app

@@ -79,7 +79,7 @@ class _Reader:
         return self.data.get(key) is True
 
     def locks(self) -> dict[str, bool]:
-        value = self.data.get("locks") or {}
+        value = self.data.get("locks", {})
         if not isinstance(value, dict) or not all(
             isinstance(k, str) and isinstance(v, bool) for k, v in value.items()
         ):

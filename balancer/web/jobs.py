@@ -10,12 +10,13 @@ server and never shown to the browser.
 from __future__ import annotations
 
 import logging
-import multiprocessing
+import pickle
+import subprocess
+import sys
 import threading
 import time
 import traceback
 from dataclasses import dataclass, field, replace
-from multiprocessing.connection import Connection
 from pathlib import Path
 from typing import Any, Literal
 
@@ -54,15 +55,14 @@ def solve(request: SolveRequest) -> api.BalanceReport:
     return api.balance_panel(panel, chosen.options, chosen.field, chosen.demand, chosen.supply)
 
 
-def _work(conn: Connection, request: SolveRequest) -> None:
+def work(request: SolveRequest) -> tuple[str, Any]:
+    """What the worker process sends back: the report, the located problems, or a trace."""
     try:
-        conn.send(("done", solve(request)))
+        return "done", solve(request)
     except BalancerError as exc:
-        conn.send(("error", problems_of(exc)))
+        return "error", problems_of(exc)
     except Exception:
-        conn.send(("crash", traceback.format_exc()))
-    finally:
-        conn.close()
+        return "crash", traceback.format_exc()
 
 
 @dataclass(slots=True)
@@ -77,34 +77,35 @@ class Job:
     state: State = "running"
     report: api.BalanceReport | None = None
     problems: list[Problem] = field(default_factory=list)
-    downloads: dict[tuple[str, str], Path] = field(default_factory=dict)
     lock: threading.Lock = field(default_factory=threading.Lock)
     _process: Any = None
 
     def start(self) -> None:
-        context = multiprocessing.get_context("spawn")  # no fork of a threaded server
-        receive, send = context.Pipe(duplex=False)
-        self._process = context.Process(
-            target=_work, args=(send, self.request), name=f"balance-{self.id[:8]}", daemon=True
+        """Start the worker (``python -m balancer.web.worker``: a fresh interpreter, not a fork
+        of the threaded server); the request goes in on its standard input, pickled, and the
+        answer comes back on its standard output."""
+        self._process = subprocess.Popen(
+            [sys.executable, "-m", "balancer.web.worker"],
+            stdin=subprocess.PIPE,
+            stdout=subprocess.PIPE,
         )
-        self._process.start()
-        send.close()
-        threading.Thread(target=self._wait, args=(receive,), daemon=True).start()
+        threading.Thread(target=self._wait, daemon=True).start()
 
-    def _wait(self, receive: Connection) -> None:
+    def _wait(self) -> None:
+        process = self._process
+        message = None
         try:
-            message = receive.recv()
-        except (EOFError, OSError):
+            answer, _ = process.communicate(pickle.dumps(self.request))
+            if process.returncode == 0 and answer:
+                message = pickle.loads(answer)  # from our own worker process only
+        except (OSError, ValueError, pickle.UnpicklingError, EOFError):
             message = None
-        finally:
-            receive.close()
-        self._process.join()
         with self.lock:
             self.finished = time.monotonic()
             if self.state == "cancelled":
                 return  # discarded
             if message is None:
-                LOG.error("balance job %s: worker ended with %s", self.id, self._process.exitcode)
+                LOG.error("balance job %s: worker ended with %s", self.id, process.returncode)
                 self.state, self.problems = "failed", [Problem("", GENERIC_FAILURE)]
             elif message[0] == "done":
                 self.state, self.report = "done", message[1]
@@ -121,11 +122,17 @@ class Job:
                 return
             self.state = "cancelled"
             self.finished = time.monotonic()
-        if self._process is not None and self._process.is_alive():
-            self._process.terminate()
-            self._process.join(5)
-            if self._process.is_alive():
-                self._process.kill()
+        process = self._process
+        if process is not None and process.poll() is None:
+            process.terminate()
+            try:
+                process.wait(5)
+            except subprocess.TimeoutExpired:
+                process.kill()
+                process.wait()
+
+    def alive(self) -> bool:
+        return self._process is not None and self._process.poll() is None
 
     def elapsed_s(self) -> float:
         return (self.finished or time.monotonic()) - self.started
