@@ -170,7 +170,7 @@ def _parse(parser: argparse.ArgumentParser, argv: Sequence[str] | None) -> argpa
     args = parser.parse_args(argv)
     pdf = getattr(args, "pdf", None)
     taken = isinstance(pdf, str) and pdf.lower().endswith(SCHEDULE_SUFFIXES)
-    if taken and getattr(args, "schedule", None) is None:
+    if taken and hasattr(args, "schedule") and args.schedule is None:
         args.schedule, args.pdf = Path(pdf), True
     if hasattr(args, "schedule") and args.schedule is None:
         parser.error(f"{args.command}: name the schedule to read (.xlsx or .csv), or a folder")
