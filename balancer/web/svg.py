@@ -75,14 +75,14 @@ def line_bars(
     panel as it stands and an arrangement); the first of two series is drawn hollow."""
     colours = {line: HIGH_LEG_COLOUR if line == high_leg else LINE_COLOUR[line] for line in lines}
     top = max((abs(v) for _, values in series for v in values.values()), default=0.0) or 1.0
-    bar_h, gap, left, width = 26, 16, 150, 720
-    reach = width - left - 130
+    bar_h, gap, left, width = 30, 14, 150, 560
+    reach = width - left - 150
     body = [_defs(colours)]
     y = 12.0
     words = []
     for line in lines:
         name = f"Line {line}" + (" (high leg)" if line == high_leg else "")
-        body.append(_text(8, y + bar_h * len(series) / 2 + 6, name, size=16, font_weight="bold"))
+        body.append(_text(8, y + bar_h * len(series) / 2 + 4, name, size=17, font_weight="bold"))
         for index, (label, values) in enumerate(series):
             value = values.get(line, 0.0)
             length = max(2.0, reach * abs(value) / top)
@@ -93,7 +93,7 @@ def line_bars(
                 f'fill="{fill}" stroke="{colours[line]}" stroke-width="2"/>'
             )
             tag = f"{value:,.0f} VA" + (f"  {label}" if len(series) > 1 else "")
-            body.append(_text(left + length + 8, y + bar_h - 9, tag, size=14))
+            body.append(_text(left + length + 8, y + bar_h - 10, tag, size=15))
             words.append(f"line {line} {label} {value:,.0f} VA")
             y += bar_h
         y += gap
@@ -110,7 +110,7 @@ def tradeoff_chart(
     """Imbalance for at most 0, 1, 2, … moves: a bar per trade-off row; proven rows solid,
     unproven hatched; the row shown marked with a triangle and "shown", the recommended one
     with "recommended"."""
-    width, height, left, bottom, top_pad = 720, 300, 64, 58, 46
+    width, height, left, bottom, top_pad = 600, 300, 20, 62, 50
     if not rows:
         return _svg(width, 60, "No trade-off table", [_text(10, 30, "No trade-off table")])
     top = max(r.imbalance_pct for r in rows) or 1.0
@@ -121,7 +121,7 @@ def tradeoff_chart(
         '<pattern id="unproven" width="8" height="8" patternUnits="userSpaceOnUse" '
         'patternTransform="rotate(45)"><rect width="8" height="8" fill="#e9e4d8"/>'
         '<rect width="3" height="8" fill="#41606b"/></pattern>',
-        _text(8, 20, "Imbalance (%) by moves allowed", size=15, font_weight="bold"),
+        _text(8, 22, "Imbalance (%) by moves allowed", size=17, font_weight="bold"),
     ]
     base = height - bottom
     body.append(
@@ -141,9 +141,9 @@ def tradeoff_chart(
             f'fill="{fill}" stroke="{stroke}" stroke-width="{4 if index == selected else 1.5}"/>'
         )
         body.append(
-            _text(x + w / 2, base - h - 8, f"{row.imbalance_pct:.2f}", size=14, anchor="middle")
+            _text(x + w / 2, base - h - 8, f"{row.imbalance_pct:.2f}", size=15, anchor="middle")
         )
-        body.append(_text(x + w / 2, base + 20, str(row.moves), size=15, anchor="middle"))
+        body.append(_text(x + w / 2, base + 20, str(row.moves), size=16, anchor="middle"))
         marks = []
         if index == recommended:
             marks.append("recommended")
@@ -153,13 +153,13 @@ def tradeoff_chart(
                 f'<path d="M{x + w / 2 - 8:.1f},{base + 44} l8,-12 l8,12 z" fill="#000000"/>'
             )
         if marks:
-            body.append(_text(x + w / 2, base + 36, " · ".join(marks), size=12, anchor="middle"))
+            body.append(_text(x + w / 2, base + 36, " · ".join(marks), size=13, anchor="middle"))
         words.append(
             f"{row.moves} moves {row.imbalance_pct:.2f} %"
             + ("" if proven else " not proven")
             + (" (shown)" if index == selected else "")
         )
     body.append(
-        _text(left, height - 4, "moves (at most); solid: proven, hatched: not proven", size=12)
+        _text(left, height - 4, "moves (at most); solid: proven, hatched: not proven", size=13)
     )
     return _svg(width, height, "Imbalance by moves: " + "; ".join(words), body)

@@ -175,7 +175,9 @@ function showCheck(view) {
       el("dt", {}, "Total load"),
       el("dd", { data: { figure: "total" } }, va(loads.total_va)),
       facts.neutral ? [el("dt", {}, "Neutral current (RMS)"), el("dd", { data: { figure: "neutral" } }, amps(loads.neutral_rms_a || loads.neutral_a))] : null,
-      loads.unbalance_factor_pct !== null ? [el("dt", {}, "Current unbalance |I2|/|I1|"), el("dd", {}, pct(loads.unbalance_factor_pct))] : null
+      loads.unbalance_factor_pct !== null ? [el("dt", {}, "Current unbalance |I2|/|I1|"), el("dd", {}, pct(loads.unbalance_factor_pct))] : null,
+      data.demand ? [el("dt", {}, "Demand load"), el("dd", { data: { figure: "demand" } }, `${va(data.demand.total_demand_va)} (${data.demand.rule_set_title})`)] : null,
+      data.demand ? [el("dt", {}, "Feeder design current"), el("dd", { data: { figure: "feeder" } }, `${amps(data.demand.feeder.design_a)} on line ${data.demand.feeder.design_line}`)] : null
     )
   );
   setSvg($("check-bars"), view.bars);
@@ -232,12 +234,12 @@ function showDemand(demand) {
       { class: "grid" },
       el("thead", {}, el("tr", {}, el("th", { class: "text" }, "Load class"), el("th", {}, "Connected"), el("th", {}, "Demand"), el("th", { class: "text" }, "Rule"))),
       el("tbody", {}, classes),
-      el("tfoot", {}, el("tr", {}, el("th", { class: "text" }, "Total"), el("th", { data: { figure: "connected" } }, va(demand.total_connected_va)), el("th", { data: { figure: "demand" } }, va(demand.total_demand_va)), el("th", {}, "")))
+      el("tfoot", {}, el("tr", {}, el("th", { class: "text" }, "Total"), el("th", { data: { figure: "connected" } }, va(demand.total_connected_va)), el("th", {}, va(demand.total_demand_va)), el("th", {}, "")))
     ),
     el(
       "dl",
       { class: "facts" },
-      fact("Design current", `${amps(f.design_a)} on line ${f.design_line}`, "feeder-design"),
+      fact("Design current", `${amps(f.design_a)} on line ${f.design_line}`),
       fact("Required ampacity", amps(f.required_a)),
       fact("Smallest overcurrent device", f.min_ocpd_a === null ? "—" : `${f.min_ocpd_a} A`),
       fact("Feeder conductor", `${f.conductor_cu ?? "—"} Cu (${f.conductor_cu_column_c} °C) or ${f.conductor_al ?? "—"} Al (${f.conductor_al_column_c} °C)`),
