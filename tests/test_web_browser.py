@@ -226,3 +226,17 @@ def test_a_tablet_sees_one_column(browser: Any, server: str, shots: Path) -> Non
     assert width <= 768  # nothing runs off the side
     page.screenshot(path=shots / "08-tablet.png", full_page=True)
     context.close()
+
+
+def test_the_high_leg_is_named(page: Any, shots: Path) -> None:
+    page.set_input_files("#file", str(SAMPLES / "machine-shop-240-120-high-leg.xlsx"))
+    page.wait_for_selector("#step-check:not([hidden])")
+    banner = page.locator("#high-leg")
+    assert banner.is_visible()
+    text = banner.inner_text()
+    assert "line b" in text.lower()
+    assert "208 V to neutral" in text
+    assert "110.15" in text
+    assert page.locator("#layout-now .bus.high").count() >= 1
+    assert "HIGH LEG" in page.locator("#layout-now .bus.high").first.inner_text()
+    page.screenshot(path=shots / "09-high-leg.png", full_page=True)

@@ -76,7 +76,7 @@ def line_bars(
     colours = {line: HIGH_LEG_COLOUR if line == high_leg else LINE_COLOUR[line] for line in lines}
     top = max((abs(v) for _, values in series for v in values.values()), default=0.0) or 1.0
     bar_h, gap, left, width = 30, 14, 150, 560
-    reach = width - left - 150
+    reach = width - left - 200
     body = [_defs(colours)]
     y = 12.0
     words = []

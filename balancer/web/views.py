@@ -12,6 +12,7 @@ from balancer.field.tradeoff import _status_text
 from balancer.field.workorder import ACTION_TEXT
 from balancer.report.json import balance_json, check_json
 from balancer.report.safety import CAUTIONS
+from balancer.report.text import GOAL_NAMES
 from balancer.web import svg
 
 
@@ -143,6 +144,7 @@ def arrangement_view(
         "row": row,
         "balance": data,
         "status_text": _status_text(result.status),
+        "goal_phrase": GOAL_NAMES.get(result.first_goal, result.first_goal),
         "actions": dict(ACTION_TEXT),
         "facts": facts,
         "layout": layout(result.after_panel, result.before_panel),

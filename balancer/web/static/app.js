@@ -43,6 +43,7 @@ const va = (v) => (v === null || v === undefined ? "—" : `${Math.round(v).toLo
 const amps = (v) => (v === null || v === undefined ? "—" : `${v.toFixed(1)} A`);
 const pct = (v) => (v === null || v === undefined ? "—" : `${v.toFixed(2)} %`);
 const spaces = (list) => (list.length ? list.join(", ") : "none");
+const spacesWord = (list) => `${list.length === 1 ? "space" : "spaces"} ${spaces(list)}`;
 
 // ------------------------------------------------------------------ the server
 
@@ -183,7 +184,6 @@ function showCheck(view) {
   setSvg($("check-bars"), view.bars);
 
   const warnings = [...data.warnings];
-  if (loads.unplaced.length) warnings.push(`Not in a space yet: circuit(s) ${loads.unplaced.join(", ")}; balancing places them.`);
   if (loads.neutral_exceeds_phase) warnings.push("The neutral carries more current than any line (harmonics): it counts as a current-carrying conductor.");
   if (data.demand) {
     warnings.push(...data.demand.warnings);
@@ -382,6 +382,9 @@ async function startBalance(event) {
   event.preventDefault();
   hideProblems($("balance-problems"));
   const options = formOptions();
+  $("progress").textContent = "Starting the solver…";
+  state.rowView = null;
+  ["step-table", "step-row"].forEach((id) => ($(id).hidden = true)); // a new balance replaces them
   try {
     const started = await postJSON("/api/balance", options);
     state.job = started.job;
@@ -478,7 +481,7 @@ function showTable(table) {
       el(
         "thead",
         {},
-        el("tr", {}, el("th", {}, "Moves (at most)"), el("th", {}, "Spread"), el("th", {}, "Imbalance"), el("th", {}, "Neutral"), goal !== "spread" ? el("th", {}, `Goal: ${goal}`) : null, el("th", { class: "text" }, "Status"))
+        el("tr", {}, el("th", {}, "Moves (at most)"), el("th", {}, "Spread"), el("th", {}, "Imbalance"), el("th", {}, "Neutral (fundamental)"), goal !== "spread" ? el("th", {}, `Goal: ${goal}`) : null, el("th", { class: "text" }, "Status"))
       ),
       body
     )
@@ -518,8 +521,8 @@ function showArrangement(view, key) {
   const facts = view.facts;
   $("step-row").hidden = false;
   const moves = data.moves.length;
-  $("row-title").textContent = key === "recommended" ? `Recommended arrangement: ${moves} move(s)` : `Arrangement with at most ${view.table.rows[Number(key)].moves} move(s): ${moves} move(s)`;
-  $("row-status").textContent = `Status: ${view.status_text} (${data.status}; goal: ${data.first_goal}; engine ${data.engine}; ${data.solve_seconds.toFixed(1)} s)`;
+  $("row-title").textContent = key === "recommended" ? `Recommended arrangement: ${moves} move(s)` : `Arrangement for at most ${view.table.rows[Number(key)].moves} move(s), using ${moves}`;
+  $("row-status").textContent = `Status: ${view.status_text}. Goal: ${view.goal_phrase}; engine ${data.engine}, ${data.solve_seconds.toFixed(1)} s.`;
   const figures = clear($("row-figures"));
   figures.append(
     el(
@@ -575,7 +578,7 @@ function showArrangement(view, key) {
             {},
             el("div", { class: "action" }, `Step ${step.step}: ${view.actions[step.action] || step.action}`, step.group ? ` (multiwire group ${step.group})` : ""),
             step.circuits.map((c) =>
-              el("div", { class: "item" }, `Circuit ${c.id} ${c.description}: `, c.from_spaces.length ? `spaces ${spaces(c.from_spaces)} (${c.from_lines.join("")})` : "not in the panel", " → ", c.to_spaces.length ? `spaces ${spaces(c.to_spaces)} (${c.to_lines.join("")})` : "set aside", c.notes ? ` — ${c.notes}` : "")
+              el("div", { class: "item" }, `Circuit ${c.id} ${c.description}: `, c.from_spaces.length ? `${spacesWord(c.from_spaces)} (${c.from_lines.join("")})` : "not in the panel", " → ", c.to_spaces.length ? `${spacesWord(c.to_spaces)} (${c.to_lines.join("")})` : "set aside", c.notes ? ` — ${c.notes}` : "")
             ),
             step.remark ? el("div", { class: "item hint" }, step.remark) : null
           )
