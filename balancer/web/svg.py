@@ -81,8 +81,12 @@ def line_bars(
     y = 12.0
     words = []
     for line in lines:
-        name = f"Line {line}" + (" (high leg)" if line == high_leg else "")
-        body.append(_text(8, y + bar_h * len(series) / 2 + 4, name, size=17, font_weight="bold"))
+        middle = y + bar_h * len(series) / 2
+        if line == high_leg:
+            body.append(_text(8, middle - 4, f"Line {line}", size=17, font_weight="bold"))
+            body.append(_text(8, middle + 14, "HIGH LEG", size=13, font_weight="bold"))
+        else:
+            body.append(_text(8, middle + 4, f"Line {line}", size=17, font_weight="bold"))
         for index, (label, values) in enumerate(series):
             value = values.get(line, 0.0)
             length = max(2.0, reach * abs(value) / top)
@@ -94,7 +98,8 @@ def line_bars(
             )
             tag = f"{value:,.0f} VA" + (f"  {label}" if len(series) > 1 else "")
             body.append(_text(left + length + 8, y + bar_h - 10, tag, size=15))
-            words.append(f"line {line} {label} {value:,.0f} VA")
+            leg = " (high leg)" if line == high_leg else ""
+            words.append(f"line {line}{leg} {label} {value:,.0f} VA")
             y += bar_h
         y += gap
     body.append(
