@@ -169,9 +169,9 @@ def _parse(parser: argparse.ArgumentParser, argv: Sequence[str] | None) -> argpa
     the schedule office.xlsx with a PDF beside it, not a PDF named office.xlsx."""
     args = parser.parse_args(argv)
     pdf = getattr(args, "pdf", None)
-    if isinstance(pdf, str) and pdf.lower().endswith(SCHEDULE_SUFFIXES):
-        if hasattr(args, "schedule") and args.schedule is None:
-            args.schedule, args.pdf = Path(pdf), True
+    schedule_taken = isinstance(pdf, str) and pdf.lower().endswith(SCHEDULE_SUFFIXES)
+    if schedule_taken and hasattr(args, "schedule") and args.schedule is None:
+        args.schedule, args.pdf = Path(str(pdf)), True
     if hasattr(args, "schedule") and args.schedule is None:
         parser.error(f"{args.command}: name the schedule to read (.xlsx or .csv), or a folder")
     return args

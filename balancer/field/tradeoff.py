@@ -255,8 +255,21 @@ def fewest_moves_to(
             )
         if asked.after.imbalance_pct <= target_pct:
             moves = count_moves(panel, asked.after_panel)
+            # proven by the table's floors, or by the solve itself: with a target the move
+            # count is its first goal, so OPTIMAL means no fewer moves reach the target
+            proven = moves == too_few + 1 or asked.status is SolveStatus.OPTIMAL
+            if reached is not None and proven and moves == reached.moves:
+                # the table's row uses as few moves and has the least spread for them
+                chosen = table.results[reached.moves]
+                return TargetAnswer(
+                    target_pct,
+                    moves,
+                    True,
+                    f"{moves} move(s) reach {chosen.after.imbalance_pct:.2f} % (target "
+                    f"{target_pct:g} %); fewer cannot (proven)",
+                    chosen,
+                )
             if reached is None or moves < reached.moves:
-                proven = moves == too_few + 1
                 return TargetAnswer(
                     target_pct,
                     moves,
