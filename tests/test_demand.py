@@ -35,6 +35,7 @@ from balancer.code.demand import (
     resolve_rule_set,
     units_demand,
 )
+from balancer.code.feeder import parse_conductor
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.systems import get_system
 from balancer.errors import ScheduleError
@@ -423,7 +424,12 @@ def test_branch_missing_trip_suggests_one() -> None:
 )
 def test_small_conductor_limit_240_4_d(wire: str, trip_a: float, limit_a: int) -> None:
     # 240.4(D) (F): 14 Cu 15 A, 12 Cu 20 A, 10 Cu 30 A, 12 Al 15 A, 10 Al 25 A.
-    item = {"load_class": "other", "load_va": 600.0, "trip_a": trip_a, "extra": (("Wire", wire),)}
+    item = {
+        "load_class": "other",
+        "load_va": 600.0,
+        "trip_a": trip_a,
+        "conductor": parse_conductor(wire),
+    }
     result = run([item])
     flags = [b for b in result.branch_flags if b.kind == "small_conductor"]
     assert len(flags) == 1
@@ -438,19 +444,26 @@ def test_small_conductor_within_limit_and_motor_exempt() -> None:
                 "load_class": "other",
                 "load_va": 600.0,
                 "trip_a": 20.0,
-                "extra": (("Conductor", "#12"),),
+                "conductor": parse_conductor("#12"),
             }
         ]
     )
     assert not fine.branch_flags
     # 240.4(G) sends motor circuits to Article 430: no 240.4(D) flag there.
     motor = run(
-        [{"load_class": "mtr", "load_va": 1000.0, "trip_a": 30.0, "extra": (("Wire", "#12"),)}]
+        [
+            {
+                "load_class": "mtr",
+                "load_va": 1000.0,
+                "trip_a": 30.0,
+                "conductor": parse_conductor("#12"),
+            }
+        ]
     )
     assert not [b for b in motor.branch_flags if b.kind == "small_conductor"]
 
 
-def test_conductor_ampacity_and_unread_size() -> None:
+def test_conductor_ampacity() -> None:
     # 30 A continuous on 10 AWG: 37.5 A needed, 10 AWG Cu carries 30 A in the 60 °C column
     # (Table 310.16, F; 60 °C for circuits of 100 A or less, 110.14(C)(1)(a)).
     item = {
@@ -458,23 +471,15 @@ def test_conductor_ampacity_and_unread_size() -> None:
         "load_va": 6240.0,
         "poles": 2,
         "trip_a": 40.0,
-        "extra": (("Wire", "#10"),),
+        "conductor": parse_conductor("#10"),
     }
     result = run([item])
     kinds = {b.kind for b in result.branch_flags}
     assert "conductor_ampacity" in kinds
     assert "small_conductor" in kinds  # 10 AWG Cu on a 40 A breaker
-    odd = run(
-        [
-            {
-                "load_class": "other",
-                "load_va": 100.0,
-                "trip_a": 20.0,
-                "extra": (("Wire", "see plan"),),
-            }
-        ]
-    )
-    assert [b.kind for b in odd.branch_flags] == ["conductor_unread"]
+    # A size balancer does not know ("see plan") is refused when the schedule is read, at its
+    # cell (tests/test_typed_columns.py), so it never reaches the check.
+    assert parse_conductor("see plan") is None
 
 
 # --- rule sets as data -----------------------------------------------------------------------
@@ -638,7 +643,7 @@ def test_loads_section_names_rule_set_and_cautions() -> None:
     assert lines[0].startswith("Loads: NEC 2023")
     text = " ".join(line.strip() for line in lines)  # cautions wrap over lines
     assert "authority having jurisdiction" in text
-    assert "qualified persons" in text
+    assert "qualified person" in text  # the field cautions are the workbook's and PDF's
     assert "Minimum OCPD" in text
     assert "Voltage drop" in text
     assert all(isinstance(line, str) for line in lines)
@@ -707,7 +712,7 @@ def test_check_choices_fails_early_on_bad_input(tmp_path: Path) -> None:
 
 # --- code checks: non-linear neutral, largest motor, conductor protection, neutral share -----
 
-SMPS = (("Harmonics", "switch-mode"),)
+SMPS = "switch-mode"
 
 
 def test_nonlinear_neutral_from_the_harmonic_profile_is_not_reduced() -> None:
@@ -719,16 +724,14 @@ def test_nonlinear_neutral_from_the_harmonic_profile_is_not_reduced() -> None:
     linear = compute_demand(make_panel(loads))
     assert linear.feeder.design_a == pytest.approx(250.0, abs=ATOL_A)
     assert linear.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
-    smps = compute_demand(make_panel([{**item, "extra": SMPS} for item in loads]))
+    smps = compute_demand(make_panel([{**item, "harmonic_profile": SMPS} for item in loads]))
     assert smps.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
     assert any("220.61(C)" in note for note in smps.feeder.notes)
     # The same by naming the class (Type spellings are accepted too).
     named = compute_demand(make_panel(loads), DemandOptions(nonlinear_classes=("misc",)))
     assert named.feeder.neutral_a == pytest.approx(250.0, abs=ATOL_A)
     # The bundled "linear" profile has no harmonics: reduced as before.
-    plain = compute_demand(
-        make_panel([{**item, "extra": (("Harmonics", "linear"),)} for item in loads])
-    )
+    plain = compute_demand(make_panel([{**item, "harmonic_profile": "linear"} for item in loads]))
     assert plain.feeder.neutral_a == pytest.approx(235.0, abs=ATOL_A)
 
 
@@ -737,7 +740,9 @@ def test_mixed_linear_and_nonlinear_neutral_by_hand() -> None:
     # switch-mode = 60 A (C: 7,200 / 120). Only the linear 240 A is reduced above 200 A:
     # 60 + 200 + 0.7 × 40 = 288 A.
     linear = [{"load_class": "other", "load_va": 7200.0} for _ in range(12)]
-    nonlinear = [{"load_class": "other", "load_va": 7200.0, "extra": SMPS} for _ in range(3)]
+    nonlinear = [
+        {"load_class": "other", "load_va": 7200.0, "harmonic_profile": SMPS} for _ in range(3)
+    ]
     result = compute_demand(make_panel(linear + nonlinear))
     assert result.feeder.neutral_unreduced_a == pytest.approx(300.0, abs=ATOL_A)
     assert result.feeder.neutral_a == pytest.approx(288.0, abs=ATOL_A)
@@ -747,7 +752,7 @@ def test_nonlinear_neutral_off_a_wye_is_reduced() -> None:
     # NEC 2023 220.61(C)(2) (F; item number from memory) names 4-wire wye systems only: on 120/240 V
     # the same 250 A of switch-mode load is reduced to 200 + 0.7 × 50 = 235 A (220.61(B)).
     loads = [
-        {"load_class": "other", "load_va": 1500.0, "spaces": (k,), "extra": SMPS}
+        {"load_class": "other", "load_va": 1500.0, "spaces": (k,), "harmonic_profile": SMPS}
         for k in range(1, 41)
     ]
     result = compute_demand(make_panel(loads, "120/240"))
@@ -782,7 +787,7 @@ def _wired(load_class: str, va: float, trip_a: float, wire: str) -> dict[str, An
         "load_va": va,
         "trip_a": trip_a,
         "continuous": False,
-        "extra": (("Wire", wire),),
+        "conductor": parse_conductor(wire),
     }
 
 

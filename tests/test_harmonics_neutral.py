@@ -36,7 +36,7 @@ def panel_of(system: System, circuits: list[Circuit]) -> Panel:
 
 def with_profile(cid: str, space: int, load_va: float, profile: str, poles: int = 1) -> Circuit:
     spaces = tuple(space + 2 * k for k in range(poles))
-    return Circuit(cid, "demo", poles, load_va, spaces=spaces, extra=(("Harmonics", profile),))
+    return Circuit(cid, "demo", poles, load_va, spaces=spaces, harmonic_profile=profile)
 
 
 THIRD_ONLY = {"third": Profile("third", "invented: a third harmonic of 40 %", ((3, 0.4),))}
@@ -177,20 +177,18 @@ def test_profile_lookup_by_class_and_override() -> None:
     assert find_profile("") is None
     plain = Circuit("1", "demo", 1, 100.0, load_class="computers")
     assert profile_for(plain) is builtin_profiles()["switch-mode"]
-    overridden = Circuit(
-        "1", "demo", 1, 100.0, load_class="computers", extra=(("Harmonics", "none"),)
-    )
+    overridden = Circuit("1", "demo", 1, 100.0, load_class="computers", harmonic_profile="none")
     profile = profile_for(overridden)
     assert profile is not None
     assert profile.name == "linear"
     assert profile.thd_pct == 0.0
-    blank = Circuit("1", "demo", 1, 100.0, load_class="computers", extra=(("Harmonics", " "),))
+    blank = Circuit("1", "demo", 1, 100.0, load_class="computers", harmonic_profile=" ")
     assert profile_for(blank) is builtin_profiles()["switch-mode"]
 
 
 def test_unknown_profile_is_reported_with_its_circuit() -> None:
     system = get_system("208Y/120")
-    bad = Circuit("12", "demo", 1, 100.0, spaces=(1,), source_row=14, extra=(("Harmonics", "xx"),))
+    bad = Circuit("12", "demo", 1, 100.0, spaces=(1,), source_row=14, harmonic_profile="xx")
     with pytest.raises(
         ScheduleError, match=r"circuit 12 \(row 14\): unknown harmonic profile 'xx'"
     ):

@@ -107,7 +107,7 @@ def test_time_domain_matches_phasors_mixed_pf_and_harmonics(designation: str) ->
                 circuits[i].load_va,
                 spaces=circuits[i].spaces,
                 power_factor=circuits[i].power_factor,
-                extra=(("Harmonics", name),),
+                harmonic_profile=name,
             )
     # A 2-pole line-to-line load with a lagging PF and a six-pulse-like spectrum.
     first, second = system.lines[0], system.lines[1]
@@ -119,7 +119,7 @@ def test_time_domain_matches_phasors_mixed_pf_and_harmonics(designation: str) ->
             3000.0,
             spaces=(FIRST_SPACE[first] + 48, FIRST_SPACE[first] + 50),
             power_factor=0.85,
-            extra=(("Harmonics", "ll"),),
+            harmonic_profile="ll",
         )
     )
     ll_spectrum = {5: 0.2, 7: 0.14}
@@ -414,7 +414,7 @@ def test_time_domain_matches_other_connections(
         power_factor=circuit.power_factor,
         voltage_v=circuit.voltage_v,
         neutral_va=circuit.neutral_va,
-        extra=(("Harmonics", "demo"),),
+        harmonic_profile="demo",
     )
     panel = panel_of(system, [tagged])
     loads = analyze(panel, profiles)

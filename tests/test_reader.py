@@ -47,6 +47,14 @@ GOOD = Path(__file__).resolve().parent / "data" / "good"
         ("Group", "group", 1),
         ("MWBC", "group", 1),
         ("Measured (A)", "measured_a", 1),
+        ("Measured line A (A)", "measured_line_a", 1),
+        ("measured phase B", "measured_line_b", 1),
+        ("Measured leg C amps", "measured_line_c", 1),
+        ("Harmonics", "harmonic_profile", 1),
+        ("Harmonic profile", "harmonic_profile", 1),
+        ("Wire", "conductor", 1),
+        ("Conductor size", "conductor", 1),
+        ("Balanced on (VA)", "balance_va", 1),
         ("Notes", "notes", 1),
         ("  load  description ", "description", 1),
     ],
@@ -122,7 +130,12 @@ def test_spares_spaces_and_unknown_columns_kept(tmp_path: Path) -> None:
     spare = panel.circuit("3")
     assert spare.is_spare
     assert spare.load_va == 0
-    assert panel.circuit("1").extra == (("Wire", "12 AWG"), ("Room", "101"))
+    assert panel.circuit("1").extra == (("Room", "101"),)  # the wire is a column balancer reads
+    assert panel.circuit("1").conductor is not None
+    assert (panel.circuit("1").conductor.size, panel.circuit("1").conductor.as_written) == (
+        "12",
+        "12 AWG",
+    )
     assert panel.circuit("2").spaces == (2, 4)
 
 

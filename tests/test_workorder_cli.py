@@ -149,4 +149,5 @@ def test_sample_readings_reach_the_basis() -> None:
     # Per-line readings 24.5 / 26.0 / 25.1 A average 25.2 A;
     # √3 × 208 V × 25.2 A = 1.7320508 × 5241.6 = 9078.72 VA (C).
     assert used[rtu.id] == "measured"
-    assert rtu.load_va == pytest.approx(9078.72, abs=0.01)
+    assert rtu.basis_va == pytest.approx(9078.72, abs=0.01)
+    assert rtu.load_va == 10800.0  # the schedule's design load stays

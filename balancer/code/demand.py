@@ -81,8 +81,6 @@ OCCUPANCY_SPELLINGS: dict[str, str] = {
 }
 OCCUPANCIES = tuple(_OCCUPANCY_WORDS)
 
-_CONDUCTOR_HEADERS = {"wire", "conductor", "conductors", "wiresize", "conductorsize", "cond"}
-
 
 def _normalise(text: str) -> str:
     return re.sub(r"[^0-9a-z/]", "", text.lower())
@@ -501,7 +499,7 @@ class BranchFlag:
 
     circuit_id: str
     # "overloaded", "no_trip", "small_conductor", "conductor_ampacity",
-    # "unprotected_conductor", "conductor_unread"
+    # "unprotected_conductor"
     kind: str
     message: str
     clause: str
@@ -529,15 +527,6 @@ class DemandResult:
 
 # ---------------------------------------------------------------------------------------------
 # Computation
-
-
-def _conductor_text(circuit: Circuit) -> str | None:
-    for header, value in circuit.extra:
-        if _normalise(str(header)) in _CONDUCTOR_HEADERS and value not in (None, ""):
-            if isinstance(value, float) and value.is_integer():
-                return str(int(value))
-            return str(value)
-    return None
 
 
 def _line_voltage(system: System, line: Line) -> float:
@@ -568,7 +557,7 @@ def _heavier_line_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
     if not lines:  # not placed: any two lines of which the first serves line-to-neutral loads
         first = next(ln for ln in system.lines if system.serves_line_to_neutral(ln))
         lines = (first, next(ln for ln in system.lines if ln != first))
-    scale = load_va / circuit.load_va if circuit.load_va else 1.0
+    scale = load_va / circuit.basis_va if circuit.basis_va else 1.0
     neutral_va = (circuit.neutral_va or 0.0) * scale
     try:
         currents = circuit_harmonic_currents(
@@ -604,13 +593,13 @@ def _circuit_current_a(panel: Panel, circuit: Circuit, load_va: float) -> float:
 def _connected_va(circuit: Circuit, load_class: str, notes: list[str]) -> float:
     if load_class == "general_receptacles" and circuit.yokes is not None:
         va = VA_PER_YOKE * circuit.yokes
-        if not math.isclose(va, circuit.load_va, abs_tol=0.5) and circuit.load_va:
+        if not math.isclose(va, circuit.basis_va, abs_tol=0.5) and circuit.basis_va:
             notes.append(
                 f"circuit {circuit.id}: {circuit.yokes:g} receptacles × 180 VA = {va:,.0f} VA used "
-                f"instead of the {circuit.load_va:,.0f} VA given (220.14(I))"
+                f"instead of the {circuit.basis_va:,.0f} VA given (220.14(I))"
             )
         return va
-    return circuit.load_va
+    return circuit.basis_va  # the load basis of the run (docs/field.md)
 
 
 def _classify_all(
@@ -882,7 +871,7 @@ def _feeder(
         if result.demand_va == 0:
             continue
         rule = rules.classes[name]
-        shares = share_by_line(panel, replace(circuit, load_va=result.demand_va))
+        shares = share_by_line(panel, replace(circuit, balance_va=result.demand_va))
         if not shares:
             unplaced.append(circuit.id)
             shares = {line: result.demand_va / len(lines) for line in lines}
@@ -1069,19 +1058,8 @@ def _branch_flags(
                     circuit.id, "overloaded", text, clause, circuit.trip_a, required, suggestion
                 )
             )
-        conductor_text = _conductor_text(circuit)
-        if conductor_text is None or not sizing:
-            continue
-        conductor = parse_conductor(conductor_text)
-        if conductor is None:
-            flags.append(
-                BranchFlag(
-                    circuit.id,
-                    "conductor_unread",
-                    f"conductor {conductor_text!r} not understood",
-                    "",
-                )
-            )
+        conductor = circuit.conductor  # read and checked with the schedule
+        if conductor is None or not sizing:
             continue
         limit = SMALL_CONDUCTOR_LIMIT_A.get((conductor.material, conductor.size))
         over_limit = bool(limit and circuit.trip_a and circuit.trip_a > limit)

@@ -10,10 +10,11 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
-from typing import Literal
 
-Material = Literal["cu", "al"]
+# A circuit carries its conductor (read and checked with the schedule), so the type lives in the
+# domain; re-exported here, beside the tables it is looked up in.
+from balancer.domain.panel import Conductor as Conductor
+from balancer.domain.panel import Material as Material
 
 # 240.6(A) standard ampere ratings of fuses and inverse-time circuit breakers (values read from a
 # published copy; fuse-only ratings 1, 3, 6, 10 and 601 A are left out, and 10 A, added for
@@ -236,18 +237,6 @@ def neutral_220_61(linear_a: float, nonreducible_a: float) -> float:
 _SIZE_RE = re.compile(r"(?<![\d/])(\d{1,2}/0|\d{1,4})\s*(awg|kcmil|mcm)?", re.IGNORECASE)
 
 
-@dataclass(frozen=True, slots=True)
-class Conductor:
-    """A conductor size as a schedule writes it: size (``"12"``, ``"3/0"``, ``"250"``) and metal."""
-
-    size: str
-    material: Material
-
-    def __str__(self) -> str:
-        unit = "kcmil" if self.size in {"250", "300", "350", "400", "500"} else "AWG"
-        return f"{self.size} {unit} {self.material.capitalize()}"
-
-
 def parse_conductor(text: str) -> Conductor | None:
     """Read ``#12``, ``12 AWG``, ``10 AL``, ``3/0 Cu``, ``250 kcmil``, ``2#12 + #12G``.
 
@@ -262,7 +251,7 @@ def parse_conductor(text: str) -> Conductor | None:
     if match is None or match.group(1) not in SIZES:
         return None
     material: Material = "al" if re.search(r"\bal\b|alum|aluminium|aluminum", cleaned) else "cu"
-    return Conductor(match.group(1), material)
+    return Conductor(match.group(1), material, text.strip())
 
 
 def voltage_drop_pct(

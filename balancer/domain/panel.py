@@ -9,13 +9,65 @@ All of that lives in :class:`Geometry`, so another numbering can be added in one
 
 from __future__ import annotations
 
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field, replace
-from typing import Any
+from typing import Any, Literal
 
 from balancer.domain.systems import Line, System
 
 # Load classes balancer treats specially everywhere; the demand rules know many more.
 SPARE = "spare"
+
+Material = Literal["cu", "al"]
+
+
+@dataclass(frozen=True, slots=True)
+class Conductor:
+    """A conductor size as a schedule writes it: size (``"12"``, ``"3/0"``, ``"250"``) and metal.
+
+    ``text`` is the schedule's own wording (``"2#12 + #12G"``), kept for the revised workbook and
+    the work order; it takes no part in comparisons. :func:`balancer.code.feeder.parse_conductor`
+    makes one from text.
+    """
+
+    size: str
+    material: Material
+    text: str = field(default="", compare=False)
+
+    def __str__(self) -> str:
+        unit = "kcmil" if self.size in {"250", "300", "350", "400", "500"} else "AWG"
+        return f"{self.size} {unit} {self.material.capitalize()}"
+
+    @property
+    def as_written(self) -> str:
+        return self.text or str(self)
+
+
+@dataclass(frozen=True, slots=True)
+class LineReadings(Mapping[Line, float]):
+    """Clamp-meter readings of one circuit, in amperes, by line (``Measured line A (A)`` …);
+    a read-only mapping, empty when the schedule gives none."""
+
+    readings: tuple[tuple[Line, float], ...] = ()
+
+    @classmethod
+    def of(cls, by_line: Mapping[Line, float]) -> LineReadings:
+        return cls(tuple(sorted((line, float(a)) for line, a in by_line.items())))
+
+    def __getitem__(self, line: Line) -> float:
+        for key, amps in self.readings:
+            if key == line:
+                return amps
+        raise KeyError(line)
+
+    def __iter__(self) -> Iterator[Line]:
+        return (line for line, _ in self.readings)
+
+    def __len__(self) -> int:
+        return len(self.readings)
+
+    def as_dict(self) -> dict[Line, float]:
+        return dict(self.readings)
 
 
 @dataclass(frozen=True, slots=True)
@@ -54,8 +106,15 @@ class Circuit:
     """One branch circuit (or spare breaker) as the schedule gives it.
 
     ``spaces`` is empty when the schedule gives no space number. ``load_va`` is the connected
-    load of the whole circuit. ``extra`` keeps every input column balancer does not use,
-    verbatim, in input order, so the writer can hand them back.
+    (design, nameplate) load of the whole circuit, as the schedule gives it: always, whatever
+    load basis a run chooses. ``balance_va`` is the load a run balances and analyses on instead
+    (a clamp reading under ``--basis measured`` or ``larger``, set by
+    :func:`balancer.field.basis.apply_basis`), None for the design load; :attr:`basis_va` is
+    the one to use for figures. ``measured_a`` is the single clamp reading of the circuit,
+    ``measured_line_a`` the per-line readings of a multi-pole circuit (amperes);
+    ``harmonic_profile`` names a harmonic profile (checked when read), ``conductor`` the branch
+    conductor. ``extra`` keeps every other input column, verbatim, in input order, so the writer
+    can hand them back.
     """
 
     id: str
@@ -75,7 +134,17 @@ class Circuit:
     neutral_va: float | None = None
     yokes: float | None = None
     source_row: int | None = None
+    measured_line_a: LineReadings = LineReadings()
+    harmonic_profile: str | None = None
+    conductor: Conductor | None = None
+    balance_va: float | None = None
     extra: tuple[tuple[str, Any], ...] = ()
+
+    @property
+    def basis_va(self) -> float:
+        """The load figures are made on: ``balance_va`` when a load basis set one, else the
+        design ``load_va``."""
+        return self.load_va if self.balance_va is None else self.balance_va
 
     @property
     def is_spare(self) -> bool:

@@ -9,12 +9,15 @@ line-to-neutral × A for a 1-pole circuit, line-to-line × A for a 2-pole circui
 ``Measured A`` would be read as), the average of its lines'
 readings stands for A: the schedule convention spreads a multi-pole load evenly over its lines
 anyway, so an uneven reading shows up in the per-line figures only through that average.
+
+The reader parses and checks the readings (``Circuit.measured_a``, ``Circuit.measured_line_a``)
+with their cells; here they only become VA. Choosing a basis never changes a circuit's design
+``load_va``: the chosen figure goes in ``Circuit.balance_va``, read through ``Circuit.basis_va``.
 """
 
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, replace
 from typing import Any, Literal
 
@@ -25,13 +28,6 @@ from balancer.errors import Problem, ScheduleError
 Basis = Literal["nameplate", "measured", "larger"]
 BasisUsed = Literal["nameplate", "measured"]
 BASES: tuple[Basis, ...] = ("nameplate", "measured", "larger")
-
-# Headers of per-line readings kept in Circuit.extra: "Measured line A (A)", "measured phase B",
-# "Measured leg C amps".
-_PER_LINE_HEADER = re.compile(
-    r"^\s*measured\s+(?:line|phase|leg)\s+([abc])\s*(?:\(\s*a\s*\)|amps?|a)?\s*$",
-    re.IGNORECASE,
-)
 
 
 @dataclass(frozen=True, slots=True)
@@ -51,29 +47,24 @@ class CircuitBasis:
 
 
 def per_line_readings(circuit: Circuit) -> dict[Line, float]:
-    """Readings in amperes per line from the circuit's extra columns; blank cells are skipped.
+    """The circuit's per-line readings in amperes (``Measured line A (A)`` …), as read.
 
     Raises
     ------
     ScheduleError
-        When a per-line reading is not a number or is negative.
+        When a reading is negative or not finite (only a circuit made in code can hold one: the
+        reader refuses them at their cell).
     """
-    readings: dict[Line, float] = {}
-    problems = []
-    for header, value in circuit.extra:
-        match = _PER_LINE_HEADER.match(str(header))
-        if match is None or value is None or (isinstance(value, str) and not value.strip()):
-            continue
-        number = _as_number(value)
-        if number is None or number < 0 or not math.isfinite(number):
-            problems.append(
-                Problem(_where(circuit, str(header)), f"reading {value!r} is not amperes ≥ 0")
-            )
-            continue
-        readings[match.group(1).upper()] = number
+    problems = [
+        Problem(
+            _where(circuit, f"Measured line {line} (A)"), f"reading {amps!r} is not amperes ≥ 0"
+        )
+        for line, amps in circuit.measured_line_a.items()
+        if not (math.isfinite(amps) and amps >= 0)
+    ]
     if problems:
         raise ScheduleError(problems)
-    return readings
+    return circuit.measured_line_a.as_dict()
 
 
 def circuit_voltage_v(system: System, circuit: Circuit, lines: tuple[Line, ...]) -> float:
@@ -98,7 +89,7 @@ def circuit_voltage_v(system: System, circuit: Circuit, lines: tuple[Line, ...])
 def measured_va(panel: Panel, circuit: Circuit) -> float | None:
     """The circuit's load in VA from its readings, or None when it has none.
 
-    Per-line readings (extra columns) win over the single ``measured_a`` when both are given,
+    Per-line readings (``measured_line_a``) win over the single ``measured_a`` when both are given,
     since they are the finer record; a per-line reading on a line the circuit is not on is an
     input error.
 
@@ -140,8 +131,9 @@ def apply_basis(panel: Panel, basis: Basis) -> tuple[Panel, dict[str, BasisUsed]
 
     ``"nameplate"`` keeps the schedule VA; ``"measured"`` takes the reading where there is one
     and the schedule VA elsewhere; ``"larger"`` takes whichever of the two is larger (the
-    cautious choice when readings may have been taken at light load). The input panel is not
-    changed.
+    cautious choice when readings may have been taken at light load). A circuit balanced on its
+    reading gets it as ``balance_va``; its ``load_va`` stays the schedule's design load, so the
+    revised workbook and the JSON keep both. The input panel is not changed.
 
     Examples
     --------
@@ -149,12 +141,13 @@ def apply_basis(panel: Panel, basis: Basis) -> tuple[Panel, dict[str, BasisUsed]
     >>> p = Panel("P", get_system("208Y/120"), 6, (Circuit("1", "Lights", 1, 1000.0, (1,),
     ...     measured_a=10.0),))
     >>> new, used = apply_basis(p, "measured")
-    >>> new.circuits[0].load_va, used
-    (1200.0, {'1': 'measured'})
+    >>> new.circuits[0].basis_va, new.circuits[0].load_va, used
+    (1200.0, 1000.0, {'1': 'measured'})
     """
     details = basis_details(panel, basis)
+    balance = {cid: d.used_va if d.used == "measured" else None for cid, d in details.items()}
     circuits = [
-        replace(c, load_va=details[c.id].used_va) if details[c.id].used == "measured" else c
+        c if c.balance_va == balance[c.id] else replace(c, balance_va=balance[c.id])
         for c in panel.circuits
     ]
     return panel.with_circuits(circuits), {cid: d.used for cid, d in details.items()}
@@ -216,17 +209,6 @@ def basis_json(details: dict[str, CircuitBasis], basis: Basis) -> dict[str, Any]
             for d in details.values()
         ],
     }
-
-
-def _as_number(value: Any) -> float | None:
-    if isinstance(value, bool):
-        return None
-    if isinstance(value, int | float):
-        return float(value)
-    try:
-        return float(str(value).strip().replace(",", ""))
-    except ValueError:
-        return None
 
 
 def _where(circuit: Circuit, column: str) -> str:

@@ -108,8 +108,16 @@ class _Unit:
 
 
 def circuit_notes(circuit: Circuit) -> str:
-    """The circuit's notes and every non-blank extra input column, as one line."""
+    """The circuit's notes, its per-line readings, harmonic profile and conductor as the schedule
+    gives them, and every non-blank extra input column, as one line."""
     parts = [circuit.notes.strip()] if circuit.notes and circuit.notes.strip() else []
+    parts += [
+        f"Measured line {line} (A): {amps:g}" for line, amps in circuit.measured_line_a.items()
+    ]
+    if circuit.harmonic_profile:
+        parts.append(f"Harmonics: {circuit.harmonic_profile}")
+    if circuit.conductor is not None:
+        parts.append(f"Wire: {circuit.conductor.as_written}")
     for header, value in circuit.extra:
         if value is None or (isinstance(value, str) and not value.strip()):
             continue

@@ -144,12 +144,12 @@ def phasor_arrows(panel: Panel, profiles: Mapping[str, Profile] | None = None) -
     totals = dict.fromkeys(panel.lines, 0j)
     for circuit in panel.circuits:
         lines = panel.lines_of(circuit)
-        if not lines or circuit.load_va == 0:
+        if not lines or circuit.basis_va == 0:
             continue
         by_order = circuit_harmonic_currents(
             panel.system,
             lines,
-            circuit.load_va,
+            circuit.basis_va,
             circuit.power_factor,
             spectrum=spectrum_for(circuit, profiles),
             voltage_v=circuit.voltage_v,

@@ -160,6 +160,32 @@ COLUMNS: tuple[ColumnSpec, ...] = (
         "A",
         "clamp-meter reading of the circuit current",
     ),
+    *(
+        ColumnSpec(
+            f"measured_line_{line.lower()}",
+            f"Measured line {line} (A)",
+            tuple(
+                f"measured{word}{line.lower()}{unit}"
+                for word in ("line", "phase", "leg")
+                for unit in ("", "a", "amp", "amps")
+            ),
+            "number",
+            "A",
+            f"clamp-meter reading on line {line} of a multi-pole circuit (the words phase or leg "
+            "are accepted for line); the readings' average stands for the circuit's current",
+        )
+        for line in "ABC"
+    ),
+    ColumnSpec(
+        "balance_va",
+        "Balanced on (VA)",
+        ("balancedon", "balancedonva", "balanceva", "balancedva", "basisva"),
+        "number",
+        "VA",
+        "written by balancer: the load a circuit was balanced on when a reading replaced its "
+        "schedule load (--basis measured or larger); ignored when read, as each run chooses "
+        "its basis again",
+    ),
     ColumnSpec(
         "voltage_v",
         "Voltage",
@@ -193,6 +219,25 @@ COLUMNS: tuple[ColumnSpec, ...] = (
         "number of receptacle yokes on the circuit",
     ),
     ColumnSpec(
+        "harmonic_profile",
+        "Harmonics",
+        ("harmonics", "harmonicprofile", "harmonic", "profile"),
+        "text",
+        "",
+        "harmonic profile of the load, by name or alias (docs/electrical.md), e.g. computers, "
+        "led, vfd, none; blank: "
+        "the profile the load class implies",
+    ),
+    ColumnSpec(
+        "conductor",
+        "Wire",
+        ("wire", "conductor", "conductors", "wiresize", "conductorsize", "cond"),
+        "text",
+        "",
+        "branch-circuit conductor size, e.g. 12 AWG Cu, #10, 3/0 AL, 250 kcmil (copper unless "
+        "it says AL); checked against the breaker (docs/demand.md)",
+    ),
+    ColumnSpec(
         "notes",
         "Notes",
         ("notes", "note", "remarks", "comments", "comment"),
@@ -204,13 +249,6 @@ COLUMNS: tuple[ColumnSpec, ...] = (
 
 BY_KEY = {spec.key: spec for spec in COLUMNS}
 
-# Headers the reader keeps verbatim in Circuit.extra for other parts to read (normalised form):
-# per-line clamp readings (balancer.field.basis), a harmonic profile name
-# (balancer.physics.harmonics) and a conductor size (balancer.code.feeder). They draw no "did you
-# mean" notice.
-KEPT_FOR_LATER = frozenset(
-    f"measured{word}{line}" for word in ("line", "phase", "leg") for line in "abc"
-) | {"harmonics", "harmonicprofile", "wire", "conductor", "conductorsize", "wiresize"}
 _UNIT = re.compile(r"[\(\[]\s*([^)\]]*?)\s*[\)\]]")
 
 

@@ -14,7 +14,7 @@ import re
 import warnings
 import zipfile
 import zlib
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -26,10 +26,20 @@ from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 from openpyxl.utils.exceptions import InvalidFileException
 
-from balancer.domain.panel import SPARE, Circuit, Geometry, Panel, smallest_space_count
+from balancer.code.feeder import parse_conductor
+from balancer.domain.panel import (
+    SPARE,
+    Circuit,
+    Conductor,
+    Geometry,
+    LineReadings,
+    Panel,
+    smallest_space_count,
+)
 from balancer.domain.systems import System, check_connection, find_system, known_designations
 from balancer.errors import Problem, ScheduleError
-from balancer.io.columns import BY_KEY, KEPT_FOR_LATER, ColumnSpec, all_spellings, match, normalise
+from balancer.io.columns import BY_KEY, ColumnSpec, all_spellings, match, normalise
+from balancer.physics.harmonics import builtin_profiles, find_profile
 
 DEFAULT_SYSTEM = "208Y/120"
 HEADER_SEARCH_ROWS = 40
@@ -53,7 +63,10 @@ _LIMITS: dict[str, tuple[float, str, str]] = {  # key: (bound, unit, what it bou
         for key in ("load_va", "load_kva", "phase_a", "phase_b", "phase_c", "neutral_va")
     },
     "trip_a": (MAX_CURRENT_A, "A", "a breaker"),
-    "measured_a": (MAX_CURRENT_A, "A", "a branch circuit"),
+    **{
+        key: (MAX_CURRENT_A, "A", "a branch circuit")
+        for key in ("measured_a", "measured_line_a", "measured_line_b", "measured_line_c")
+    },
     "voltage_v": (MAX_VOLTAGE_V, "V", "a panelboard circuit"),
     "yokes": (MAX_RECEPTACLES, "", "one branch circuit"),
 }
@@ -455,8 +468,6 @@ def _header_problems(
         if c in found or value is None or not _text(value):
             continue
         name, _ = normalise(_text(value))
-        if name in KEPT_FOR_LATER:
-            continue
         close = difflib.get_close_matches(name, spellings, n=1, cutoff=0.8)
         if close:
             spec = all_spellings()[close[0]]
@@ -736,8 +747,83 @@ def _circuit(
         neutral_va=number("neutral_va", "neutral share"),
         yokes=number("yokes", "receptacle count"),
         source_row=item.row + 1,
+        measured_line_a=LineReadings.of(
+            {
+                line: amps
+                for line in "ABC"
+                if (amps := number(f"measured_line_{line.lower()}", f"line {line} reading"))
+                is not None
+            }
+        ),
+        harmonic_profile=_harmonic_profile(cells.get("harmonic_profile"), where, problems),
+        conductor=_conductor(cells.get("conductor"), where, problems),
         extra=item.extra,
     )
+
+
+def _harmonic_profile(
+    value: Any, where: Callable[[str], str], problems: list[Problem]
+) -> str | None:
+    """The profile a cell names, as written; a located problem when no profile has that name."""
+    text = _text(value)
+    if not text:
+        return None
+    if find_profile(text) is None:
+        profiles = builtin_profiles().values()
+        names = sorted(p.name for p in profiles)
+        spellings = {normalise(n)[0]: n for p in profiles for n in (p.name, *p.aliases)}
+        close = difflib.get_close_matches(normalise(text)[0], list(spellings), n=1, cutoff=0.6)
+        hint = f" (did you mean '{spellings[close[0]]}'?)" if close else ""
+        problems.append(
+            Problem(
+                where("harmonic_profile"),
+                f"unknown harmonic profile '{_shown(text)}'; known: {', '.join(names)}{hint}",
+            )
+        )
+        return None
+    return text
+
+
+def _conductor(
+    value: Any, where: Callable[[str], str], problems: list[Problem]
+) -> Conductor | None:
+    """The conductor a cell gives (its wording kept); a located problem when it names no size."""
+    text = _text(value)
+    if not text:
+        return None
+    found = parse_conductor(text)
+    if found is None:
+        problems.append(
+            Problem(
+                where("conductor"),
+                f"conductor '{_shown(text)}' is not a size balancer knows (14 AWG to 500 kcmil, "
+                "e.g. 12 AWG Cu, #10, 3/0 AL, 250 kcmil); leave it blank or put words in Notes",
+            )
+        )
+    return found
+
+
+def _reading_problems(
+    circuits: list[Circuit], grid: _Grid, cols: dict[str, int], geometry: Geometry
+) -> list[Problem]:
+    """A per-line reading on a line a placed circuit is not on, at its cell."""
+    problems = []
+    for circuit in circuits:
+        if not circuit.spaces or not circuit.measured_line_a or circuit.source_row is None:
+            continue
+        if circuit.spaces[-1] > geometry.spaces:  # past the last space: reported already
+            continue
+        lines = geometry.lines_of(circuit.spaces[0], circuit.poles)
+        for line in circuit.measured_line_a:
+            if line not in lines:
+                problems.append(
+                    Problem(
+                        grid.where(circuit.source_row - 1, cols[f"measured_line_{line.lower()}"]),
+                        f"circuit {circuit.id} is on line(s) {', '.join(lines)}, not {line}: "
+                        "a reading belongs under a line the circuit is on",
+                    )
+                )
+    return problems
 
 
 # ---------------------------------------------------------------- checks on the whole panel
@@ -967,6 +1053,8 @@ def _panel_from_grids(
             else grid.sheet
         )
         problems += _placement_problems(circuits, where_of, system, spaces, spaces_where)
+        cols = {spec.key: c for c, (spec, _) in found.items()}
+        problems += _reading_problems(circuits, grid, cols, Geometry(system.lines, spaces))
         notices += _group_notices(circuits, Geometry(system.lines, spaces))
     if not circuits and not problems:
         problems.append(Problem(grid.sheet, "no branch circuits found below the header row"))

@@ -58,6 +58,8 @@ def _flag_text(value: bool | None) -> str | None:
 # What the list sheet writes for each column key of balancer.io.columns (headers are taken from
 # there, so the reader finds them). The first five are always written, the others only when some
 # circuit has a value. A multi-pole breaker is written by its first space, as the reader expects.
+# The load column is the design load; the load balanced on, where a reading replaced it, has a
+# column of its own ("Balanced on (VA)", which the reader ignores) beside the readings.
 _CIRCUIT_VALUES: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
     ("space", lambda c: c.first_space, "0"),
     ("description", lambda c: c.description, "@"),
@@ -69,10 +71,16 @@ _CIRCUIT_VALUES: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
     ("locked", lambda c: "yes" if c.locked else None, "@"),
     ("group", lambda c: c.group or None, "@"),
     ("measured_a", lambda c: c.measured_a, "0.0"),
+    ("measured_line_a", lambda c: c.measured_line_a.get("A"), "0.0"),
+    ("measured_line_b", lambda c: c.measured_line_a.get("B"), "0.0"),
+    ("measured_line_c", lambda c: c.measured_line_a.get("C"), "0.0"),
+    ("balance_va", lambda c: c.balance_va, "#,##0"),
     ("voltage_v", lambda c: c.voltage_v, "0"),
     ("continuous", lambda c: _flag_text(c.continuous), "@"),
     ("neutral_va", lambda c: c.neutral_va, "#,##0"),
     ("yokes", lambda c: getattr(c, "yokes", None), "0"),
+    ("harmonic_profile", lambda c: c.harmonic_profile, "@"),
+    ("conductor", lambda c: c.conductor.as_written if c.conductor else None, "@"),
     ("notes", lambda c: c.notes or None, "@"),
 )
 _ALWAYS = 5
@@ -421,16 +429,18 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     return table
 
 
-def _side_cells(panel: Panel, space: int) -> tuple[Any, Any, Any, Any, Circuit | None]:
-    """Description, load VA on this space's line, trip and poles for one space."""
+def _side_cells(panel: Panel, space: int) -> tuple[Any, Any, Any, Any, Any, Circuit | None]:
+    """Description, design load VA and VA balanced on, on this space's line, trip and poles for
+    one space."""
     occupant = next((c for c in panel.circuits if space in c.spaces), None)
     if occupant is None:
-        return "(space)", None, None, None, None
+        return "(space)", None, None, None, None, None
     line = panel.geometry.line_of(space)
     share = share_by_line(panel, occupant).get(line, 0.0)
+    design = occupant.load_va / len(occupant.spaces)  # the same convention on the design load
     if space == occupant.first_space:
-        return occupant.description, share, occupant.trip_a, occupant.poles, occupant
-    return f"(pole of space {occupant.first_space})", share, None, None, occupant
+        return occupant.description, design, share, occupant.trip_a, occupant.poles, occupant
+    return f"(pole of space {occupant.first_space})", design, share, None, None, occupant
 
 
 def _layout(ws: Worksheet, result: BalanceResult) -> None:
@@ -439,40 +449,41 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
     ws.title = "Layout"
     ws["A1"] = f"{panel.name}: revised layout, as the panel is built (odd spaces left, even right)"
     ws["A1"].font = _TITLE_FONT
+    # Readings replaced some loads (--basis measured or larger): a "Balanced VA" column beside
+    # each "Load VA" (the design load) gives the figure the balance was made on.
+    k = 1 if any(c.balance_va is not None for c in panel.circuits) else 0
     ws["A2"] = (
-        f"{panel.system.label()}. Load VA is each circuit's share on that row's line. "
-        "'Was' gives the old spaces of a moved breaker."
+        f"{panel.system.label()}. Load VA is each circuit's share on that row's line"
+        + (" (schedule VA); Balanced VA the share it was balanced on" if k else "")
+        + ". 'Was' gives the old spaces of a moved breaker."
     )
-    titles = [
-        "Was",
-        "Description",
-        "Load VA",
-        "Trip A",
-        "Poles",
-        "Space",
-        "Line",
-        "Space",
-        "Poles",
-        "Trip A",
-        "Load VA",
-        "Description",
-        "Was",
-    ]
+    side = ["Trip A", "Poles", "Space"]
+    load = ["Load VA", "Balanced VA"][: 1 + k]
+    titles = ["Was", "Description", *load, *side, "Line", *side[::-1], *load[::-1], "Description"]
+    titles.append("Was")
     _header(ws, 3, titles)
+    line_col = 7 + k
     geometry = panel.geometry
     totals = dict.fromkeys(panel.lines, 0.0)
+    balanced = dict.fromkeys(panel.lines, 0.0)
     row = 3
     for pair in range(geometry.rows()):
         row += 1
         left, right = 2 * pair + 1, 2 * pair + 2
         line = geometry.line_of(left)
-        for space, cols in ((left, (2, 3, 4, 5, 6, 1)), (right, (12, 11, 10, 9, 8, 13))):
+        sides = (
+            (left, (2, 3, 4, 4 + k, 5 + k, 6 + k, 1)),
+            (right, (12 + 2 * k, 11 + 2 * k, 11 + k, 10 + k, 9 + k, 8 + k, 13 + 2 * k)),
+        )
+        for space, cols in sides:
             if space > panel.spaces:
                 continue
-            description, share, trip, poles, occupant = _side_cells(panel, space)
-            d_col, va_col, trip_col, poles_col, space_col, was_col = cols
+            description, design, share, trip, poles, occupant = _side_cells(panel, space)
+            d_col, va_col, bal_col, trip_col, poles_col, space_col, was_col = cols
             _put(ws, row, d_col, description)
-            _put(ws, row, va_col, share, VA)
+            _put(ws, row, va_col, design, VA)
+            if k:
+                _put(ws, row, bal_col, share, VA)
             _put(ws, row, trip_col, trip, "0")
             _put(ws, row, poles_col, poles, "0")
             _put(ws, row, space_col, space, "0")
@@ -480,33 +491,37 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
             moved = occupant is not None and before_spaces.get(occupant.id) != occupant.spaces
             was = _spaces_text(before_spaces.get(occupant.id, ())) if moved and occupant else None
             _put(ws, row, was_col, was)
+            if design:
+                totals[line] += design
             if share:
-                totals[line] += share
+                balanced[line] += share
             if description == "(space)":
                 ws.cell(row=row, column=d_col).font = Font(italic=True, color="6B7785")
             if moved:
-                for col in cols:
+                for col in set(cols):
                     ws.cell(row=row, column=col).fill = _MOVED_FILL
-        _put(ws, row, 7, line)
-        centre = ws.cell(row=row, column=7)
+        _put(ws, row, line_col, line)
+        centre = ws.cell(row=row, column=line_col)
         centre.alignment = _CENTRE
         centre.font = Font(bold=True)
         centre.fill = _LINE_FILL
     row += 2
     _section(ws, row, "Line totals")
     row += 1
-    _header(ws, row, ["Line", "Load VA", "A RMS"], col=2)
+    _header(ws, row, ["Line", *load, "A RMS"], col=2)
     for line in panel.lines:
         row += 1
         _put(ws, row, 2, line)
         _put(ws, row, 3, totals[line], VA)
-        _put(ws, row, 4, result.after.line_amps[line], AMPS)
+        if k:
+            _put(ws, row, 4, balanced[line], VA)
+        _put(ws, row, 4 + k, result.after.line_amps[line], AMPS)
     if panel.system.neutral:
         row += 1
         _put(ws, row, 2, "N")
         _put(ws, row, 3, None)
-        _put(ws, row, 4, result.after.neutral_amps, AMPS)
-    _widths(ws, [8, 30, 10, 7, 6, 7, 6, 7, 6, 7, 10, 30, 8])
+        _put(ws, row, 4 + k, result.after.neutral_amps, AMPS)
+    _widths(ws, [8, 30, *[10] * (1 + k), 7, 6, 7, 6, 7, 6, 7, *[10] * (1 + k), 30, 8])
     ws.freeze_panes = "A4"
     print_setup(ws, landscape=True, title_rows="1:3")
 
@@ -516,11 +531,13 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
     moved = {m.circuit_id for m in result.moves}
     ws["A1"] = f"{result.after_panel.name}: {len(moved)} breaker(s) change spaces"
     ws["A1"].font = _TITLE_FONT
+    balanced = any(c.balance_va is not None for c in result.before_panel.circuits)
     titles = [
         "Circuit",
         "Description",
         "Poles",
         "Load VA",
+        *(["Balanced VA"] if balanced else []),
         "Old spaces",
         "Old lines",
         "New spaces",
@@ -538,6 +555,7 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
             (circuit.description, None),
             (circuit.poles, "0"),
             (circuit.load_va, VA),
+            *([(circuit.basis_va, VA)] if balanced else []),
             (_spaces_text(circuit.spaces), None),
             (_lines_text(result.before_panel.lines_of(circuit)), None),
             (_spaces_text(new.spaces), None),
@@ -546,12 +564,12 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
         ]
         for col, (value, fmt) in enumerate(values, start=1):
             _put(ws, row, col, value, fmt)
-            if col >= 5:
+            if col >= 5 + balanced:
                 ws.cell(row=row, column=col).alignment = _CENTRE
             if circuit.id in moved:
                 ws.cell(row=row, column=col).fill = _MOVED_FILL
-    ws.auto_filter.ref = f"A2:I{row}"
-    _widths(ws, [9, 32, 6, 10, 11, 9, 11, 9, 8])
+    ws.auto_filter.ref = f"A2:{get_column_letter(len(titles))}{row}"
+    _widths(ws, [9, 32, 6, 10, *([10] if balanced else []), 11, 9, 11, 9, 8])
     ws.freeze_panes = "A3"
     print_setup(ws, landscape=True, title_rows="2:2")
 

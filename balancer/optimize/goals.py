@@ -174,7 +174,7 @@ def fundamental_currents(panel: Panel) -> Mapping[Line, complex]:
     out: dict[Line, complex] = dict.fromkeys(panel.lines, 0j)
     for circuit in panel.circuits:
         lines = panel.lines_of(circuit)
-        if not lines or not circuit.load_va:
+        if not lines or not circuit.basis_va:
             continue
         fundamental = circuit_currents_by_order(panel.system, circuit, lines)[1]
         for line, current in fundamental.lines.items():

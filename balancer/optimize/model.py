@@ -235,7 +235,7 @@ def contribution(
     for i, member_lines in zip(members, lines, strict=True):
         circuit = panel.circuits[i]
         for line in member_lines:
-            phase[line] += circuit.load_va / len(member_lines)
+            phase[line] += circuit.basis_va / len(member_lines)
         # the same fundamental phasors analyze() reports (voltage, neutral share and the
         # harmonic profile included), so a proven current is the current shown
         fundamental = circuit_currents_by_order(panel.system, circuit, tuple(member_lines))[1]
@@ -517,7 +517,7 @@ def define_target(
     panel = layout.panel
     lines = panel.lines
     total = sum(fixed.phase_va.values()) + sum(
-        panel.circuits[i].load_va for unit in layout.units for i in unit.members
+        panel.circuits[i].basis_va for unit in layout.units for i in unit.members
     )
     allowance = target_imbalance_pct / 100.0 * total / len(lines)
     for j, line in enumerate(lines):
@@ -580,7 +580,7 @@ def _step_bound(panel: Panel, layout: Layout, fixed_va: Mapping[Line, float]) ->
     """
     n = len(panel.lines)
     movable = [
-        panel.circuits[i].load_va / panel.circuits[i].poles
+        panel.circuits[i].basis_va / panel.circuits[i].poles
         for unit in layout.units
         for i in unit.members
         if panel.circuits[i].poles < n
@@ -630,17 +630,17 @@ def spread_lower_bound(layout: Layout) -> float:
     for i in layout.fixed:
         circuit = panel.circuits[i]
         if circuit.poles < n:
-            shares += [circuit.load_va / circuit.poles] * circuit.poles
+            shares += [circuit.basis_va / circuit.poles] * circuit.poles
     heaviest = 0.0
     for unit in layout.units:
         for i in unit.members:
             circuit = panel.circuits[i]
-            share = circuit.load_va / circuit.poles
+            share = circuit.basis_va / circuit.poles
             if circuit.poles < n:
                 shares += [share] * circuit.poles
                 heaviest = max(heaviest, share)
     total = math.fsum(fixed.phase_va.values()) + math.fsum(
-        panel.circuits[i].load_va for unit in layout.units for i in unit.members
+        panel.circuits[i].basis_va for unit in layout.units for i in unit.members
     )
     top = max(total / n, max(fixed.phase_va.values()), min(fixed.phase_va.values()) + heaviest)
     bound = max(0.0, top - (total - top) / (n - 1))

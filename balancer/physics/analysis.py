@@ -76,9 +76,10 @@ class Loads:
 
 
 def share_by_line(panel: Panel, circuit: Circuit) -> dict[Line, float]:
-    """The circuit's VA on each of its lines, by the schedule convention."""
+    """The circuit's VA on each of its lines, by the schedule convention, on the load it is
+    balanced on (:attr:`Circuit.basis_va`)."""
     lines = panel.lines_of(circuit)
-    return {line: circuit.load_va / len(lines) for line in lines} if lines else {}
+    return {line: circuit.basis_va / len(lines) for line in lines} if lines else {}
 
 
 def spread_and_imbalance(phase_va: dict[Line, float]) -> tuple[float, float]:
@@ -114,19 +115,19 @@ def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Load
     for circuit in panel.circuits:
         circuit_lines = panel.lines_of(circuit)
         if not circuit_lines:
-            if circuit.load_va:
+            if circuit.basis_va:
                 unplaced.append(circuit.id)
             continue
         for line, va in share_by_line(panel, circuit).items():
             phase_va[line] += va
-        if circuit.load_va == 0:
+        if circuit.basis_va == 0:
             continue
         where = f"circuit {circuit.id}" + (
             f" (row {circuit.source_row})" if circuit.source_row is not None else ""
         )
         try:
             spectrum = spectrum_for(circuit, profiles)
-            system, load_va, pf = panel.system, circuit.load_va, circuit.power_factor
+            system, load_va, pf = panel.system, circuit.basis_va, circuit.power_factor
             volts, neutral_va = circuit.voltage_v, circuit.neutral_va
             parts = circuit_harmonic_currents(
                 system, circuit_lines, load_va, pf, spectrum, volts, neutral_va

@@ -2,8 +2,9 @@
 
 A profile is a spectrum: per-unit magnitudes m_h of the fundamental current by order h. The
 bundled table lives in ``data/harmonics.toml``; a user's file of the same layout adds profiles
-or replaces them. A circuit takes the profile its ``Harmonics`` entry names, else the one its
-load class matches, else none (a linear load).
+or replaces them. A circuit takes the profile its ``Harmonics`` entry names
+(``Circuit.harmonic_profile``, checked when the schedule is read), else the one its load class
+matches, else none (a linear load).
 """
 
 from __future__ import annotations
@@ -21,9 +22,6 @@ from balancer.domain.systems import Line, System
 from balancer.errors import Problem, ScheduleError
 from balancer.physics.phasors import CircuitCurrents, circuit_harmonic_currents
 
-# Column names (normalised) a schedule may use to name a circuit's harmonic profile; the reader
-# keeps unknown columns in Circuit.extra, where this module looks them up.
-PROFILE_COLUMNS = ("harmonics", "harmonicprofile", "harmonic", "profile")
 HIGHEST_ORDER = 99  # orders above this add nothing a panel schedule can use
 
 
@@ -125,15 +123,16 @@ def profile_for(circuit: Circuit, profiles: Mapping[str, Profile] | None = None)
     Raises
     ------
     ValueError
-        When the circuit names a profile that does not exist.
+        When the circuit names a profile that ``profiles`` does not hold (the reader refuses a
+        name no bundled profile has, so this is a circuit made in code or other profiles).
     """
-    for column, value in circuit.extra:
-        if _key(str(column)) in PROFILE_COLUMNS and str(value or "").strip():
-            found = find_profile(str(value), profiles)
-            if found is None:
-                known = ", ".join(sorted((profiles or builtin_profiles()).keys()))
-                raise ValueError(f"unknown harmonic profile {value!r}; known: {known}")
-            return found
+    named = (circuit.harmonic_profile or "").strip()
+    if named:
+        found = find_profile(named, profiles)
+        if found is None:
+            known = ", ".join(sorted((profiles or builtin_profiles()).keys()))
+            raise ValueError(f"unknown harmonic profile {named!r}; known: {known}")
+        return found
     return find_profile(circuit.load_class, profiles) if circuit.load_class else None
 
 
@@ -155,7 +154,7 @@ def circuit_currents_by_order(
     return circuit_harmonic_currents(
         system,
         tuple(lines),
-        circuit.load_va,
+        circuit.basis_va,
         circuit.power_factor,
         spectrum_for(circuit, profiles),
         circuit.voltage_v,

@@ -65,7 +65,7 @@ def greedy_lines(layout: Layout) -> list[int] | None:
     picks = [-1] * len(layout.units)
     order = sorted(
         range(len(layout.units)),
-        key=lambda u: (-sum(panel.circuits[i].load_va for i in layout.units[u].members), u),
+        key=lambda u: (-sum(panel.circuits[i].basis_va for i in layout.units[u].members), u),
     )
     for u in order:
         unit = layout.units[u]
