@@ -59,3 +59,25 @@ def test_use_color_only_on_a_terminal(monkeypatch: pytest.MonkeyPatch) -> None:
     assert use_color(Tty(), no_color=True) is False
     monkeypatch.setenv("NO_COLOR", "1")
     assert use_color(Tty()) is False
+
+
+def test_heaviest_line_is_the_one_carrying_most_current() -> None:
+    from balancer.report.textbars import heaviest_lines
+
+    # by VA line A leads, but line B carries more current (a lower power factor, common
+    # practice: amperes, not VA, heat the conductors and trip the breaker)
+    assert heaviest_lines({"A": 113.4, "B": 118.8, "C": 116.0}) == ("B",)
+    assert heaviest_lines({"A": 120.0, "B": 120.02, "C": 80.0}) == ("A", "B")  # a tie
+    assert heaviest_lines({"A": 50.0, "B": 50.0, "C": 50.0}) == ()  # balanced: none
+
+
+def test_no_negative_zero_deviation() -> None:
+    from dataclasses import replace
+
+    loads = demo_result().after
+    # a line a hair below the average prints as +0.0 %, never -0.0 %
+    average = sum(loads.phase_va.values()) / 3
+    nearly = replace(loads, phase_va={"A": average - 0.001, "B": average + 0.001, "C": average})
+    text = "\n".join(phase_bars(nearly))
+    assert "-0.0 %" not in text
+    assert text.count("+0.0 %") == 3

@@ -35,6 +35,19 @@ def use_color(stream: TextIO, no_color: bool = False) -> bool:
     return bool(isatty and isatty())
 
 
+TIE_A = 0.05  # currents that round to the same tenth of an ampere are a tie
+
+
+def heaviest_lines(amps: Mapping[Line, float]) -> tuple[Line, ...]:
+    """The line carrying the most current, or every line tied for it; none when all carry the
+    same (a balanced panel has no heaviest line)."""
+    if not amps:
+        return ()
+    top = max(amps.values())
+    tied = tuple(line for line, value in amps.items() if top - value < TIE_A)
+    return () if len(tied) == len(amps) else tied
+
+
 def _bar(value: float, scale_max: float, average: float, width: int) -> str:
     filled = 0 if scale_max <= 0 else round(value / scale_max * width)
     mark = None if scale_max <= 0 else min(width - 1, round(average / scale_max * width))
@@ -64,7 +77,8 @@ def phase_bars(
     width
         Characters in a full-length bar.
     color
-        Add ANSI colour (the heaviest line in bold yellow). The text is the same without it.
+        Add ANSI colour (the heaviest line, by current, in bold yellow). The text is the same
+        without it.
     scale_max_va
         VA of a full bar; give the same value to draw "before" and "after" on one scale.
     show_neutral
@@ -79,18 +93,19 @@ def phase_bars(
     values = list(phase_va.values())
     average = math.fsum(values) / len(values) if values else 0.0
     top = scale_max_va if scale_max_va is not None else max(values, default=0.0)
-    heaviest = max(phase_va, key=lambda line: phase_va[line]) if values else None
+    amps_by_line = loads.line_rms_a or loads.line_a  # RMS heats conductors
+    heaviest = heaviest_lines(amps_by_line)
     out = [title] if title else []
-    spread_tied = max(values, default=0.0) - min(values, default=0.0) < 0.5
     for line, va in phase_va.items():
         deviation = 0.0 if average == 0 else (va - average) / average * 100.0
-        amps = (loads.line_rms_a or loads.line_a).get(line, 0.0)  # RMS heats conductors
+        deviation = round(deviation, 1) + 0.0  # no "-0.0 %"
+        amps = amps_by_line.get(line, 0.0)
         text = (
             f"{line}  {_bar(va, top, average, width)}  {va:>9,.0f} VA  {amps:>7.1f} A"
             f"  {deviation:+6.1f} %"
         )
-        if line == heaviest and not spread_tied:
-            text += "  heaviest"
+        if line in heaviest:
+            text += "  heaviest (tie)" if len(heaviest) > 1 else "  heaviest"
             if color:
                 text = f"{_BOLD}{_YELLOW}{text}{_RESET}"
         out.append(text)
