@@ -1134,8 +1134,6 @@ def cautions(rules: RuleSet) -> tuple[str, ...]:
             "installation is, its local amendments and the authority having jurisdiction govern; "
             "check every figure against them and against licensed practice."
         ),
-        "Work on panelboards and feeders only by qualified persons: de-energise, lock out, and "
-        "verify the absence of voltage with a meter before touching conductors.",
     ]
     if not rules.feeder_sizing:
         lines.append(

@@ -19,6 +19,7 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceResult
 from balancer.domain.systems import Line
 from balancer.physics.analysis import analyze
+from balancer.report.safety import CAUTIONS
 
 Action = Literal["install", "move", "park", "set aside", "reinstall"]
 
@@ -29,27 +30,6 @@ ACTION_TEXT: dict[Action, str] = {
     "set aside": "Remove breaker and set aside (temporary space needed)",
     "reinstall": "Re-install breaker set aside earlier",
 }
-
-CAUTIONS: tuple[str, ...] = (
-    "Work inside a panelboard is for qualified persons only, with the PPE and procedures the "
-    "workplace's electrical safety program requires.",
-    "De-energise the panel (or at the least every circuit being moved) and lock it out before "
-    "removing any breaker or conductor.",
-    "Verify absence of voltage with a meter tested on a known live source before and after, on "
-    "every conductor you will touch, line to line and line to ground.",
-    "Multiwire branch circuits: re-identify each one before moving it; its shared neutral stays "
-    "with its circuits, the ungrounded conductors stay on different lines, and the multipole "
-    "breaker or listed handle tie must open them all together (NEC 210.4).",
-    "Keep conductor order when re-landing 3-pole circuits and check motor rotation afterwards.",
-    "Check each breaker is listed for the panelboard and each conductor reaches its new space "
-    "without splices that the adopted code does not allow.",
-    "Update the circuit directory at the panel to the new layout (NEC 408.4) and record the "
-    "change in the building's drawings.",
-    "Measure per-line and neutral currents after the work and compare them with the expected "
-    "figures below.",
-    "This work order is an engineering aid: the adopted code with its local amendments, the "
-    "authority having jurisdiction and licensed practice govern.",
-)
 
 
 @dataclass(frozen=True, slots=True)

@@ -25,24 +25,15 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceResult, SolveStatus
 from balancer.errors import OutputError
 from balancer.physics.analysis import Loads, share_by_line
+from balancer.report.safety import CAUTIONS
 
 if TYPE_CHECKING:
     from balancer.code.demand import DemandResult
+    from balancer.field.workorder import WorkOrder
 
 ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
 """A sheet another part of balancer adds: its title and its rows (the first row is the header)."""
 
-SAFETY_NOTES: tuple[str, ...] = (
-    "Work on panelboards only by qualified persons, with the equipment de-energised, locked out "
-    "and verified dead with a properly rated meter before touching any conductor.",
-    "Moving a breaker changes which line feeds each circuit: check multiwire branch circuits "
-    "(NEC 210.4: handle ties or multipole breakers, conductors on different lines), high-leg "
-    "marking (NEC 110.15) and the circuit directory (NEC 408.4) after every change.",
-    "These figures are an engineering aid computed from the schedule as given, not a measurement: "
-    "confirm the loads with a meter under typical operation.",
-    "The adopted electrical code, its local amendments, the authority having jurisdiction and "
-    "licensed professional practice govern over anything this tool reports.",
-)
 
 STATUS_TEXT = {
     SolveStatus.OPTIMAL: "optimal: proven best within the stated tolerance",
@@ -421,7 +412,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
 
     row += 2
     _section(ws, row, "Cautions")
-    for note in SAFETY_NOTES:
+    for note in CAUTIONS:
         row += 1
         _long_text(ws, row, 1, note, last_col=6, chars_per_line=95)
     _widths(ws, [36, 16, 16, 13, 14, 14])
@@ -676,7 +667,7 @@ def _notes(ws: Worksheet) -> None:
     ws["A1"] = "Cautions and how to read this workbook"
     ws["A1"].font = _TITLE_FONT
     lines = [
-        *SAFETY_NOTES,
+        *CAUTIONS,
         "Per-line VA follows the usual schedule convention (common practice): a 1-pole load "
         "counts wholly on its line, a 2-pole load half on each line, a 3-pole load a third.",
         "Imbalance % is the largest deviation from the average line load, divided by the average "
@@ -781,7 +772,7 @@ def write_workbook(
     input_path: Path | str | None = None,
     extra_sheets: Sequence[ExtraSheet] = (),
     demand: DemandResult | None = None,
-    work_order: bool = True,
+    order: WorkOrder | None = None,
     phasor_diagram: bool = True,
     harmonic_neutral_rms_a: Sequence[float | None] | None = None,
 ) -> Path:
@@ -801,8 +792,8 @@ def write_workbook(
     demand
         Demand loads and feeder check (:func:`balancer.code.demand.compute_demand`), as a "Demand"
         sheet.
-    work_order
-        Add the "Work order" sheet (steps through free spaces) when breakers move.
+    order
+        The work order planned for the result, as a "Work order" sheet when it has steps.
     phasor_diagram
         Add the "Phasors" sheet with the diagram image (needs matplotlib and Pillow).
     harmonic_neutral_rms_a
@@ -848,10 +839,10 @@ def write_workbook(
         from balancer.code.demand import demand_sheet_rows
 
         sheets.insert(0, ("Demand", demand_sheet_rows(demand)))
-    if work_order and result.moves:
-        from balancer.field.workorder import work_order_for, work_order_rows
+    if order is not None and order.steps:
+        from balancer.field.workorder import work_order_rows
 
-        sheets.insert(0, ("Work order", work_order_rows(work_order_for(result))))
+        sheets.insert(0, ("Work order", work_order_rows(order)))
     taken = set(wb.sheetnames)
     for title, rows in sheets:
         name = title[:31]
