@@ -265,7 +265,7 @@ def write_summary(path: Path, rows: Sequence[Row], mode: Mode) -> Path:
     from openpyxl import Workbook
     from openpyxl.styles import Font
 
-    from balancer.io.writer import save_workbook
+    from balancer.io.files import save_workbook
 
     book = Workbook()
     sheet = book.active

@@ -13,7 +13,7 @@ import pytest
 from openpyxl import Workbook
 
 from balancer.cli.main import main
-from balancer.io import writer
+from balancer.io import files
 
 SCHEDULE = "Circuit,Description,Poles,Load (VA)\n1,Lighting,1,1200\n3,Receptacles,1,900\n"
 
@@ -72,7 +72,7 @@ def test_output_folder_read_only_is_refused(
     def refuse(*args: object, **kwargs: object) -> tuple[int, str]:
         raise PermissionError(errno.EACCES, os.strerror(errno.EACCES))
 
-    monkeypatch.setattr(writer.tempfile, "mkstemp", refuse)
+    monkeypatch.setattr(files.tempfile, "mkstemp", refuse)
     output = tmp_path / "out.xlsx"
     status, err = _balance(schedule, output, capsys)
     assert status == 2
@@ -121,5 +121,5 @@ def test_written_files_follow_the_umask(
     capsys.readouterr()
     assert stat.S_IMODE(output.stat().st_mode) == 0o640
     assert stat.S_IMODE(pdf.stat().st_mode) == 0o640
-    raw = writer.atomic_write_bytes(tmp_path / "raw.bin", b"x")
+    raw = files.atomic_write_bytes(tmp_path / "raw.bin", b"x")
     assert stat.S_IMODE(raw.stat().st_mode) == 0o640

@@ -433,7 +433,8 @@ def write_building_workbook(
     from openpyxl.styles import Alignment, Font
 
     from balancer.building.files import write_building_sheets
-    from balancer.io.writer import print_setup, save_workbook, write_rows_sheet
+    from balancer.io.files import save_workbook
+    from balancer.io.writer import print_setup, write_rows_sheet
 
     book = Workbook()
     summary = book.active

@@ -295,7 +295,7 @@ def phasor_figure_bytes(fig: Figure, fmt: Literal["png", "svg"] = "png", dpi: in
 
 def save_phasor_diagram(fig: Figure, stem: Path) -> tuple[Path, Path]:
     """Write ``<stem>.png`` and ``<stem>.svg`` atomically; return both paths."""
-    from balancer.io.writer import atomic_write_bytes
+    from balancer.io.files import atomic_write_bytes
 
     png = atomic_write_bytes(stem.with_suffix(".png"), phasor_figure_bytes(fig, "png"))
     svg = atomic_write_bytes(stem.with_suffix(".svg"), phasor_figure_bytes(fig, "svg"))

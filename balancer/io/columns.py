@@ -1,5 +1,5 @@
 """The schedule's input columns as data: one table drives the reader, its messages and the
-format reference in docs/format.md (``python -m balancer.io.columns`` prints that table)."""
+format reference in docs/format.md (``python -m balancer.cli.format_doc`` prints that table)."""
 
 from __future__ import annotations
 
@@ -291,7 +291,3 @@ def format_table_markdown() -> str:
             f"| {spec.description} |"
         )
     return "\n".join(lines)
-
-
-if __name__ == "__main__":
-    print(format_table_markdown())

@@ -15,11 +15,10 @@ from typing import TYPE_CHECKING, Any, Literal
 
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceResult
+from balancer.io.files import atomic, refuse_input_path
 from balancer.io.writer import (
     STATUS_TEXT,
     ExtraSheet,
-    _atomic,
-    refuse_input_path,
     row_role,
 )
 from balancer.physics.analysis import Loads, share_by_line
@@ -690,7 +689,7 @@ def write_pdf(
                 for fig in figures:
                     pdf.savefig(fig)
 
-    return _atomic(path, write)
+    return atomic(path, write)
 
 
 def write_building_pdf(
@@ -748,4 +747,4 @@ def write_building_pdf(
             for fig in figures():
                 pdf.savefig(fig)
 
-    return _atomic(path, write)
+    return atomic(path, write)
