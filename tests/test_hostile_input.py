@@ -389,3 +389,12 @@ def test_xlsx_whose_sheet_list_is_unreadable_is_refused(
         lambda x: x.replace(b'xmlns:r="http', b'xmlns:r="ittp'),
     )
     _refused(path, capsys, str(path), "it holds no worksheet")
+
+
+def test_control_characters_in_the_panel_name_option_are_removed(tmp_path: Path) -> None:
+    from balancer.io.reader import PanelOverrides, read_schedule
+
+    schedule = tmp_path / "p.csv"
+    schedule.write_text("Circuit,Description,Poles,VA\n1,lights,1,1200\n", encoding="utf-8")
+    panel = read_schedule(schedule, PanelOverrides(name="LP\x00-1\x1b"))
+    assert panel.name == "LP-1"  # a workbook cannot hold NUL or ESC: it would refuse to save

@@ -411,3 +411,33 @@ def test_count_moves_ignores_new_breakers() -> None:
     panel = _three_on_a().with_circuits([*_three_on_a().circuits, Circuit("n", "new", 1, 10.0, ())])
     after = panel.with_circuits([c.moved_to((8,)) if c.id == "n" else c for c in panel.circuits])
     assert count_moves(panel, after) == 0
+
+
+def test_a_recommendation_that_raises_the_neutral_says_so_and_names_a_row_that_does_not() -> None:
+    from writer_demo import demo_result
+
+    from balancer.domain.result import Recommendation, TradeoffRow
+    from balancer.field.run import _with_neutral
+    from balancer.field.tradeoff import Tradeoff
+
+    result = demo_result()
+    present = result.before.neutral_amps  # 49.2 A on the demo panel as it stands
+    raised = replace(result.after, neutral_rms_a=present + 10.0)
+    chosen = Recommendation("within", "2 move(s)", 2, 1.0, 4, 0.1)
+    result = replace(result, after=raised, recommendation=chosen)
+
+    def row(moves: int, imbalance: float, neutral: float) -> TradeoffRow:
+        return TradeoffRow(
+            moves, 0.0, imbalance, neutral, SolveStatus.OPTIMAL, neutral_rms_a=neutral
+        )
+
+    rows = (row(0, 20.0, present), row(1, 5.0, present - 3), row(2, 1.0, present + 10))
+    table = Tradeoff(rows, (), 2, False)
+    note = _with_neutral(result, table)
+    assert note is not None
+    assert note.neutral_message is not None
+    assert f"from {present:.1f} A to {present + 10:.1f} A" in note.neutral_message
+    assert "the 1-move row (5.00 % imbalance)" in note.neutral_message
+    # and none when the neutral does not rise
+    calm = replace(result, after=replace(raised, neutral_rms_a=present - 1.0))
+    assert _with_neutral(calm, table) == chosen

@@ -1010,7 +1010,8 @@ def _panel_from_grids(
             where_of[circuit.id] = grid.where(item.row, item.cols.get("space", 0))
 
     pairs = _panel_pairs(panel_grid, grid.rows[:header_row], grid.sheet)
-    name = overrides.name or _text(pairs.get("name", (path.stem, ""))[0]) or path.stem
+    given = CONTROL_CHARACTERS.sub("", overrides.name or "").strip()  # --name is user text too
+    name = given or _text(pairs.get("name", (path.stem, ""))[0]) or path.stem
     system = _resolve_system(overrides.system, pairs, problems, notices)
     spaces = _resolve_spaces(overrides.spaces, pairs, circuits, problems, notices, grid.sheet)
     bus_a = overrides.bus_a
