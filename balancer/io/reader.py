@@ -595,169 +595,228 @@ def _rows(
     return out
 
 
-def _circuit(
-    item: _Row, grid: _Grid, scales: dict[str, float], problems: list[Problem], notices: list[str]
-) -> Circuit | None:
-    cells = item.cells
+@dataclass(slots=True)
+class _Cells:
+    """One circuit row's cells, read with every problem located at its cell."""
 
-    def where(key: str) -> str:
-        return grid.where(item.row, item.cols.get(key, 0))
+    item: _Row
+    grid: _Grid
+    scales: dict[str, float]
+    problems: list[Problem]
 
-    def number(key: str, what: str, *, allow_negative: bool = False) -> float | None:
-        if key not in cells:
+    def __contains__(self, key: str) -> bool:
+        return key in self.item.cells
+
+    def value(self, key: str) -> Any:
+        return self.item.cells.get(key)
+
+    def text(self, key: str) -> str:
+        return _text(self.item.cells.get(key))
+
+    def where(self, key: str) -> str:
+        return self.grid.where(self.item.row, self.item.cols.get(key, 0))
+
+    def problem(self, key: str, what: str) -> None:
+        self.problems.append(Problem(self.where(key), what))
+
+    def number(self, key: str, what: str, *, allow_negative: bool = False) -> float | None:
+        """The cell's number in the column's unit (kVA in a cell always read as kVA), or None
+        when blank or refused with a problem."""
+        if key not in self:
             return None
-        shown = _shown(_text(cells[key]))
+        shown = _shown(self.text(key))
         try:
-            value, unit = _number(cells[key])
+            value, unit = _number(self.value(key))
         except ValueError:
-            problems.append(Problem(where(key), f"{what} '{shown}' is not a number"))
+            self.problem(key, f"{what} '{shown}' is not a number")
             return None
         if value is None:
             return None
         if math.isnan(value):
-            problems.append(Problem(where(key), f"{what} '{shown}' is not a number"))
+            self.problem(key, f"{what} '{shown}' is not a number")
             return None
         is_load = key.startswith(("load", "phase"))
         if unit not in ("", "va", "a", "v", "kva", "%") or (unit in ("va", "kva") and not is_load):
-            problems.append(
-                Problem(where(key), f"{what} '{_text(cells[key])}': unit '{unit}' not understood")
-            )
+            self.problem(key, f"{what} '{self.text(key)}': unit '{unit}' not understood")
             return None
         if unit == "kva":
             value *= 1000.0  # the cell says kVA, whatever the column's unit
         elif unit != "va":
-            value *= scales.get(key, 1.0)
+            value *= self.scales.get(key, 1.0)
+        return self._bounded(key, what, value, shown, allow_negative)
+
+    def _bounded(
+        self, key: str, what: str, value: float, shown: str, allow_negative: bool
+    ) -> float | None:
+        """``value`` when within the column's bounds; else None, with a problem."""
         if value < 0 and not allow_negative:
-            problems.append(Problem(where(key), f"{what} {value:g} is negative"))
+            self.problem(key, f"{what} {value:g} is negative")
             return None
         bound, bound_unit, of = _LIMITS.get(key, (math.inf, "", ""))
         if not abs(value) <= bound:  # also infinity, and a 400-digit number read as one
-            problems.append(
-                Problem(
-                    where(key),
-                    f"{what} '{shown}' is more than {bound:,.0f}{' ' if bound_unit else ''}"
-                    f"{bound_unit}, the most balancer takes for {of}",
-                )
+            self.problem(
+                key,
+                f"{what} '{shown}' is more than {bound:,.0f}{' ' if bound_unit else ''}"
+                f"{bound_unit}, the most balancer takes for {of}",
             )
             return None
         return value
 
-    description = _text(cells.get("description"))
-    load_class = _text(cells.get("load_class")).lower()
-    space_text = _text(cells.get("space"))
+
+def _circuit(
+    item: _Row, grid: _Grid, scales: dict[str, float], problems: list[Problem], notices: list[str]
+) -> Circuit | None:
+    """The circuit on one schedule row; None for an empty space or line, or a refused row."""
+    cells = _Cells(item, grid, scales, problems)
+    description = cells.text("description")
+    load_class = cells.text("load_class").lower()
     if _SPACE.match(description) or load_class in ("space", "blank"):
         return None  # an empty space, not a breaker
-    poles_text = _text(cells.get("poles"))
-    poles = 1
-    if poles_text:
-        found = re.fullmatch(r"(\d+)\s*(p|pole|poles|-pole)?", poles_text, re.IGNORECASE)
-        if not found or not 1 <= int(found.group(1)) <= 3:
-            problems.append(Problem(where("poles"), f"poles '{poles_text}' must be 1, 2 or 3"))
-            return None
-        poles = int(found.group(1))
-    load = number("load_va", "load") if "load_va" in cells else number("load_kva", "load")
+    poles = _poles(cells)
+    if poles is None:
+        return None
+    load = _given_load(cells)
+    is_spare = bool(_SPARE.match(description)) or load_class == SPARE
+    if not description and load is None and not cells.text("poles") and not cells.text("trip_a"):
+        return None  # a numbered but empty line of the schedule
+    spaces = _spaces(cells, poles)
+    if spaces is None:
+        return None
+    pf = _power_factor(cells)
+    flags = {key: _yes_no(cells, key) for key in ("locked", "continuous")}
+    load = _counted_load(cells, load, description, is_spare, notices)
+    return Circuit(
+        id=str(spaces[0]) if spaces else f"R{item.row + 1}",
+        description=description,
+        poles=poles,
+        load_va=load,
+        spaces=spaces,
+        trip_a=cells.number("trip_a", "trip"),
+        load_class=SPARE if is_spare else load_class,
+        power_factor=pf if pf is not None else 1.0,
+        locked=bool(flags["locked"]),
+        group=cells.text("group"),
+        measured_a=cells.number("measured_a", "measured current"),
+        notes=cells.text("notes"),
+        voltage_v=cells.number("voltage_v", "voltage"),
+        continuous=flags["continuous"],
+        neutral_va=cells.number("neutral_va", "neutral share"),
+        yokes=cells.number("yokes", "receptacle count"),
+        source_row=item.row + 1,
+        measured_line_a=_line_readings(cells),
+        harmonic_profile=_harmonic_profile(cells.value("harmonic_profile"), cells.where, problems),
+        conductor=_conductor(cells.value("conductor"), cells.where, problems),
+        extra=item.extra,
+    )
+
+
+def _poles(cells: _Cells) -> int | None:
+    """The breaker's poles (1 when blank), or None with a problem."""
+    poles_text = cells.text("poles")
+    if not poles_text:
+        return 1
+    found = re.fullmatch(r"(\d+)\s*(p|pole|poles|-pole)?", poles_text, re.IGNORECASE)
+    if not found or not 1 <= int(found.group(1)) <= 3:
+        cells.problem("poles", f"poles '{poles_text}' must be 1, 2 or 3")
+        return None
+    return int(found.group(1))
+
+
+def _given_load(cells: _Cells) -> float | None:
+    """The load column's figure, else the sum of the per-line loads given, else None."""
+    load = (
+        cells.number("load_va", "load") if "load_va" in cells else cells.number("load_kva", "load")
+    )
     phase_parts = [
-        number(k, f"line {k[-1].upper()} load")
+        cells.number(k, f"line {k[-1].upper()} load")
         for k in ("phase_a", "phase_b", "phase_c")
         if k in cells
     ]
     if load is None and any(p is not None for p in phase_parts):
         load = sum(p for p in phase_parts if p is not None)
-    is_spare = bool(_SPARE.match(description)) or load_class == SPARE
-    if not description and load is None and not poles_text and not _text(cells.get("trip_a")):
-        return None  # a numbered but empty line of the schedule
-    spaces: tuple[int, ...] = ()
-    if space_text:
-        try:
-            listed = _space_list(cells["space"])
-        except ValueError:
-            problems.append(
-                Problem(where("space"), f"space '{_shown(space_text)}' is not a space number")
-            )
-            return None
-        if any(s < 1 for s in listed):
-            problems.append(Problem(where("space"), f"space '{space_text}' must be 1 or more"))
-            return None
-        if any(s > MAX_SPACES for s in listed):
-            problems.append(
-                Problem(
-                    where("space"),
-                    f"space '{_shown(space_text)}' is past {MAX_SPACES}, the most spaces "
-                    "balancer takes for a panel",
-                )
-            )
-            return None
-        first = listed[0]
-        spaces = tuple(first + 2 * k for k in range(poles))
-        if len(listed) > 1 and tuple(listed) != spaces:
-            problems.append(
-                Problem(
-                    where("space"),
-                    f"spaces {space_text} do not fit a {poles}-pole breaker at space {first} "
-                    f"(it takes {', '.join(map(str, spaces))})",
-                )
-            )
-            return None
-    pf = number("power_factor", "power factor", allow_negative=True)
-    if pf is not None and not (0 < abs(pf) <= 1):
-        problems.append(
-            Problem(
-                where("power_factor"),
-                f"power factor {pf:g} must be between 0 and 1 (negative for leading)",
-            )
+    return load
+
+
+def _spaces(cells: _Cells, poles: int) -> tuple[int, ...] | None:
+    """The spaces the breaker takes (none when the cell is blank), or None with a problem."""
+    space_text = cells.text("space")
+    if not space_text:
+        return ()
+    try:
+        listed = _space_list(cells.value("space"))
+    except ValueError:
+        cells.problem("space", f"space '{_shown(space_text)}' is not a space number")
+        return None
+    if any(s < 1 for s in listed):
+        cells.problem("space", f"space '{space_text}' must be 1 or more")
+        return None
+    if any(s > MAX_SPACES for s in listed):
+        cells.problem(
+            "space",
+            f"space '{_shown(space_text)}' is past {MAX_SPACES}, the most spaces "
+            "balancer takes for a panel",
         )
-        pf = None
-    flags = {}
-    for key in ("locked", "continuous"):
-        try:
-            flags[key] = _flag(cells.get(key))
-        except ValueError:
-            problems.append(Problem(where(key), f"{key} '{_text(cells[key])}' should be yes or no"))
-            flags[key] = None
+        return None
+    first = listed[0]
+    spaces = tuple(first + 2 * k for k in range(poles))
+    if len(listed) > 1 and tuple(listed) != spaces:
+        cells.problem(
+            "space",
+            f"spaces {space_text} do not fit a {poles}-pole breaker at space {first} "
+            f"(it takes {', '.join(map(str, spaces))})",
+        )
+        return None
+    return spaces
+
+
+def _power_factor(cells: _Cells) -> float | None:
+    """The power factor given (negative for leading), or None when blank or out of range."""
+    pf = cells.number("power_factor", "power factor", allow_negative=True)
+    if pf is not None and not (0 < abs(pf) <= 1):
+        cells.problem(
+            "power_factor", f"power factor {pf:g} must be between 0 and 1 (negative for leading)"
+        )
+        return None
+    return pf
+
+
+def _yes_no(cells: _Cells, key: str) -> bool | None:
+    """A yes/no column's answer, None when blank or not understood (with a problem)."""
+    try:
+        return _flag(cells.value(key))
+    except ValueError:
+        cells.problem(key, f"{key} '{cells.text(key)}' should be yes or no")
+        return None
+
+
+def _counted_load(
+    cells: _Cells, load: float | None, description: str, is_spare: bool, notices: list[str]
+) -> float:
+    """The load counted: 0 VA when none is given, said in a notice unless the row is a spare."""
     if load is None:
         if not is_spare:
             notices.append(
-                f"{where('load_va' if 'load_va' in cells else 'load_kva')}: "
+                f"{cells.where('load_va' if 'load_va' in cells else 'load_kva')}: "
                 f"'{description or 'circuit'}' has no load; counted as 0 VA"
             )
-        load = 0.0
-    if is_spare:
-        if load:
-            notices.append(
-                f"{where('load_va')}: spare '{description}' has a load of {load:g} VA; "
-                "counted as given"
-            )
-        load_class = SPARE
-    circuit_id = str(spaces[0]) if spaces else f"R{item.row + 1}"
-    return Circuit(
-        id=circuit_id,
-        description=description,
-        poles=poles,
-        load_va=load,
-        spaces=spaces,
-        trip_a=number("trip_a", "trip"),
-        load_class=load_class,
-        power_factor=pf if pf is not None else 1.0,
-        locked=bool(flags.get("locked")),
-        group=_text(cells.get("group")),
-        measured_a=number("measured_a", "measured current"),
-        notes=_text(cells.get("notes")),
-        voltage_v=number("voltage_v", "voltage"),
-        continuous=flags.get("continuous"),
-        neutral_va=number("neutral_va", "neutral share"),
-        yokes=number("yokes", "receptacle count"),
-        source_row=item.row + 1,
-        measured_line_a=LineReadings.of(
-            {
-                line: amps
-                for line in "ABC"
-                if (amps := number(f"measured_line_{line.lower()}", f"line {line} reading"))
-                is not None
-            }
-        ),
-        harmonic_profile=_harmonic_profile(cells.get("harmonic_profile"), where, problems),
-        conductor=_conductor(cells.get("conductor"), where, problems),
-        extra=item.extra,
+        return 0.0
+    if is_spare and load:
+        notices.append(
+            f"{cells.where('load_va')}: spare '{description}' has a load of {load:g} VA; "
+            "counted as given"
+        )
+    return load
+
+
+def _line_readings(cells: _Cells) -> LineReadings:
+    """The per-line current readings given."""
+    return LineReadings.of(
+        {
+            line: amps
+            for line in "ABC"
+            if (amps := cells.number(f"measured_line_{line.lower()}", f"line {line} reading"))
+            is not None
+        }
     )
 
 
@@ -836,10 +895,9 @@ def _placement_problems(
     spaces: int,
     spaces_where: str = "",
 ) -> list[Problem]:
+    """Every circuit that cannot go where it is, or at all, on this system; then too few
+    spaces."""
     problems = []
-    high_leg_v = (
-        system.line_to_neutral_v[system.lines.index(system.high_leg)] if system.high_leg else 0.0
-    )
     geometry = Geometry(system.lines, spaces)
     taken: dict[int, Circuit] = {}
     for circuit in circuits:
@@ -873,41 +931,10 @@ def _placement_problems(
                 )
             )
             continue
-        for s in circuit.spaces:
-            if s in taken:
-                other = taken[s]
-                problems.append(
-                    Problem(
-                        at,
-                        f"space {s} is already taken by '{other.description}' ({where[other.id]})",
-                    )
-                )
-            taken[s] = circuit
-        if (
-            circuit.poles == 1
-            and system.high_leg
-            and geometry.line_of(circuit.spaces[0]) == system.high_leg
-        ):
-            problems.append(
-                Problem(
-                    at,
-                    f"space {circuit.spaces[0]} is on the high leg "
-                    f"{system.high_leg} ({high_leg_v:.0f} V "
-                    f"to neutral; NEC 110.15 marking, 408.3(E) position); a 1-pole "
-                    f"{system.line_to_neutral_v[0]:.0f} V circuit ('{circuit.description}') "
-                    "cannot go there",
-                )
-            )
-        elif circuit.poles > 1 or system.neutral:
-            reason = check_connection(
-                system,
-                geometry.lines_of(circuit.spaces[0], circuit.poles),
-                circuit.poles,
-                circuit.voltage_v,
-                circuit.neutral_va,
-            )
-            if reason:
-                problems.append(Problem(at, f"'{circuit.description}': {reason}"))
+        problems += _taken_problems(circuit, at, taken, where)
+        reason = _line_problem(circuit, system, geometry)
+        if reason:
+            problems.append(Problem(at, reason))
     poles = sum(c.poles for c in circuits)
     if poles > spaces:
         problems.append(
@@ -917,6 +944,51 @@ def _placement_problems(
             )
         )
     return problems
+
+
+def _taken_problems(
+    circuit: Circuit, at: str, taken: dict[int, Circuit], where: dict[str, str]
+) -> list[Problem]:
+    """A space of ``circuit`` already taken by an earlier circuit; marks its spaces taken."""
+    problems = []
+    for s in circuit.spaces:
+        if s in taken:
+            other = taken[s]
+            problems.append(
+                Problem(
+                    at, f"space {s} is already taken by '{other.description}' ({where[other.id]})"
+                )
+            )
+        taken[s] = circuit
+    return problems
+
+
+def _line_problem(circuit: Circuit, system: System, geometry: Geometry) -> str | None:
+    """Why a placed circuit cannot be on the lines its spaces give, or None."""
+    if (
+        circuit.poles == 1
+        and system.high_leg
+        and geometry.line_of(circuit.spaces[0]) == system.high_leg
+    ):
+        high_leg_v = system.line_to_neutral_v[system.lines.index(system.high_leg)]
+        return (
+            f"space {circuit.spaces[0]} is on the high leg "
+            f"{system.high_leg} ({high_leg_v:.0f} V "
+            f"to neutral; NEC 110.15 marking, 408.3(E) position); a 1-pole "
+            f"{system.line_to_neutral_v[0]:.0f} V circuit ('{circuit.description}') "
+            "cannot go there"
+        )
+    if circuit.poles > 1 or system.neutral:
+        reason = check_connection(
+            system,
+            geometry.lines_of(circuit.spaces[0], circuit.poles),
+            circuit.poles,
+            circuit.voltage_v,
+            circuit.neutral_va,
+        )
+        if reason:
+            return f"'{circuit.description}': {reason}"
+    return None
 
 
 def _group_notices(circuits: list[Circuit], panel_lines: Geometry) -> list[str]:
@@ -982,6 +1054,7 @@ def read_schedule(path: str | Path, overrides: PanelOverrides | None = None) -> 
 def _panel_from_grids(
     path: Path, grid: _Grid, panel_grid: _Grid | None, overrides: PanelOverrides
 ) -> Panel:
+    """The panel the read grids describe; every problem found at once, in one refusal."""
     text_problems = _clean_text(grid) + (_clean_text(panel_grid) if panel_grid else [])
     if text_problems:
         raise ScheduleError(text_problems, str(path))
@@ -997,54 +1070,18 @@ def _panel_from_grids(
             header_problems or [Problem(grid.sheet, "no header row found")], str(path)
         )
     notices += header_notices
-    scales = {spec.key: scale for spec, scale in found.values()}
-    rows = _rows(grid, header_row, found, problems, notices)
-    circuits = []
-    where_of: dict[str, str] = {}
-    for item in rows:
-        circuit = _circuit(item, grid, scales, problems, notices)
-        if circuit is not None:
-            if circuit.id in where_of:  # same first space twice: keep ids unique, report below
-                circuit = Circuit(**{**_as_dict(circuit), "id": f"{circuit.id}@R{item.row + 1}"})
-            circuits.append(circuit)
-            where_of[circuit.id] = grid.where(item.row, item.cols.get("space", 0))
+    circuits, where_of = _read_circuits(grid, header_row, found, problems, notices)
 
     pairs = _panel_pairs(panel_grid, grid.rows[:header_row], grid.sheet)
     given = CONTROL_CHARACTERS.sub("", overrides.name or "").strip()  # --name is user text too
     name = given or _text(pairs.get("name", (path.stem, ""))[0]) or path.stem
     system = _resolve_system(overrides.system, pairs, problems, notices)
     spaces = _resolve_spaces(overrides.spaces, pairs, circuits, problems, notices, grid.sheet)
-    bus_a = overrides.bus_a
-    if bus_a is None and "bus" in pairs:
-        try:
-            bus_a = _number(pairs["bus"][0])[0]
-        except ValueError:
-            problems.append(
-                Problem(
-                    pairs["bus"][1],
-                    f"bus rating '{_shown(_text(pairs['bus'][0]))}' is not a number",
-                )
-            )
-    if bus_a is not None and not 0 <= bus_a <= MAX_CURRENT_A:
-        where_bus = "--bus" if overrides.bus_a is not None else pairs["bus"][1]
-        problems.append(
-            Problem(where_bus, f"bus rating {bus_a:g} A must be from 0 to {MAX_CURRENT_A:,.0f} A")
-        )
-        bus_a = None
+    bus_a = _bus_rating(overrides.bus_a, pairs, problems)
     main_text = (
         overrides.main if overrides.main is not None else _text(pairs.get("main", ("", ""))[0])
     )
-    main_a, understood = _main_rating(main_text) if main_text else (None, True)
-    if main_a is not None and not 0 <= main_a <= MAX_CURRENT_A:
-        understood, main_a = False, None
-    if not understood:
-        problems.append(
-            Problem(
-                pairs.get("main", ("", "--main"))[1],
-                f"main '{_shown(main_text)}' should be a rating in amperes (at most "
-                f"{MAX_CURRENT_A:,.0f} A) or MLO (main lugs only)",
-            )
-        )
+    main_a = _main_breaker(main_text, pairs, problems)
     if system is not None and spaces is not None:
         spaces_where = (
             "--spaces"
@@ -1074,6 +1111,69 @@ def _panel_from_grids(
         source=str(path),
         notices=tuple(notices),
     )
+
+
+def _read_circuits(
+    grid: _Grid,
+    header_row: int,
+    found: dict[int, tuple[ColumnSpec, float]],
+    problems: list[Problem],
+    notices: list[str],
+) -> tuple[list[Circuit], dict[str, str]]:
+    """The circuits below the header row, and the cell each is reported at, by id."""
+    scales = {spec.key: scale for spec, scale in found.values()}
+    circuits = []
+    where_of: dict[str, str] = {}
+    for item in _rows(grid, header_row, found, problems, notices):
+        circuit = _circuit(item, grid, scales, problems, notices)
+        if circuit is not None:
+            if circuit.id in where_of:  # same first space twice: keep ids unique, report below
+                circuit = Circuit(**{**_as_dict(circuit), "id": f"{circuit.id}@R{item.row + 1}"})
+            circuits.append(circuit)
+            where_of[circuit.id] = grid.where(item.row, item.cols.get("space", 0))
+    return circuits, where_of
+
+
+def _bus_rating(
+    given_a: float | None, pairs: dict[str, tuple[Any, str]], problems: list[Problem]
+) -> float | None:
+    """The bus rating from --bus, else from the file; None when absent or refused."""
+    bus_a = given_a
+    if bus_a is None and "bus" in pairs:
+        try:
+            bus_a = _number(pairs["bus"][0])[0]
+        except ValueError:
+            problems.append(
+                Problem(
+                    pairs["bus"][1],
+                    f"bus rating '{_shown(_text(pairs['bus'][0]))}' is not a number",
+                )
+            )
+    if bus_a is not None and not 0 <= bus_a <= MAX_CURRENT_A:
+        where_bus = "--bus" if given_a is not None else pairs["bus"][1]
+        problems.append(
+            Problem(where_bus, f"bus rating {bus_a:g} A must be from 0 to {MAX_CURRENT_A:,.0f} A")
+        )
+        return None
+    return bus_a
+
+
+def _main_breaker(
+    main_text: str, pairs: dict[str, tuple[Any, str]], problems: list[Problem]
+) -> float | None:
+    """The main breaker's rating; None for main lugs only, none given, or refused."""
+    main_a, understood = _main_rating(main_text) if main_text else (None, True)
+    if main_a is not None and not 0 <= main_a <= MAX_CURRENT_A:
+        understood, main_a = False, None
+    if not understood:
+        problems.append(
+            Problem(
+                pairs.get("main", ("", "--main"))[1],
+                f"main '{_shown(main_text)}' should be a rating in amperes (at most "
+                f"{MAX_CURRENT_A:,.0f} A) or MLO (main lugs only)",
+            )
+        )
+    return main_a
 
 
 def _as_dict(circuit: Circuit) -> dict[str, Any]:
