@@ -651,69 +651,14 @@ def compute_demand(panel: Panel, options: DemandOptions | None = None) -> Demand
     rules = resolve_rule_set(options.rules, panel.system)
     occupancy = normalise_occupancy(options.occupancy)
     rows, warnings = _classify_all(panel, rules, occupancy)
-
-    # Class (or pool) totals, then each class's effective factor.
     pool_of = {
         name: rule.pool.get(occupancy, name) if rule.method == "tiers" else name
         for name, rule in rules.classes.items()
     }
-    connected_by_class: dict[str, float] = defaultdict(float)
-    loads_by_class: dict[str, list[float]] = defaultdict(list)
-    for _, name, connected, _ in rows:
-        connected_by_class[name] += connected
-        loads_by_class[name].append(connected)
-    connected_by_pool: dict[str, float] = defaultdict(float)
-    for name, va in connected_by_class.items():
-        connected_by_pool[pool_of[name]] += va
-    factor_by_class: dict[str, float] = {}
-    for name, rule in rules.classes.items():
-        total = connected_by_class.get(name, 0.0)
-        if rule.method == "tiers":
-            pool = pool_of[name]
-            pooled = connected_by_pool[pool]
-            demand = apply_tiers(pooled, rules.classes[pool].tiers_for(occupancy))
-            factor_by_class[name] = demand / pooled if pooled else 1.0
-        elif rule.method == "units":
-            demand = units_demand(loads_by_class.get(name, []), rule)
-            factor_by_class[name] = demand / total if total else 1.0
-        else:
-            factor_by_class[name] = rule.factor
-
-    def circuit_demand(name: str, connected: float) -> float:
-        rule = rules.classes[name]
-        demand = connected * factor_by_class[name]
-        if rule.method == "factor" and connected > 0:
-            demand = max(demand, rule.min_each_va * rule.factor)
-        return demand
-
-    demands = [circuit_demand(name, connected) for _, name, connected, _ in rows]
-
-    # 220.60: of noncoincident classes only the largest is counted.
-    omitted: dict[str, str] = {}
-    for names, clause in rules.noncoincident:
-        totals = {
-            n: math.fsum(d for d, r in zip(demands, rows, strict=True) if r[1] == n) for n in names
-        }
-        keep = max(names, key=lambda n: totals[n])
-        for n in names:
-            if n != keep and totals[n] > 0:
-                omitted[n] = (
-                    f"omitted: noncoincident with {rules.classes[keep].label.lower()} ({clause})"
-                )
-    demands = [0.0 if r[1] in omitted else d for d, r in zip(demands, rows, strict=True)]
-
-    # Largest motor adder (430.24): on the motor still counted with the highest full-load
-    # current (430.17), which need not be the one of the most VA.
-    adders = [0.0] * len(rows)
-    motor_rows = [
-        i for i, r in enumerate(rows) if rules.classes[r[1]].largest_motor and demands[i] > 0
-    ]
-    largest_motor_id = None
-    if motor_rows and rules.largest_motor_extra > 0:
-        i = max(motor_rows, key=lambda k: _circuit_current_a(panel, rows[k][0], rows[k][2]))
-        adders[i] = rules.largest_motor_extra * rows[i][2]
-        largest_motor_id = rows[i][0].id
-
+    factor_by_class = _class_factors(rules, rows, pool_of, occupancy)
+    demands = [_circuit_demand(rules, factor_by_class, name, va) for _, name, va, _ in rows]
+    demands, omitted = _noncoincident(rules, rows, demands)
+    adders, largest_motor_id = _motor_adders(panel, rules, rows, demands)
     circuits = tuple(
         CircuitDemand(c.id, name, connected, demands[i] + adders[i], continuous, adders[i])
         for i, (c, name, connected, continuous) in enumerate(rows)
@@ -735,6 +680,88 @@ def compute_demand(panel: Panel, options: DemandOptions | None = None) -> Demand
         warnings=tuple(warnings),
         cautions=cautions(rules),
     )
+
+
+def _class_factors(
+    rules: RuleSet,
+    rows: list[tuple[Circuit, str, float, bool]],
+    pool_of: dict[str, str],
+    occupancy: str,
+) -> dict[str, float]:
+    """Each class's effective factor: its demand over its connected load, from the class (or
+    pool) totals."""
+    connected_by_class: dict[str, float] = defaultdict(float)
+    loads_by_class: dict[str, list[float]] = defaultdict(list)
+    for _, name, connected, _ in rows:
+        connected_by_class[name] += connected
+        loads_by_class[name].append(connected)
+    connected_by_pool: dict[str, float] = defaultdict(float)
+    for name, va in connected_by_class.items():
+        connected_by_pool[pool_of[name]] += va
+    factor_by_class: dict[str, float] = {}
+    for name, rule in rules.classes.items():
+        total = connected_by_class.get(name, 0.0)
+        if rule.method == "tiers":
+            pool = pool_of[name]
+            pooled = connected_by_pool[pool]
+            demand = apply_tiers(pooled, rules.classes[pool].tiers_for(occupancy))
+            factor_by_class[name] = demand / pooled if pooled else 1.0
+        elif rule.method == "units":
+            demand = units_demand(loads_by_class.get(name, []), rule)
+            factor_by_class[name] = demand / total if total else 1.0
+        else:
+            factor_by_class[name] = rule.factor
+    return factor_by_class
+
+
+def _circuit_demand(
+    rules: RuleSet, factor_by_class: dict[str, float], name: str, connected: float
+) -> float:
+    """One circuit's demand before noncoincident classes and the motor adder."""
+    rule = rules.classes[name]
+    demand = connected * factor_by_class[name]
+    if rule.method == "factor" and connected > 0:
+        demand = max(demand, rule.min_each_va * rule.factor)
+    return demand
+
+
+def _noncoincident(
+    rules: RuleSet, rows: list[tuple[Circuit, str, float, bool]], demands: list[float]
+) -> tuple[list[float], dict[str, str]]:
+    """220.60: of noncoincident classes only the largest is counted. The demands with the
+    others at zero, and why each of those is omitted."""
+    omitted: dict[str, str] = {}
+    for names, clause in rules.noncoincident:
+        totals = {
+            n: math.fsum(d for d, r in zip(demands, rows, strict=True) if r[1] == n) for n in names
+        }
+        keep = max(names, key=lambda n: totals[n])
+        for n in names:
+            if n != keep and totals[n] > 0:
+                omitted[n] = (
+                    f"omitted: noncoincident with {rules.classes[keep].label.lower()} ({clause})"
+                )
+    return [0.0 if r[1] in omitted else d for d, r in zip(demands, rows, strict=True)], omitted
+
+
+def _motor_adders(
+    panel: Panel,
+    rules: RuleSet,
+    rows: list[tuple[Circuit, str, float, bool]],
+    demands: list[float],
+) -> tuple[list[float], str | None]:
+    """Largest motor adder (430.24): on the motor still counted with the highest full-load
+    current (430.17), which need not be the one of the most VA. Each row's adder, and that
+    motor's circuit."""
+    adders = [0.0] * len(rows)
+    motor_rows = [
+        i for i, r in enumerate(rows) if rules.classes[r[1]].largest_motor and demands[i] > 0
+    ]
+    if not (motor_rows and rules.largest_motor_extra > 0):
+        return adders, None
+    i = max(motor_rows, key=lambda k: _circuit_current_a(panel, rows[k][0], rows[k][2]))
+    adders[i] = rules.largest_motor_extra * rows[i][2]
+    return adders, rows[i][0].id
 
 
 def _by_class(
@@ -848,6 +875,25 @@ def _is_four_wire_wye(system: System) -> bool:
     return system.neutral and system.high_leg is None and system.phase_count == 3
 
 
+@dataclass(slots=True)
+class _LineSums:
+    """What the feeder carries, summed by line over the circuits with a demand."""
+
+    phase_va: dict[Line, float]
+    design: dict[Line, float]  # demand load current
+    sizing: dict[Line, float]  # with 125% of the continuous loads
+    neutral_linear: dict[Line, float]  # neutral current 220.61(B) may reduce
+    neutral_fixed: dict[Line, float]  # neutral current counted in full (220.61(C))
+    unplaced: list[str]
+
+    @classmethod
+    def empty(cls, lines: tuple[Line, ...]) -> _LineSums:
+        def zero() -> dict[Line, float]:
+            return dict.fromkeys(lines, 0.0)
+
+        return cls(zero(), zero(), zero(), zero(), zero(), [])
+
+
 def _feeder(
     panel: Panel,
     rules: RuleSet,
@@ -855,140 +901,36 @@ def _feeder(
     circuits: tuple[CircuitDemand, ...],
     options: DemandOptions,
 ) -> tuple[FeederCheck, dict[Line, float], list[str]]:
+    """The feeder check: sizing current, conductors, neutral, rating, voltage drop; with the
+    demand per line and the warnings, in the order they are found."""
     system = panel.system
     lines = system.lines
     notes: list[str] = []
     warnings: list[str] = []
-    phase_va = dict.fromkeys(lines, 0.0)
-    design = dict.fromkeys(lines, 0.0)
-    sizing = dict.fromkeys(lines, 0.0)
-    neutral_linear = dict.fromkeys(lines, 0.0)
-    neutral_fixed = dict.fromkeys(lines, 0.0)
-    unplaced = []
-    wye = _is_four_wire_wye(system)
-    nonlinear = _nonlinear_classes(rules, options.nonlinear_classes)
-    for (circuit, name, connected, continuous), result in zip(rows, circuits, strict=True):
-        if result.demand_va == 0:
-            continue
-        rule = rules.classes[name]
-        shares = share_by_line(panel, replace(circuit, balance_va=result.demand_va))
-        if not shares:
-            unplaced.append(circuit.id)
-            shares = {line: result.demand_va / len(lines) for line in lines}
-        # Motors carry their 125% in the largest-motor adder (430.24), not the continuous factor.
-        multiplier = rules.continuous_factor if continuous and not rule.largest_motor else 1.0
-        circuit_factor = result.demand_va / connected if connected else 1.0
-        # A 2-pole load with a line-to-neutral share loads one line more than the other; which
-        # one the schedule does not say, so each of its lines takes the heavier current.
-        heavier_a = (
-            _heavier_line_a(panel, circuit, result.demand_va) * 2 / len(shares)
-            if _has_neutral_share(panel, circuit)
-            else None
-        )
-        for line, va in shares.items():
-            amps = va / _per_line_voltage(system, circuit.poles, line)
-            if heavier_a is not None:
-                amps = heavier_a
-            phase_va[line] += va
-            design[line] += amps
-            sizing[line] += amps * multiplier
-        if not system.neutral:
-            continue
-        if circuit.poles == 1:
-            # 220.61(C)(2): no reduction for the non-linear part on a 4-wire wye.
-            fixed = wye and (name in nonlinear or _has_harmonics(circuit))
-            for line, va in shares.items():
-                target = neutral_fixed if fixed else neutral_linear
-                target[line] += va / _line_voltage(system, line)
-        elif circuit.neutral_va:
-            # Which line the 120 V part sits on is not known: count it on each (conservative).
-            for line in shares:
-                target = neutral_fixed if wye else neutral_linear
-                target[line] += circuit.neutral_va * circuit_factor / _line_voltage(system, line)
-    if unplaced:
+    sums = _line_sums(panel, rules, rows, circuits, options)
+    if sums.unplaced:
         warnings.append(
-            f"circuits not placed ({', '.join(unplaced)}): "
+            f"circuits not placed ({', '.join(sums.unplaced)}): "
             "their demand is spread evenly over the lines"
         )
+    design = sums.design
     design_line = max(lines, key=lambda ln: design[ln])
-    required_a = max(sizing.values())
-    factor = 1.0
-    if options.ambient_c is not None:
-        factor *= ambient_factor(options.ambient_c)
-        notes.append(
-            f"ambient {options.ambient_c:g} °C: factor {ambient_factor(options.ambient_c):.2f} "
-            "(Table 310.15(B)(1))"
-        )
-    if options.current_carrying is not None:
-        factor *= bundling_factor(options.current_carrying)
-        notes.append(
-            f"{options.current_carrying} current-carrying conductors: factor "
-            f"{bundling_factor(options.current_carrying):.2f} (Table 310.15(C)(1))"
-        )
-    min_ocpd = cu = al = None
+    required_a = max(sums.sizing.values())
+    factor = _conductor_factor(options, notes)
     t75 = options.terminations_75c
-    if rules.feeder_sizing:
-        min_ocpd = next_standard_rating(required_a)
-        cu = select_conductor(required_a, "cu", min_ocpd, factor, None, t75)
-        al = select_conductor(required_a, "al", min_ocpd, factor, None, t75)
-        if cu is None or al is None:
-            notes.append(
-                "no single conductor up to 500 kcmil carries the load: "
-                "parallel sets are needed (310.10(G))"
-            )
-    neutral_a = unreduced = None
-    if system.neutral:
-        per_line = {ln: neutral_220_61(neutral_linear[ln], neutral_fixed[ln]) for ln in lines}
-        worst = max(lines, key=lambda ln: per_line[ln])
-        unreduced = neutral_linear[worst] + neutral_fixed[worst]
-        neutral_a = per_line[worst] if rules.feeder_sizing else unreduced
-        if rules.feeder_sizing and neutral_fixed[worst] > 0 and unreduced > NEUTRAL_THRESHOLD_A:
-            notes.append(
-                f"neutral: {neutral_fixed[worst]:.1f} A of line {worst}'s line-to-neutral load "
-                "is non-linear or from two phases and neutral of a 4-wire wye, "
-                "and is not reduced (220.61(C))"
-            )
-    ratings = [(v, n) for v, n in ((panel.main_a, "main"), (panel.bus_a, "bus")) if v]
-    rating_a, rating_name = min(ratings) if ratings else (None, "")
-    spare_a = spare_pct = None
-    if rating_a:
-        spare_a = rating_a - required_a
-        spare_pct = spare_a / rating_a * 100.0
-        if spare_a < 0:
-            warnings.append(
-                f"the {rating_name} rating {rating_a:g} A is below the required {required_a:.1f} A"
-            )
-        if panel.main_a and min_ocpd and panel.main_a < min_ocpd:
-            warnings.append(
-                f"main {panel.main_a:g} A is below the minimum OCPD {min_ocpd} A (215.3, 240.6(A))"
-            )
+    min_ocpd, cu, al = _feeder_conductors(rules, required_a, factor, t75, notes)
+    neutral_a, unreduced = _feeder_neutral(system, rules, sums, notes)
+    rating_a, rating_name, spare_a, spare_pct = _feeder_rating(
+        panel, required_a, min_ocpd, warnings
+    )
+    given = _given_conductor(options)
+    if given is not None and rules.feeder_sizing:
+        warnings += _given_feeder_warnings(given, required_a, min_ocpd, factor, t75)
     drop = drop_size = None
-    given: Conductor | None = None
-    if options.feeder_conductor:
-        given = parse_conductor(options.feeder_conductor)
-        if given is None:
-            raise ScheduleError(
-                Problem(
-                    "--feeder-conductor",
-                    f"{options.feeder_conductor!r} is not a size balancer knows",
-                )
-            )
-        if rules.feeder_sizing:
-            warnings += _given_feeder_warnings(given, required_a, min_ocpd, factor, t75)
-    if options.feeder_length_ft is not None:
-        conductor = given or (Conductor(cu, "cu") if cu else None)
-        if conductor is not None:
-            drop = voltage_drop_pct(
-                design[design_line], options.feeder_length_ft, conductor,
-                system.line_to_line_v, system.phase_count == 3,
-            )  # fmt: skip
-            drop_size = str(conductor)
-            if drop > BRANCH_DROP_GUIDE_PCT:
-                notes.append(
-                    f"feeder voltage drop {drop:.1f}% is above the {BRANCH_DROP_GUIDE_PCT:g}% the "
-                    f"215.2(A) Informational Note suggests "
-                    f"({TOTAL_DROP_GUIDE_PCT:g}% with the branch circuit)"
-                )
+    conductor = given or (Conductor(cu, "cu") if cu else None)
+    if options.feeder_length_ft is not None and conductor is not None:
+        drop = _feeder_drop(system, design[design_line], options.feeder_length_ft, conductor, notes)
+        drop_size = str(conductor)
     feeder = FeederCheck(
         design_line=design_line,
         design_a=design[design_line],
@@ -1010,7 +952,168 @@ def _feeder(
         voltage_drop_conductor=drop_size,
         notes=tuple(notes),
     )
-    return feeder, phase_va, warnings
+    return feeder, sums.phase_va, warnings
+
+
+def _line_sums(
+    panel: Panel,
+    rules: RuleSet,
+    rows: list[tuple[Circuit, str, float, bool]],
+    circuits: tuple[CircuitDemand, ...],
+    options: DemandOptions,
+) -> _LineSums:
+    """Each line's demand load, design and sizing currents and neutral currents."""
+    system = panel.system
+    lines = system.lines
+    sums = _LineSums.empty(lines)
+    wye = _is_four_wire_wye(system)
+    nonlinear = _nonlinear_classes(rules, options.nonlinear_classes)
+    for (circuit, name, connected, continuous), result in zip(rows, circuits, strict=True):
+        if result.demand_va == 0:
+            continue
+        rule = rules.classes[name]
+        shares = share_by_line(panel, replace(circuit, balance_va=result.demand_va))
+        if not shares:
+            sums.unplaced.append(circuit.id)
+            shares = {line: result.demand_va / len(lines) for line in lines}
+        # Motors carry their 125% in the largest-motor adder (430.24), not the continuous factor.
+        multiplier = rules.continuous_factor if continuous and not rule.largest_motor else 1.0
+        # A 2-pole load with a line-to-neutral share loads one line more than the other; which
+        # one the schedule does not say, so each of its lines takes the heavier current.
+        heavier_a = (
+            _heavier_line_a(panel, circuit, result.demand_va) * 2 / len(shares)
+            if _has_neutral_share(panel, circuit)
+            else None
+        )
+        for line, va in shares.items():
+            amps = va / _per_line_voltage(system, circuit.poles, line)
+            if heavier_a is not None:
+                amps = heavier_a
+            sums.phase_va[line] += va
+            sums.design[line] += amps
+            sums.sizing[line] += amps * multiplier
+        if not system.neutral:
+            continue
+        if circuit.poles == 1:
+            # 220.61(C)(2): no reduction for the non-linear part on a 4-wire wye.
+            fixed = wye and (name in nonlinear or _has_harmonics(circuit))
+            for line, va in shares.items():
+                target = sums.neutral_fixed if fixed else sums.neutral_linear
+                target[line] += va / _line_voltage(system, line)
+        elif circuit.neutral_va:
+            # Which line the 120 V part sits on is not known: count it on each (conservative).
+            circuit_factor = result.demand_va / connected if connected else 1.0
+            for line in shares:
+                target = sums.neutral_fixed if wye else sums.neutral_linear
+                target[line] += circuit.neutral_va * circuit_factor / _line_voltage(system, line)
+    return sums
+
+
+def _conductor_factor(options: DemandOptions, notes: list[str]) -> float:
+    """The feeder conductor's ampacity factor for ambient and bundling, each said in a note."""
+    factor = 1.0
+    if options.ambient_c is not None:
+        factor *= ambient_factor(options.ambient_c)
+        notes.append(
+            f"ambient {options.ambient_c:g} °C: factor {ambient_factor(options.ambient_c):.2f} "
+            "(Table 310.15(B)(1))"
+        )
+    if options.current_carrying is not None:
+        factor *= bundling_factor(options.current_carrying)
+        notes.append(
+            f"{options.current_carrying} current-carrying conductors: factor "
+            f"{bundling_factor(options.current_carrying):.2f} (Table 310.15(C)(1))"
+        )
+    return factor
+
+
+def _feeder_conductors(
+    rules: RuleSet, required_a: float, factor: float, t75: bool, notes: list[str]
+) -> tuple[int | None, str | None, str | None]:
+    """The minimum OCPD and the smallest copper and aluminium sizes, where the rule set sizes
+    feeders."""
+    if not rules.feeder_sizing:
+        return None, None, None
+    min_ocpd = next_standard_rating(required_a)
+    cu = select_conductor(required_a, "cu", min_ocpd, factor, None, t75)
+    al = select_conductor(required_a, "al", min_ocpd, factor, None, t75)
+    if cu is None or al is None:
+        notes.append(
+            "no single conductor up to 500 kcmil carries the load: "
+            "parallel sets are needed (310.10(G))"
+        )
+    return min_ocpd, cu, al
+
+
+def _feeder_neutral(
+    system: System, rules: RuleSet, sums: _LineSums, notes: list[str]
+) -> tuple[float | None, float | None]:
+    """The neutral current of the worst line (reduced by 220.61 where the rule set sizes
+    feeders) and the same unreduced; None without a neutral."""
+    if not system.neutral:
+        return None, None
+    linear, fixed = sums.neutral_linear, sums.neutral_fixed
+    per_line = {ln: neutral_220_61(linear[ln], fixed[ln]) for ln in system.lines}
+    worst = max(system.lines, key=lambda ln: per_line[ln])
+    unreduced = linear[worst] + fixed[worst]
+    if rules.feeder_sizing and fixed[worst] > 0 and unreduced > NEUTRAL_THRESHOLD_A:
+        notes.append(
+            f"neutral: {fixed[worst]:.1f} A of line {worst}'s line-to-neutral load "
+            "is non-linear or from two phases and neutral of a 4-wire wye, "
+            "and is not reduced (220.61(C))"
+        )
+    return (per_line[worst] if rules.feeder_sizing else unreduced), unreduced
+
+
+def _feeder_rating(
+    panel: Panel, required_a: float, min_ocpd: int | None, warnings: list[str]
+) -> tuple[float | None, str, float | None, float | None]:
+    """The lower of the main and bus ratings, its name, and the spare amperes and percent."""
+    ratings = [(v, n) for v, n in ((panel.main_a, "main"), (panel.bus_a, "bus")) if v]
+    rating_a, rating_name = min(ratings) if ratings else (None, "")
+    if not rating_a:
+        return rating_a, rating_name, None, None
+    spare_a = rating_a - required_a
+    if spare_a < 0:
+        warnings.append(
+            f"the {rating_name} rating {rating_a:g} A is below the required {required_a:.1f} A"
+        )
+    if panel.main_a and min_ocpd and panel.main_a < min_ocpd:
+        warnings.append(
+            f"main {panel.main_a:g} A is below the minimum OCPD {min_ocpd} A (215.3, 240.6(A))"
+        )
+    return rating_a, rating_name, spare_a, spare_a / rating_a * 100.0
+
+
+def _given_conductor(options: DemandOptions) -> Conductor | None:
+    """The feeder conductor given on the command line; refused when it names no size."""
+    if not options.feeder_conductor:
+        return None
+    given = parse_conductor(options.feeder_conductor)
+    if given is None:
+        raise ScheduleError(
+            Problem(
+                "--feeder-conductor",
+                f"{options.feeder_conductor!r} is not a size balancer knows",
+            )
+        )
+    return given
+
+
+def _feeder_drop(
+    system: System, design_a: float, length_ft: float, conductor: Conductor, notes: list[str]
+) -> float:
+    """The feeder's voltage drop in percent, with a note when above the guide."""
+    drop = voltage_drop_pct(
+        design_a, length_ft, conductor, system.line_to_line_v, system.phase_count == 3
+    )
+    if drop > BRANCH_DROP_GUIDE_PCT:
+        notes.append(
+            f"feeder voltage drop {drop:.1f}% is above the {BRANCH_DROP_GUIDE_PCT:g}% the "
+            f"215.2(A) Informational Note suggests "
+            f"({TOTAL_DROP_GUIDE_PCT:g}% with the branch circuit)"
+        )
+    return drop
 
 
 def _branch_flags(
@@ -1019,6 +1122,8 @@ def _branch_flags(
     rows: list[tuple[Circuit, str, float, bool]],
     terminations_75c: bool = False,
 ) -> tuple[BranchFlag, ...]:
+    """What to look at on each branch circuit: its breaker against its load, then its
+    conductor against both."""
     flags: list[BranchFlag] = []
     sizing = rules.feeder_sizing
     for circuit, name, connected, continuous in rows:
@@ -1026,88 +1131,124 @@ def _branch_flags(
             continue
         rule = rules.classes[name]
         current = _circuit_current_a(panel, circuit, connected)
-        if rule.largest_motor and sizing:
-            required, clause = current * 1.25, "430.22, 440.32"
-        elif continuous and sizing:
-            required, clause = current * rules.continuous_factor, "210.19(A)(1), 210.20(A)"
-        else:
-            required, clause = current, "210.20(A)" if sizing else "connected load"
-        suggestion = max(next_standard_rating(required) or 0, 15) if sizing else None
-        why = (
-            " with 125% for a continuous load"
-            if continuous and sizing and not rule.largest_motor
-            else ""
-        )
-        if rule.largest_motor and sizing:
-            why = " at 125% of the motor current"
-        if circuit.trip_a is None:
-            text = f"no breaker rating given; the load needs {required:.1f} A{why}"
-            if suggestion:
-                text += f": at least {suggestion} A (240.6(A))"
-            flags.append(
-                BranchFlag(circuit.id, "no_trip", text, clause, None, required, suggestion)
-            )
-        elif required > circuit.trip_a + 1e-9:
-            text = f"load {required:.1f} A{why} exceeds the {circuit.trip_a:g} A breaker"
-            if suggestion:
-                text += f"; suggest {suggestion} A (240.6(A)) with conductors to match"
-            if rule.largest_motor and sizing:
-                text += "; motor OCPD may be larger per 430.52 / 440.22: check the nameplate"
-            flags.append(
-                BranchFlag(
-                    circuit.id, "overloaded", text, clause, circuit.trip_a, required, suggestion
-                )
-            )
-        conductor = circuit.conductor  # read and checked with the schedule
-        if conductor is None or not sizing:
-            continue
-        limit = SMALL_CONDUCTOR_LIMIT_A.get((conductor.material, conductor.size))
-        over_limit = bool(limit and circuit.trip_a and circuit.trip_a > limit)
-        if over_limit and not rule.largest_motor:
-            flags.append(
-                BranchFlag(
-                    circuit.id, "small_conductor",
-                    f"{conductor} is limited to a {limit} A overcurrent device; "
-                    f"the breaker is {circuit.trip_a:g} A",
-                    "240.4(D)", circuit.trip_a, required, limit,
-                )
-            )  # fmt: skip
-        rating = circuit.trip_a or suggestion or required
-        column = termination_column_c(rating, conductor.size, terminations_75c)
-        ampacity = ampacity_a(conductor.material, conductor.size, column)
-        if ampacity is None:
-            continue
-        if ampacity + 1e-9 < required:
-            flags.append(
-                BranchFlag(
-                    circuit.id, "conductor_ampacity",
-                    f"{conductor} carries {ampacity} A ({column} °C column) "
-                    f"but the load needs {required:.1f} A",
-                    f"Table 310.16, 110.14(C)(1), {clause}", circuit.trip_a, required, None,
-                )
-            )  # fmt: skip
-        # 240.4: the breaker protects the conductor; 240.4(D) sizes beyond their limit are
-        # flagged above, and 240.4(G) sends motor and air-conditioning circuits elsewhere.
-        receptacles = name == "general_receptacles"
-        if (
-            circuit.trip_a
-            and not over_limit
-            and not rule.largest_motor
-            and not protected_by(ampacity, circuit.trip_a, receptacles)
-        ):
-            largest = _largest_protecting(ampacity, receptacles)
-            why = f"at most {largest} A"
-            if receptacles and protected_by(ampacity, circuit.trip_a):
-                why += "; no next size up on a branch circuit of several receptacles"
-            flags.append(
-                BranchFlag(
-                    circuit.id, "unprotected_conductor",
-                    f"{conductor} carries {ampacity} A ({column} °C column); the "
-                    f"{circuit.trip_a:g} A breaker does not protect it ({why})",
-                    "240.4(B), 110.14(C)(1), Table 310.16", circuit.trip_a, required, largest,
-                )
-            )  # fmt: skip
+        need = _branch_need(rules, rule, current, continuous)
+        flag = _breaker_flag(circuit, rule, sizing, need)
+        if flag is not None:
+            flags.append(flag)
+        if circuit.conductor is not None and sizing:  # read and checked with the schedule
+            flags += _conductor_flags(circuit, name, rule, need, terminations_75c)
     return tuple(flags)
+
+
+@dataclass(frozen=True, slots=True)
+class _BranchNeed:
+    """What a branch circuit's load needs of its breaker, and the clause that says so."""
+
+    required_a: float
+    clause: str
+    suggestion: int | None  # the smallest standard breaker, where the rule set sizes circuits
+    why: str  # how the required current was reached, for the message
+
+
+def _branch_need(rules: RuleSet, rule: ClassRule, current: float, continuous: bool) -> _BranchNeed:
+    """The current a branch circuit's breaker must carry: 125% for a motor or a continuous load
+    where the rule set sizes circuits."""
+    sizing = rules.feeder_sizing
+    if rule.largest_motor and sizing:
+        required, clause = current * 1.25, "430.22, 440.32"
+    elif continuous and sizing:
+        required, clause = current * rules.continuous_factor, "210.19(A)(1), 210.20(A)"
+    else:
+        required, clause = current, "210.20(A)" if sizing else "connected load"
+    suggestion = max(next_standard_rating(required) or 0, 15) if sizing else None
+    why = (
+        " with 125% for a continuous load"
+        if continuous and sizing and not rule.largest_motor
+        else ""
+    )
+    if rule.largest_motor and sizing:
+        why = " at 125% of the motor current"
+    return _BranchNeed(required, clause, suggestion, why)
+
+
+def _breaker_flag(
+    circuit: Circuit, rule: ClassRule, sizing: bool, need: _BranchNeed
+) -> BranchFlag | None:
+    """A breaker not given, or smaller than the load needs; None when it will do."""
+    required, suggestion, why = need.required_a, need.suggestion, need.why
+    if circuit.trip_a is None:
+        text = f"no breaker rating given; the load needs {required:.1f} A{why}"
+        if suggestion:
+            text += f": at least {suggestion} A (240.6(A))"
+        return BranchFlag(circuit.id, "no_trip", text, need.clause, None, required, suggestion)
+    if required > circuit.trip_a + 1e-9:
+        text = f"load {required:.1f} A{why} exceeds the {circuit.trip_a:g} A breaker"
+        if suggestion:
+            text += f"; suggest {suggestion} A (240.6(A)) with conductors to match"
+        if rule.largest_motor and sizing:
+            text += "; motor OCPD may be larger per 430.52 / 440.22: check the nameplate"
+        return BranchFlag(
+            circuit.id, "overloaded", text, need.clause, circuit.trip_a, required, suggestion
+        )
+    return None
+
+
+def _conductor_flags(
+    circuit: Circuit, name: str, rule: ClassRule, need: _BranchNeed, terminations_75c: bool
+) -> list[BranchFlag]:
+    """A given conductor over its small-size limit, carrying less than the load, or not
+    protected by the breaker."""
+    conductor = circuit.conductor
+    assert conductor is not None
+    flags = []
+    required, clause = need.required_a, need.clause
+    limit = SMALL_CONDUCTOR_LIMIT_A.get((conductor.material, conductor.size))
+    over_limit = bool(limit and circuit.trip_a and circuit.trip_a > limit)
+    if over_limit and not rule.largest_motor:
+        flags.append(
+            BranchFlag(
+                circuit.id, "small_conductor",
+                f"{conductor} is limited to a {limit} A overcurrent device; "
+                f"the breaker is {circuit.trip_a:g} A",
+                "240.4(D)", circuit.trip_a, required, limit,
+            )
+        )  # fmt: skip
+    rating = circuit.trip_a or need.suggestion or required
+    column = termination_column_c(rating, conductor.size, terminations_75c)
+    ampacity = ampacity_a(conductor.material, conductor.size, column)
+    if ampacity is None:
+        return flags
+    if ampacity + 1e-9 < required:
+        flags.append(
+            BranchFlag(
+                circuit.id, "conductor_ampacity",
+                f"{conductor} carries {ampacity} A ({column} °C column) "
+                f"but the load needs {required:.1f} A",
+                f"Table 310.16, 110.14(C)(1), {clause}", circuit.trip_a, required, None,
+            )
+        )  # fmt: skip
+    # 240.4: the breaker protects the conductor; 240.4(D) sizes beyond their limit are
+    # flagged above, and 240.4(G) sends motor and air-conditioning circuits elsewhere.
+    receptacles = name == "general_receptacles"
+    if (
+        circuit.trip_a
+        and not over_limit
+        and not rule.largest_motor
+        and not protected_by(ampacity, circuit.trip_a, receptacles)
+    ):
+        largest = _largest_protecting(ampacity, receptacles)
+        why = f"at most {largest} A"
+        if receptacles and protected_by(ampacity, circuit.trip_a):
+            why += "; no next size up on a branch circuit of several receptacles"
+        flags.append(
+            BranchFlag(
+                circuit.id, "unprotected_conductor",
+                f"{conductor} carries {ampacity} A ({column} °C column); the "
+                f"{circuit.trip_a:g} A breaker does not protect it ({why})",
+                "240.4(B), 110.14(C)(1), Table 310.16", circuit.trip_a, required, largest,
+            )
+        )  # fmt: skip
+    return flags
 
 
 def _largest_protecting(ampacity: float, multioutlet_receptacles: bool) -> int | None:
