@@ -17,9 +17,6 @@ REASON = re.compile(r"#\s*long:\s*\S.{9,}")  # a reason of ten characters at lea
 PENDING = {
     ("building/report.py", "write_building_workbook"),
     ("io/pdf.py", "_summary_page"),
-    ("io/writer.py", "_summary"),
-    ("io/writer.py", "_layout"),
-    ("io/writer.py", "write_workbook"),
     ("physics/analysis.py", "analyze"),
 }
 

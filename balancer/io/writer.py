@@ -21,6 +21,7 @@ from openpyxl.worksheet.worksheet import Worksheet
 
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceResult, SolveStatus
+from balancer.domain.systems import Line
 from balancer.io.files import refuse_input_path, save_workbook
 from balancer.physics.analysis import Loads, share_by_line
 from balancer.report.safety import CAUTIONS
@@ -239,11 +240,23 @@ def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
 
 
 def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
-    panel = result.after_panel
+    """The Summary sheet, block by block; returns where its per-line table is, for the chart."""
     ws.title = "Summary"
-    ws["A1"] = f"{panel.name}: revised schedule"
+    ws["A1"] = f"{result.after_panel.name}: revised schedule"
     ws["A1"].font = _TITLE_FONT
-    row = 3
+    row = _facts_block(ws, result.after_panel, 3)
+    table = _line_block(ws, result, row + 1)
+    row = table.last_row + CHART_ROWS  # the per-line chart is placed here, under its table
+    row = _totals_block(ws, result, row + 2)
+    row = _result_block(ws, result, row + 2)
+    _cautions_block(ws, row + 2)
+    _widths(ws, [36, 16, 16, 13, 14, 14])
+    print_setup(ws, landscape=False, title_rows=None)
+    return table
+
+
+def _facts_block(ws: Worksheet, panel: Panel, row: int) -> int:
+    """The panel's facts and the reader's notices from ``row``; returns the row after them."""
     for label, value, fmt in _panel_facts(panel):
         ws.cell(row=row, column=1, value=label).font = Font(bold=True)
         cell = ws.cell(row=row, column=2, value=value)
@@ -254,8 +267,12 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         ws.cell(row=row, column=1, value="Notice").font = Font(bold=True)
         _long_text(ws, row, 2, notice, last_col=6, chars_per_line=60)
         row += 1
+    return row
 
-    row += 1
+
+def _line_block(ws: Worksheet, result: BalanceResult, row: int) -> _Table:
+    """The per-line figures before and after, titled at ``row``."""
+    panel = result.after_panel
     _section(ws, row, "Per-line figures")
     row += 1
     header_row = row
@@ -271,10 +288,12 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         _put(ws, row, 4, average, VA)
         _put(ws, row, 5, result.before.line_amps[line], AMPS)
         _put(ws, row, 6, result.after.line_amps[line], AMPS)
-    table = _Table(header_row, first_row, row)
-    row += CHART_ROWS  # the per-line chart is placed here, under its table
+    return _Table(header_row, first_row, row)
 
-    row += 2
+
+def _totals_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
+    """The whole panel's figures before and after, titled at ``row``; returns the last row."""
+    neutral = result.after_panel.system.neutral
     _section(ws, row, "Totals")
     row += 1
     _header(ws, row, ["Figure", "Before", "After"])
@@ -289,7 +308,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         ),
         (
             "Neutral current A RMS",
-            lambda x: x.neutral_amps if panel.system.neutral else "no neutral",
+            lambda x: x.neutral_amps if neutral else "no neutral",
             AMPS,
         ),
         ("Heaviest line", lambda x: x.heaviest_line, ""),
@@ -299,8 +318,12 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         _put(ws, row, 1, label)
         _put(ws, row, 2, get(result.before), fmt)
         _put(ws, row, 3, get(result.after), fmt)
+    return row
 
-    row += 2
+
+def _result_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
+    """How the balancing ended, its notes and what was not placed, titled at ``row``; returns
+    the last row."""
     _section(ws, row, "Result")
     facts: list[tuple[str, Any, str | None]] = [
         ("Status", STATUS_TEXT[result.status], None),
@@ -328,15 +351,15 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
         row += 1
         _put(ws, row, 1, "Not placed (left out of the figures)")
         _put(ws, row, 2, ", ".join(result.after.unplaced))
+    return row
 
-    row += 2
+
+def _cautions_block(ws: Worksheet, row: int) -> None:
+    """The cautions, titled at ``row``."""
     _section(ws, row, "Cautions")
     for note in CAUTIONS:
         row += 1
         _long_text(ws, row, 1, note, last_col=6, chars_per_line=95)
-    _widths(ws, [36, 16, 16, 13, 14, 14])
-    print_setup(ws, landscape=False, title_rows=None)
-    return table
 
 
 def _side_cells(panel: Panel, space: int) -> tuple[Any, Any, Any, Any, Any, Circuit | None]:
@@ -354,8 +377,8 @@ def _side_cells(panel: Panel, space: int) -> tuple[Any, Any, Any, Any, Any, Circ
 
 
 def _layout(ws: Worksheet, result: BalanceResult) -> None:
+    """The Layout sheet: the panel as built, two spaces a row, then each line's totals."""
     panel = result.after_panel
-    before_spaces = {c.id: c.spaces for c in result.before_panel.circuits}
     ws.title = "Layout"
     ws["A1"] = f"{panel.name}: revised layout, as the panel is built (odd spaces left, even right)"
     ws["A1"].font = _TITLE_FONT
@@ -372,68 +395,95 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
     titles = ["Was", "Description", *load, *side, "Line", *side[::-1], *load[::-1], "Description"]
     titles.append("Was")
     _header(ws, 3, titles)
-    line_col = 7 + k
-    geometry = panel.geometry
+    before_spaces = {c.id: c.spaces for c in result.before_panel.circuits}
     totals = dict.fromkeys(panel.lines, 0.0)
     balanced = dict.fromkeys(panel.lines, 0.0)
     row = 3
-    for pair in range(geometry.rows()):
+    for pair in range(panel.geometry.rows()):
         row += 1
-        left, right = 2 * pair + 1, 2 * pair + 2
-        line = geometry.line_of(left)
-        sides = (
-            (left, (2, 3, 4, 4 + k, 5 + k, 6 + k, 1)),
-            (right, (12 + 2 * k, 11 + 2 * k, 11 + k, 10 + k, 9 + k, 8 + k, 13 + 2 * k)),
-        )
-        for space, cols in sides:
-            if space > panel.spaces:
-                continue
-            description, design, share, trip, poles, occupant = _side_cells(panel, space)
-            d_col, va_col, bal_col, trip_col, poles_col, space_col, was_col = cols
-            _put(ws, row, d_col, description)
-            _put(ws, row, va_col, design, VA)
-            if k:
-                _put(ws, row, bal_col, share, VA)
-            _put(ws, row, trip_col, trip, "0")
-            _put(ws, row, poles_col, poles, "0")
-            _put(ws, row, space_col, space, "0")
-            ws.cell(row=row, column=space_col).alignment = _CENTRE
-            moved = occupant is not None and before_spaces.get(occupant.id) != occupant.spaces
-            was = _spaces_text(before_spaces.get(occupant.id, ())) if moved and occupant else None
-            _put(ws, row, was_col, was)
-            if design:
-                totals[line] += design
-            if share:
-                balanced[line] += share
-            if description == "(space)":
-                ws.cell(row=row, column=d_col).font = Font(italic=True, color="6B7785")
-            if moved:
-                for col in set(cols):
-                    ws.cell(row=row, column=col).fill = _MOVED_FILL
-        _put(ws, row, line_col, line)
-        centre = ws.cell(row=row, column=line_col)
-        centre.alignment = _CENTRE
-        centre.font = Font(bold=True)
-        centre.fill = _LINE_FILL
-    row += 2
+        _layout_row(ws, row, panel, pair, k, before_spaces, (totals, balanced))
+    _line_totals(ws, row + 2, result, load, totals, balanced)
+    _widths(ws, [8, 30, *[10] * (1 + k), 7, 6, 7, 6, 7, 6, 7, *[10] * (1 + k), 30, 8])
+    ws.freeze_panes = "A4"
+    print_setup(ws, landscape=True, title_rows="1:3")
+
+
+def _layout_row(
+    ws: Worksheet,
+    row: int,
+    panel: Panel,
+    pair: int,
+    k: int,
+    before_spaces: dict[str, tuple[int, ...]],
+    sums: tuple[dict[Line, float], dict[Line, float]],
+) -> None:
+    """One row of the layout: the odd space, the line, the even space. Adds the row's design
+    and balanced loads to ``sums``."""
+    totals, balanced = sums
+    left, right = 2 * pair + 1, 2 * pair + 2
+    line = panel.geometry.line_of(left)
+    sides = (
+        (left, (2, 3, 4, 4 + k, 5 + k, 6 + k, 1)),
+        (right, (12 + 2 * k, 11 + 2 * k, 11 + k, 10 + k, 9 + k, 8 + k, 13 + 2 * k)),
+    )
+    for space, cols in sides:
+        if space > panel.spaces:
+            continue
+        description, design, share, trip, poles, occupant = _side_cells(panel, space)
+        d_col, va_col, bal_col, trip_col, poles_col, space_col, was_col = cols
+        _put(ws, row, d_col, description)
+        _put(ws, row, va_col, design, VA)
+        if k:
+            _put(ws, row, bal_col, share, VA)
+        _put(ws, row, trip_col, trip, "0")
+        _put(ws, row, poles_col, poles, "0")
+        _put(ws, row, space_col, space, "0")
+        ws.cell(row=row, column=space_col).alignment = _CENTRE
+        moved = occupant is not None and before_spaces.get(occupant.id) != occupant.spaces
+        was = _spaces_text(before_spaces.get(occupant.id, ())) if moved and occupant else None
+        _put(ws, row, was_col, was)
+        if design:
+            totals[line] += design
+        if share:
+            balanced[line] += share
+        if description == "(space)":
+            ws.cell(row=row, column=d_col).font = Font(italic=True, color="6B7785")
+        if moved:
+            for col in set(cols):
+                ws.cell(row=row, column=col).fill = _MOVED_FILL
+    line_col = 7 + k
+    _put(ws, row, line_col, line)
+    centre = ws.cell(row=row, column=line_col)
+    centre.alignment = _CENTRE
+    centre.font = Font(bold=True)
+    centre.fill = _LINE_FILL
+
+
+def _line_totals(
+    ws: Worksheet,
+    row: int,
+    result: BalanceResult,
+    load: list[str],
+    totals: dict[Line, float],
+    balanced: dict[Line, float],
+) -> None:
+    """Each line's design (and balanced) load and current under the layout, titled at ``row``."""
+    k = len(load) - 1
     _section(ws, row, "Line totals")
     row += 1
     _header(ws, row, ["Line", *load, "A RMS"], col=2)
-    for line in panel.lines:
+    for line in result.after_panel.lines:
         row += 1
         _put(ws, row, 2, line)
         _put(ws, row, 3, totals[line], VA)
         if k:
             _put(ws, row, 4, balanced[line], VA)
         _put(ws, row, 4 + k, result.after.line_amps[line], AMPS)
-    if panel.system.neutral:
+    if result.after_panel.system.neutral:
         row += 1
         _put(ws, row, 2, "N")
         _put(ws, row, 3, None)
         _put(ws, row, 4 + k, result.after.neutral_amps, AMPS)
-    _widths(ws, [8, 30, *[10] * (1 + k), 7, 6, 7, 6, 7, 6, 7, *[10] * (1 + k), 30, 8])
-    ws.freeze_panes = "A4"
-    print_setup(ws, landscape=True, title_rows="1:3")
 
 
 def _changes(ws: Worksheet, result: BalanceResult) -> None:
@@ -724,14 +774,33 @@ def write_workbook(
     OutputError
         When ``path`` is the input file or cannot be written.
     """
-    from balancer.io.charts import phase_load_chart
-
     path = Path(path)
     refuse_input_path(path, input_path, result.before_panel.source or None)
     wb = Workbook()
     summary = wb.active
     assert summary is not None
-    table = _summary(summary, result)
+    _summary_chart(summary, _summary(summary, result))
+    _layout(wb.create_sheet(), result)
+    _changes(wb.create_sheet(), result)
+    _circuits(wb.create_sheet(), result.after_panel)
+    _panel_sheet(wb.create_sheet(), result.after_panel)
+    if result.tradeoff:
+        _tradeoff(wb.create_sheet(), result)
+    if phasor_diagram:
+        if harmonic_neutral_rms_a is None:
+            harmonic_neutral_rms_a = harmonic_neutral(result.before, result.after)
+        _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
+    _added_sheets(wb, extra_sheets, demand, order)
+    _notes(wb.create_sheet())
+    wb.properties.title = f"{result.after_panel.name} revised schedule"
+    wb.properties.creator = "balancer"
+    return save_workbook(wb, path)
+
+
+def _summary_chart(summary: Worksheet, table: _Table) -> None:
+    """The per-line chart of the Summary sheet, under its table."""
+    from balancer.io.charts import phase_load_chart
+
     chart = phase_load_chart(
         summary,
         header_row=table.header_row,
@@ -743,16 +812,16 @@ def write_workbook(
         average_col=4,
     )
     summary.add_chart(chart, f"A{table.last_row + 2}")
-    _layout(wb.create_sheet(), result)
-    _changes(wb.create_sheet(), result)
-    _circuits(wb.create_sheet(), result.after_panel)
-    _panel_sheet(wb.create_sheet(), result.after_panel)
-    if result.tradeoff:
-        _tradeoff(wb.create_sheet(), result)
-    if phasor_diagram:
-        if harmonic_neutral_rms_a is None:
-            harmonic_neutral_rms_a = harmonic_neutral(result.before, result.after)
-        _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
+
+
+def _added_sheets(
+    wb: Workbook,
+    extra_sheets: Sequence[ExtraSheet],
+    demand: DemandResult | None,
+    order: WorkOrder | None,
+) -> None:
+    """The work order and demand sheets, when given, then the extra sheets; refused when a name
+    would repeat a sheet's."""
     sheets = list(extra_sheets)
     if demand is not None:
         from balancer.code.demand import demand_sheet_rows
@@ -769,7 +838,3 @@ def write_workbook(
             raise ValueError(f"extra sheet {title!r} would repeat a sheet name")
         taken.add(name)
         write_rows_sheet(wb.create_sheet(), name, rows)
-    _notes(wb.create_sheet())
-    wb.properties.title = f"{result.after_panel.name} revised schedule"
-    wb.properties.creator = "balancer"
-    return save_workbook(wb, path)
