@@ -210,7 +210,42 @@ def _summary_page(
     result: BalanceResult | None,
     demand: DemandResult | None = None,
 ) -> None:
+    """The first page: the panel's facts, its per-line table, its figures, the bar chart and
+    the cautions."""
     page.heading(f"Panel {panel.name}", size=15)
+    _facts_block(page, panel)
+    page.heading("Per-line figures", size=11)
+    if result is not None:
+        _before_after_table(page, panel, loads, result)
+    else:
+        _line_table(page, panel, loads)
+    _figure_lines(page, _panel_figures(panel, loads, result))
+    if demand is not None:
+        feeder = demand.feeder
+        _figure_lines(
+            page,
+            [
+                ("Demand load", f"{demand.total_demand_va:,.0f} VA ({demand.rule_set.title})"),
+                (
+                    "Feeder sizing current",
+                    f"{feeder.required_a:,.1f} A on line {feeder.design_line}",
+                ),
+                (
+                    "Minimum feeder OCPD",
+                    f"{feeder.min_ocpd_a} A" if feeder.min_ocpd_a is not None else "not sized",
+                ),
+            ],
+        )
+    if loads.unplaced:
+        page.paragraph("Not placed, left out of the figures: " + ", ".join(loads.unplaced))
+    page.y_in += 0.35
+    _bar_chart(page, panel, loads, result)
+    page.y_in += 0.4
+    _cautions(page)
+
+
+def _facts_block(page: _Page, panel: Panel) -> None:
+    """The panel's ratings and schedule, then the reader's notices."""
     facts = [
         ("System", panel.system.label()),
         ("Spaces", str(panel.spaces)),
@@ -231,48 +266,51 @@ def _summary_page(
         page.paragraph(f"Notice: {notice}")
     page.y_in += 0.1
 
-    page.heading("Per-line figures", size=11)
-    lines = panel.lines
-    if result is not None:
-        header = ["Line", "Before VA", "After VA", "Before A RMS", "After A RMS"]
-        rows: list[list[Any]] = [
-            [
-                line,
-                _va(result.before.phase_va[line]),
-                _va(loads.phase_va[line]),
-                _amps(result.before.line_amps[line]),
-                _amps(loads.line_amps[line]),
-            ]
-            for line in lines
+
+def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: BalanceResult) -> None:
+    """Each line's load and current before and after balancing, and the neutral's."""
+    header = ["Line", "Before VA", "After VA", "Before A RMS", "After A RMS"]
+    rows: list[list[Any]] = [
+        [
+            line,
+            _va(result.before.phase_va[line]),
+            _va(loads.phase_va[line]),
+            _amps(result.before.line_amps[line]),
+            _amps(loads.line_amps[line]),
         ]
-        if panel.system.neutral:
-            rows.append(
-                [
-                    "Neutral",
-                    None,
-                    None,
-                    _amps(result.before.neutral_amps),
-                    _amps(loads.neutral_amps),
-                ]
-            )
-        widths = [0.9, 1.2, 1.2, 1.1, 1.1]
-    else:
-        header = ["Line", "Load VA", "Current A RMS", "Deviation from average"]
-        average = loads.total_va / len(lines)
-        rows = [
-            [
-                line,
-                _va(loads.phase_va[line]),
-                _amps(loads.line_amps[line]),
-                f"{(loads.phase_va[line] - average) / average * 100 if average else 0.0:+.1f} %",
-            ]
-            for line in lines
-        ]
-        if panel.system.neutral:
-            rows.append(["Neutral", None, _amps(loads.neutral_amps), ""])
-        widths = [0.9, 1.2, 1.1, 1.8]
+        for line in panel.lines
+    ]
+    if panel.system.neutral:
+        rows.append(
+            ["Neutral", None, None, _amps(result.before.neutral_amps), _amps(loads.neutral_amps)]
+        )
+    widths = [0.9, 1.2, 1.2, 1.1, 1.1]
     page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
 
+
+def _line_table(page: _Page, panel: Panel, loads: Loads) -> None:
+    """Each line's load, current and deviation from the average, and the neutral's current."""
+    header = ["Line", "Load VA", "Current A RMS", "Deviation from average"]
+    average = loads.total_va / len(panel.lines)
+    rows: list[list[Any]] = [
+        [
+            line,
+            _va(loads.phase_va[line]),
+            _amps(loads.line_amps[line]),
+            f"{(loads.phase_va[line] - average) / average * 100 if average else 0.0:+.1f} %",
+        ]
+        for line in panel.lines
+    ]
+    if panel.system.neutral:
+        rows.append(["Neutral", None, _amps(loads.neutral_amps), ""])
+    widths = [0.9, 1.2, 1.1, 1.8]
+    page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
+
+
+def _panel_figures(
+    panel: Panel, loads: Loads, result: BalanceResult | None
+) -> list[tuple[str, str]]:
+    """The whole panel's figures, and how the balancing ended when there was one."""
     figures = [
         ("Total load", f"{loads.total_va:,.0f} VA"),
         ("Spread (heaviest − lightest line)", f"{loads.spread_va:,.0f} VA"),
@@ -292,30 +330,15 @@ def _summary_page(
             ),
             ("Breakers to move", str(len(result.moves))),
         ]
+    return figures
+
+
+def _figure_lines(page: _Page, figures: list[tuple[str, str]]) -> None:
+    """Label and value pairs, one a line."""
     for label, value in figures:
         page.text(MARGIN_IN, page.y_in, label, size=9)
         page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
         page.y_in += 0.19
-    if demand is not None:
-        feeder = demand.feeder
-        figures = [
-            ("Demand load", f"{demand.total_demand_va:,.0f} VA ({demand.rule_set.title})"),
-            ("Feeder sizing current", f"{feeder.required_a:,.1f} A on line {feeder.design_line}"),
-            (
-                "Minimum feeder OCPD",
-                f"{feeder.min_ocpd_a} A" if feeder.min_ocpd_a is not None else "not sized",
-            ),
-        ]
-        for label, value in figures:
-            page.text(MARGIN_IN, page.y_in, label, size=9)
-            page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
-            page.y_in += 0.19
-    if loads.unplaced:
-        page.paragraph("Not placed, left out of the figures: " + ", ".join(loads.unplaced))
-    page.y_in += 0.35
-    _bar_chart(page, panel, loads, result)
-    page.y_in += 0.4
-    _cautions(page)
 
 
 def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None) -> None:
