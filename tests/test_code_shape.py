@@ -16,7 +16,6 @@ REASON = re.compile(r"#\s*long:\s*\S.{9,}")  # a reason of ten characters at lea
 # shortened or marked (test_pending_functions_are_still_long fails until it does).
 PENDING = {
     ("building/report.py", "write_building_workbook"),
-    ("physics/analysis.py", "analyze"),
 }
 
 

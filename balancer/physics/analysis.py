@@ -11,6 +11,7 @@ from balancer.domain.systems import Line
 from balancer.errors import Problem, ScheduleError
 from balancer.physics.harmonics import Profile, spectrum_for
 from balancer.physics.phasors import (
+    CircuitCurrents,
     circuit_harmonic_currents,
     circuit_power,
     nema_unbalance_pct,
@@ -94,6 +95,31 @@ def _phase_pf(power: complex) -> float:
     return -pf if power.imag < 0 else pf
 
 
+@dataclass(slots=True)
+class _Sums:
+    """The placed circuits' figures summed by line, and their currents by harmonic order."""
+
+    phase_va: dict[Line, float]
+    power: dict[Line, complex]
+    by_order: dict[int, dict[Line, complex]] = field(default_factory=dict)
+    sinusoidal_neutral: complex = 0j
+
+    def add(
+        self,
+        parts: dict[int, CircuitCurrents],
+        sinusoidal: dict[int, CircuitCurrents],
+        circuit_kva: dict[Line, complex],
+    ) -> None:
+        """Add one circuit's currents by order, its neutral without harmonics and its power."""
+        for h, part in parts.items():
+            total = self.by_order.setdefault(h, dict.fromkeys(self.phase_va, 0j))
+            for line, current in part.lines.items():
+                total[line] += current
+        self.sinusoidal_neutral += sinusoidal[1].neutral
+        for line, value in circuit_kva.items():
+            self.power[line] += value
+
+
 def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Loads:
     """Figures for the panel as its circuits are placed; unplaced circuits are left out and named.
 
@@ -106,10 +132,7 @@ def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Load
         leg or on a system without neutral, a voltage that does not fit the poles...).
     """
     lines = panel.lines
-    phase_va = dict.fromkeys(lines, 0.0)
-    power = dict.fromkeys(lines, 0j)
-    by_order: dict[int, dict[Line, complex]] = {}
-    sinusoidal_neutral = 0j
+    sums = _Sums(dict.fromkeys(lines, 0.0), dict.fromkeys(lines, 0j))
     unplaced = []
     problems = []
     for circuit in panel.circuits:
@@ -119,41 +142,50 @@ def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Load
                 unplaced.append(circuit.id)
             continue
         for line, va in share_by_line(panel, circuit).items():
-            phase_va[line] += va
+            sums.phase_va[line] += va
         if circuit.basis_va == 0:
             continue
-        where = f"circuit {circuit.id}" + (
-            f" (row {circuit.source_row})" if circuit.source_row is not None else ""
-        )
         try:
-            spectrum = spectrum_for(circuit, profiles)
-            system, load_va, pf = panel.system, circuit.basis_va, circuit.power_factor
-            volts, neutral_va = circuit.voltage_v, circuit.neutral_va
-            parts = circuit_harmonic_currents(
-                system, circuit_lines, load_va, pf, spectrum, volts, neutral_va
-            )
-            sinusoidal = (
-                circuit_harmonic_currents(
-                    system, circuit_lines, load_va, pf, None, volts, neutral_va
-                )
-                if spectrum
-                else parts
-            )
-            circuit_kva = circuit_power(
-                system, circuit_lines, load_va, pf, spectrum, volts, neutral_va
-            )
+            currents = _circuit_currents(panel, circuit, circuit_lines, profiles)
         except ValueError as exc:
+            where = f"circuit {circuit.id}" + (
+                f" (row {circuit.source_row})" if circuit.source_row is not None else ""
+            )
             problems.append(Problem(where, str(exc)))
             continue
-        for h, part in parts.items():
-            total = by_order.setdefault(h, dict.fromkeys(lines, 0j))
-            for line, current in part.lines.items():
-                total[line] += current
-        sinusoidal_neutral += sinusoidal[1].neutral
-        for line, value in circuit_kva.items():
-            power[line] += value
+        sums.add(*currents)
     if problems:
         raise ScheduleError(problems, source=panel.source)
+    return _loads(panel, sums, tuple(unplaced))
+
+
+def _circuit_currents(
+    panel: Panel,
+    circuit: Circuit,
+    circuit_lines: tuple[Line, ...],
+    profiles: Mapping[str, Profile] | None,
+) -> tuple[dict[int, CircuitCurrents], dict[int, CircuitCurrents], dict[Line, complex]]:
+    """One placed circuit's currents by harmonic order, the same without harmonics, and its
+    power by line. Raises ValueError when it cannot connect where it is."""
+    spectrum = spectrum_for(circuit, profiles)
+    system, load_va, pf = panel.system, circuit.basis_va, circuit.power_factor
+    volts, neutral_va = circuit.voltage_v, circuit.neutral_va
+    parts = circuit_harmonic_currents(
+        system, circuit_lines, load_va, pf, spectrum, volts, neutral_va
+    )
+    sinusoidal = (
+        circuit_harmonic_currents(system, circuit_lines, load_va, pf, None, volts, neutral_va)
+        if spectrum
+        else parts
+    )
+    circuit_kva = circuit_power(system, circuit_lines, load_va, pf, spectrum, volts, neutral_va)
+    return parts, sinusoidal, circuit_kva
+
+
+def _loads(panel: Panel, sums: _Sums, unplaced: tuple[str, ...]) -> Loads:
+    """The panel's figures from its sums: fundamental and RMS currents, neutral, unbalance."""
+    lines = panel.lines
+    phase_va, power, by_order = sums.phase_va, sums.power, sums.by_order
     fundamental = by_order.get(1, dict.fromkeys(lines, 0j))
     line_rms = {line: rms(order[line] for order in by_order.values()) for line in lines}
     # Kirchhoff: whatever the lines carry out returns on the neutral.
@@ -175,10 +207,10 @@ def analyze(panel: Panel, profiles: Mapping[str, Profile] | None = None) -> Load
         unbalance_factor_pct=factor,
         phase_kw={line: value.real / 1000.0 for line, value in power.items()},
         phase_kvar={line: value.imag / 1000.0 for line, value in power.items()},
-        unplaced=tuple(unplaced),
+        unplaced=unplaced,
         line_rms_a=line_rms,
         neutral_rms_a=neutral_rms,
-        neutral_without_harmonics_a=abs(sinusoidal_neutral) if has_neutral else 0.0,
+        neutral_without_harmonics_a=abs(sums.sinusoidal_neutral) if has_neutral else 0.0,
         neutral_exceeds_phase=has_neutral
         and neutral_rms > largest_line * (1 + NEUTRAL_FLAG_MARGIN) + NEUTRAL_FLAG_MARGIN,
         phase_pf={line: _phase_pf(value) for line, value in power.items()},
