@@ -12,12 +12,6 @@ PACKAGE = Path(__file__).resolve().parents[1] / "balancer"
 MAX_LINES = 80
 REASON = re.compile(r"#\s*long:\s*\S.{9,}")  # a reason of ten characters at least
 
-# Long functions not yet marked or split, by file and name. An entry goes when its function is
-# shortened or marked (test_pending_functions_are_still_long fails until it does).
-PENDING = {
-    ("building/report.py", "write_building_workbook"),
-}
-
 
 def unexplained(source: str) -> list[tuple[str, int]]:
     """(name, length in lines) of every function in ``source`` over MAX_LINES without a
@@ -76,15 +70,5 @@ def test_the_check_finds_a_long_function_without_a_reason() -> None:
 
 def test_long_functions_say_why() -> None:
     found = _package_unexplained()
-    new = sorted(
-        f"{path}: {name} ({length} lines)"
-        for (path, name), length in found.items()
-        if (path, name) not in PENDING
-    )
-    assert not new, f"over {MAX_LINES} lines with no '# long: <reason>' comment: " + "; ".join(new)
-
-
-def test_pending_functions_are_still_long() -> None:
-    found = _package_unexplained()
-    done = sorted(f"{path}: {name}" for path, name in PENDING if (path, name) not in found)
-    assert not done, "shortened or marked, so no longer pending: " + "; ".join(done)
+    listed = "; ".join(f"{path}: {name} ({n} lines)" for (path, name), n in sorted(found.items()))
+    assert not found, f"over {MAX_LINES} lines with no '# long: <reason>' comment: {listed}"

@@ -6,6 +6,7 @@ import textwrap
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from balancer.building.tree import (
     Building,
@@ -17,6 +18,9 @@ from balancer.domain.result import SolveStatus
 from balancer.domain.systems import Line
 from balancer.report.safety import CAUTION, CAUTIONS
 from balancer.report.text import GOAL_NAMES
+
+if TYPE_CHECKING:
+    from openpyxl.worksheet.worksheet import Worksheet
 
 
 def _lines_text(values: Mapping[Line, float], digits: int = 0) -> str:
@@ -430,15 +434,41 @@ def write_building_workbook(
     reads again."""
 
     from openpyxl import Workbook
-    from openpyxl.styles import Alignment, Font
 
     from balancer.building.files import write_building_sheets
     from balancer.io.files import save_workbook
-    from balancer.io.writer import print_setup, write_rows_sheet
+    from balancer.io.writer import write_rows_sheet
 
     book = Workbook()
     summary = book.active
     assert summary is not None
+    _summary_sheet(summary, building, before, result)
+    tables = [
+        ("Panels", panel_rows(building, before, result, demand)),
+        ("Feeders", feeder_rows(building, before, result)),
+    ]
+    if result is not None:
+        tables.append(("Moves", move_rows(result)))
+    for title, rows in tables:
+        _table_sheet(book.create_sheet(title), rows)
+    if result is not None:
+        write_rows_sheet(book.create_sheet(), "Work order", work_order_rows(result))
+        shaded = {
+            name: frozenset(o.moves) | _feeder_ids(result, name)
+            for name, o in result.outcomes.items()
+        }
+        write_building_sheets(book, result.after, f"{building.name}, revised", shaded)
+    return save_workbook(book, path)
+
+
+def _summary_sheet(
+    summary: Worksheet, building: Building, before: RollUp, result: BuildingResult | None
+) -> None:
+    """The Summary sheet: the building's summary lines and the caution, wrapped in column A."""
+    from openpyxl.styles import Alignment, Font
+
+    from balancer.io.writer import print_setup
+
     summary.title = "Summary"
     summary.append([f"Building {building.name}"])
     summary["A1"].font = Font(bold=True, size=14)
@@ -460,55 +490,47 @@ def write_building_workbook(
         if lines > 1:
             summary.row_dimensions[cell.row].height = 15 * lines + 2
     print_setup(summary, landscape=False, title_rows=None)
-    tables = [
-        ("Panels", panel_rows(building, before, result, demand)),
-        ("Feeders", feeder_rows(building, before, result)),
-    ]
-    if result is not None:
-        tables.append(("Moves", move_rows(result)))
-    for title, rows in tables:
-        sheet = book.create_sheet(title)
-        keys = list(rows[0]) if rows else ["panel"]
-        sheet.append([SHEET_TITLES.get(k, k.replace("_", " ")) for k in keys])
-        for cell in sheet[1]:
-            cell.font = Font(bold=True)
-        for row in rows:
-            sheet.append([row.get(k) for k in keys])
-        for col, key in enumerate(keys, start=1):
-            fmt = _number_format(key)
-            for (cell,) in sheet.iter_rows(min_row=2, min_col=col, max_col=col):
-                if fmt:
-                    cell.number_format = fmt
-                # figures (numbers, and "a / b / c" per line) to the right with a gap before
-                # the next column, words to the left
-                figures = not isinstance(cell.value, str) or " / " in cell.value
-                cell.alignment = Alignment(horizontal="right" if figures else "left", indent=1)
-        for col, key in enumerate(keys, start=1):
-            header = sheet.cell(row=1, column=col)
-            header.alignment = Alignment(wrap_text=True, vertical="top")
-            longest = max([len(_shown(r.get(key))) for r in rows] + [9])
-            words = max(len(w) for w in str(header.value).split())
-            width = min(36, max(words, longest) + 2)
-            sheet.column_dimensions[header.column_letter].width = width
-        # room for the longest header wrapped in its column
-        wrapped = max(
-            -(
-                -len(str(cell.value))
-                // max(1, int(sheet.column_dimensions[cell.column_letter].width) - 2)
-            )
-            for cell in sheet[1]
+
+
+def _table_sheet(sheet: Worksheet, rows: Sequence[Mapping[str, object]]) -> None:
+    """One table of rows (the keys of the first its columns), headers wrapped to fit."""
+    from openpyxl.styles import Alignment, Font
+
+    from balancer.io.writer import print_setup
+
+    keys = list(rows[0]) if rows else ["panel"]
+    sheet.append([SHEET_TITLES.get(k, k.replace("_", " ")) for k in keys])
+    for cell in sheet[1]:
+        cell.font = Font(bold=True)
+    for row in rows:
+        sheet.append([row.get(k) for k in keys])
+    for col, key in enumerate(keys, start=1):
+        fmt = _number_format(key)
+        for (cell,) in sheet.iter_rows(min_row=2, min_col=col, max_col=col):
+            if fmt:
+                cell.number_format = fmt
+            # figures (numbers, and "a / b / c" per line) to the right with a gap before
+            # the next column, words to the left
+            figures = not isinstance(cell.value, str) or " / " in cell.value
+            cell.alignment = Alignment(horizontal="right" if figures else "left", indent=1)
+    for col, key in enumerate(keys, start=1):
+        header = sheet.cell(row=1, column=col)
+        header.alignment = Alignment(wrap_text=True, vertical="top")
+        longest = max([len(_shown(r.get(key))) for r in rows] + [9])
+        words = max(len(w) for w in str(header.value).split())
+        width = min(36, max(words, longest) + 2)
+        sheet.column_dimensions[header.column_letter].width = width
+    # room for the longest header wrapped in its column
+    wrapped = max(
+        -(
+            -len(str(cell.value))
+            // max(1, int(sheet.column_dimensions[cell.column_letter].width) - 2)
         )
-        sheet.row_dimensions[1].height = 14 * max(1, wrapped) + 4
-        sheet.freeze_panes = "B2"
-        print_setup(sheet, landscape=True, title_rows="1:1")
-    if result is not None:
-        write_rows_sheet(book.create_sheet(), "Work order", work_order_rows(result))
-        shaded = {
-            name: frozenset(o.moves) | _feeder_ids(result, name)
-            for name, o in result.outcomes.items()
-        }
-        write_building_sheets(book, result.after, f"{building.name}, revised", shaded)
-    return save_workbook(book, path)
+        for cell in sheet[1]
+    )
+    sheet.row_dimensions[1].height = 14 * max(1, wrapped) + 4
+    sheet.freeze_panes = "B2"
+    print_setup(sheet, landscape=True, title_rows="1:1")
 
 
 def _shown(value: object) -> str:
