@@ -20,8 +20,9 @@ from openpyxl.utils import get_column_letter
 
 from balancer.building.tree import MAX_LEVELS, Building, Feed, deepest, make_building
 from balancer.domain.panel import Panel
+from balancer.domain.systems import System
 from balancer.errors import Problem, ScheduleError
-from balancer.physics.transformer import make_transformer
+from balancer.physics.transformer import Transformer, make_transformer
 
 if TYPE_CHECKING:
     from openpyxl import Workbook
@@ -174,26 +175,44 @@ def _has_building_sheet(path: Path) -> bool:
     return 'name="Building"' in names or "name='Building'" in names
 
 
-# long: every problem in the index, its panels and its feeds is gathered before one refusal
 def read_building(path: str | Path) -> Building:
     """Read a building: a workbook with a ``Building`` index sheet and one sheet per panel, or
     an index file (``.csv``/``.xlsx``, or a folder holding ``building.xlsx``/``building.csv``)
     whose ``Schedule`` column names one schedule file per panel, relative to the index.
+
+    Every problem in the index and its panels is gathered before one refusal, then every
+    problem in its feeds.
 
     Raises
     ------
     ScheduleError
         With every problem in the index and in every panel's schedule, each with its place.
     """
-    from balancer.io.reader import PanelOverrides, read_schedule, read_workbook_sheets
-
     path = index_file(path)
     place, rows = _index_rows(path)
     entries = _parse_index(place, rows)
     problems: list[Problem] = []
     if not entries:
         raise ScheduleError(Problem(place, "the index lists no panels"), str(path))
-    # refused before any schedule is read: a crafted index 2,000 panels deep would take long
+    _refuse_too_deep(entries, path)
+    for e in entries:
+        if not e.cells["panel"]:
+            problems.append(Problem(e.where["panel"], "a row with no panel name"))
+    panels = _read_panels(path, place, entries, problems)
+    if problems:
+        raise ScheduleError(problems, str(path))
+    systems = {p.name: p.system for p in panels}
+    feeds = [
+        feed for entry in entries if (feed := _feed(entry, systems, place, problems)) is not None
+    ]
+    if problems:
+        raise ScheduleError(problems, str(path))
+    return make_building(path.stem, panels, feeds)
+
+
+def _refuse_too_deep(entries: list[_IndexRow], path: Path) -> None:
+    """Refuse a tree deeper than MAX_LEVELS, before any schedule is read: a crafted index
+    2,000 panels deep would take long."""
     fed = {e.cells["panel"]: e for e in entries if e.cells.get("fed_from")}
     deep, level = deepest({name: e.cells["fed_from"] for name, e in fed.items()})
     if level > MAX_LEVELS:
@@ -205,10 +224,16 @@ def read_building(path: str | Path) -> Building:
             ),
             str(path),
         )
+
+
+def _read_panels(
+    path: Path, place: str, entries: list[_IndexRow], problems: list[Problem]
+) -> list[Panel]:
+    """Every panel the index lists, from the index workbook's sheets or from the schedule files
+    it names; the problems of each added to ``problems``."""
+    from balancer.io.reader import PanelOverrides, read_schedule, read_workbook_sheets
+
     names = [e.cells["panel"] for e in entries]
-    for e in entries:
-        if not e.cells["panel"]:
-            problems.append(Problem(e.where["panel"], "a row with no panel name"))
     schedules = [e.cells.get("schedule") or e.cells["panel"] for e in entries]
     overrides = [PanelOverrides(name=n) for n in names]
     panels: list[Panel] = []
@@ -219,58 +244,62 @@ def read_building(path: str | Path) -> Building:
             panels = read_workbook_sheets(path, schedules, overrides)
         except ScheduleError as exc:
             problems += exc.problems
-    else:
-        for entry, schedule, given in zip(entries, schedules, overrides, strict=True):
-            try:
-                panels.append(read_schedule(path.parent / schedule, given))
-            except ScheduleError as exc:
-                problems += [
-                    Problem(p.where or entry.where.get("schedule", place), p.what)
-                    for p in exc.problems
-                ]
-    if problems:
-        raise ScheduleError(problems, str(path))
-    systems = {p.name: p.system for p in panels}
-    feeds: list[Feed] = []
-    for entry in entries:
-        source = entry.cells.get("fed_from", "")
-        if not source:
-            continue
-        circuit = entry.cells.get("circuit", "")
-        where = entry.where.get("fed_from", place)
-        if not circuit:
-            problems.append(
-                Problem(
-                    entry.where.get("circuit", where),
-                    f"panel '{entry.cells['panel']}' is fed from '{source}' but no feeder "
-                    "circuit is given",
-                )
+        return panels
+    for entry, schedule, given in zip(entries, schedules, overrides, strict=True):
+        try:
+            panels.append(read_schedule(path.parent / schedule, given))
+        except ScheduleError as exc:
+            problems += [
+                Problem(p.where or entry.where.get("schedule", place), p.what) for p in exc.problems
+            ]
+    return panels
+
+
+def _feed(
+    entry: _IndexRow, systems: Mapping[str, System], place: str, problems: list[Problem]
+) -> Feed | None:
+    """The feed an index row gives (None for a service), or None with its problems added."""
+    source = entry.cells.get("fed_from", "")
+    if not source:
+        return None
+    circuit = entry.cells.get("circuit", "")
+    where = entry.where.get("fed_from", place)
+    if not circuit:
+        problems.append(
+            Problem(
+                entry.where.get("circuit", where),
+                f"panel '{entry.cells['panel']}' is fed from '{source}' but no feeder "
+                "circuit is given",
             )
-            continue
-        transformer = None
-        if entry.cells.get("kva") or entry.cells.get("connection"):
-            try:
-                kva = float(entry.cells.get("kva") or "nan")
-            except ValueError:
-                kva = math.nan
-            if source in systems:
-                try:
-                    transformer = make_transformer(
-                        entry.cells.get("transformer", ""),
-                        kva,
-                        systems[source],
-                        systems[entry.cells["panel"]],
-                        entry.cells.get("connection", ""),
-                        entry.where.get("connection", where),
-                    )
-                except ScheduleError as exc:
-                    problems += exc.problems
-                    continue
-        swapped = entry.cells.get("swapped", "").lower() in ("yes", "y", "true", "1", "x")
-        feeds.append(Feed(entry.cells["panel"], source, circuit, transformer, swapped, where))
-    if problems:
-        raise ScheduleError(problems, str(path))
-    return make_building(path.stem, panels, feeds)
+        )
+        return None
+    transformer = None
+    if (entry.cells.get("kva") or entry.cells.get("connection")) and source in systems:
+        try:
+            transformer = _feed_transformer(entry, systems[source], systems, where)
+        except ScheduleError as exc:
+            problems += exc.problems
+            return None
+    swapped = entry.cells.get("swapped", "").lower() in ("yes", "y", "true", "1", "x")
+    return Feed(entry.cells["panel"], source, circuit, transformer, swapped, where)
+
+
+def _feed_transformer(
+    entry: _IndexRow, primary: System, systems: Mapping[str, System], where: str
+) -> Transformer:
+    """The transformer between a feed's source and its panel; ScheduleError when refused."""
+    try:
+        kva = float(entry.cells.get("kva") or "nan")
+    except ValueError:
+        kva = math.nan
+    return make_transformer(
+        entry.cells.get("transformer", ""),
+        kva,
+        primary,
+        systems[entry.cells["panel"]],
+        entry.cells.get("connection", ""),
+        entry.where.get("connection", where),
+    )
 
 
 # ---------------------------------------------------------------- writing a building
