@@ -22,7 +22,7 @@ from balancer.io.writer import (
     row_role,
 )
 from balancer.physics.analysis import Loads, share_by_line
-from balancer.report.safety import CAUTIONS
+from balancer.report.safety import CAUTION, CAUTIONS
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -380,10 +380,16 @@ def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | 
 
 
 def _cautions(page: _Page) -> None:
-    page.heading("Cautions", size=11)
+    """The caution on a summary page; the full list goes with the work order."""
+    page.heading("Caution", size=11)
+    page.paragraph(CAUTION)
+
+
+def _full_cautions(page: _Page) -> None:
+    page.heading("Before any work at the panel", size=11)
     for note in CAUTIONS:
-        page.paragraph(f"• {note}")
-        page.y_in += 0.03
+        page.paragraph(f"• {note}", size=8)
+        page.y_in += 0.02
 
 
 def _directory_rows(panel: Panel) -> list[list[Any]]:
@@ -477,16 +483,21 @@ def _work_pages(
     width = pages[0].width_in - 2 * MARGIN_IN
     fixed = [0.45, 1.9, 0.6, 1.0, 1.0, 0.6]
     widths = [fixed[0], fixed[1], fixed[2], width - sum(fixed), fixed[3], fixed[4], fixed[5]]
-    per_page = 34
-    for start in range(0, max(1, len(rows)), per_page):
+    per_page, first_page = 34, 14  # the first page carries the cautions too
+    starts = [0, *range(first_page, len(rows), per_page)]
+    for number, start in enumerate(starts):
         page = make()
         page.heading(f"Work order, panel {panel_name}")
+        if number == 0:
+            _full_cautions(page)
+            page.y_in += 0.1
         page.paragraph(
             "Do the steps in order. Before each: de-energise the panel or the circuit, lock out, "
             "verify dead with a meter. After each: re-label the directory; initial the Done column."
         )
         page.y_in += 0.05
-        page.table(WORK_HEADER, rows[start : start + per_page], widths, size=8)
+        end = first_page if number == 0 else start + per_page
+        page.table(WORK_HEADER, rows[start:end], widths, size=8)
         pages.append(page)
 
 
