@@ -11,8 +11,8 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from balancer.building.tree import Building, BuildingResult, RollUp
 from balancer.code.demand import (
     DemandOptions,
     DemandResult,
@@ -28,6 +28,9 @@ from balancer.field.run import FieldRun
 from balancer.io.pdf import Paper
 from balancer.io.reader import PanelOverrides, read_schedule
 from balancer.physics.analysis import Loads, analyze
+
+if TYPE_CHECKING:
+    from balancer.building.tree import Building, BuildingResult, RollUp
 
 __all__ = [
     "BalanceReport",
