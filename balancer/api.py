@@ -9,7 +9,7 @@ Nothing here parses arguments or prints; errors are raised (see :mod:`balancer.e
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -64,13 +64,8 @@ class FieldChoices:
     within_pct: float | None = None  # None: 1 point on a placed panel balanced for the spread
 
     def field_run(self) -> FieldRun:
-        return FieldRun(
-            basis=self.basis,
-            tradeoff=self.tradeoff,
-            tradeoff_moves=self.tradeoff_moves,
-            target_imbalance_pct=self.target_imbalance_pct,
-            within_pct=self.within_pct,
-        )
+        """A fresh record for one run with these choices (it collects what the run finds)."""
+        return FieldRun(**{f.name: getattr(self, f.name) for f in fields(self)})
 
 
 @dataclass(frozen=True, slots=True)
