@@ -142,7 +142,7 @@ def tradeoff(
     if capped:
         notes.append(
             f"table stops at {last} moves; the best arrangement found needs {full_moves} "
-            f"moves for {goal.phrase} {goal.text(full.goal_value)} ({full.status.value})"
+            f"moves to bring {goal.phrase} to {goal.text(full.goal_value)} ({full.status.value})"
         )
     return Tradeoff(tuple(rows), tuple(results), full_moves, capped, tuple(notes))
 
