@@ -80,3 +80,13 @@ def test_demo_writes_workbook_and_pdf(tmp_path: Path, capsys: pytest.CaptureFixt
     for name in ("office-208y120-balanced.xlsx", "office-208y120-balanced.pdf"):
         assert (tmp_path / name).stat().st_size > 0
         assert f"Wrote {tmp_path / name}" in out
+
+
+@pytest.mark.parametrize(
+    "sample",
+    [p.name for p in sorted(SAMPLES.glob("*.xlsx"))] + ["salon-208y120.csv"],
+)
+def test_check_text_fits_a_terminal(sample: str, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["check", str(SAMPLES / sample), "--no-color"]) == 0
+    wide = [line for line in capsys.readouterr().out.splitlines() if len(line) > 100]
+    assert wide == []

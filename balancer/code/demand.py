@@ -1347,6 +1347,17 @@ def _size_text(size: str | None, material: str) -> str:
     return f"{size} {unit} {material}"
 
 
+TERMINAL_WIDTH = 100  # columns the terminal report keeps within
+
+
+def _fit(line: str) -> list[str]:
+    """A long line wrapped within TERMINAL_WIDTH, continuation lines indented under it."""
+    if len(line) <= TERMINAL_WIDTH:
+        return [line]
+    indent = " " * (len(line) - len(line.lstrip()) + 2)
+    return textwrap.wrap(line, TERMINAL_WIDTH, subsequent_indent=indent, drop_whitespace=True)
+
+
 def loads_section_lines(result: DemandResult) -> list[str]:
     """The terminal "Loads" section: plain text lines."""
     rules = result.rule_set
@@ -1355,9 +1366,11 @@ def loads_section_lines(result: DemandResult) -> list[str]:
     width = max([len(c.label) for c in result.by_class] + [5])
     out.append(f"  {'Class':<{width}}  {'Connected VA':>12}  {'Demand VA':>10}  Rule")
     for c in result.by_class:
-        out.append(
-            f"  {c.label:<{width}}  {c.connected_va:>12,.0f}  {c.demand_va:>10,.0f}  {c.rule}"
-        )
+        row = f"  {c.label:<{width}}  {c.connected_va:>12,.0f}  {c.demand_va:>10,.0f}  "
+        # the rule wraps under its own column, so the table stays within a terminal's width
+        rule = textwrap.wrap(c.rule, max(30, TERMINAL_WIDTH - len(row))) or [""]
+        out.append(row + rule[0])
+        out += [" " * len(row) + more for more in rule[1:]]
     out.append(
         f"  {'Total':<{width}}  {result.total_connected_va:>12,.0f}  "
         f"{result.total_demand_va:>10,.0f}"
@@ -1423,7 +1436,7 @@ def loads_section_lines(result: DemandResult) -> list[str]:
     out += [f"  Warning: {w}" for w in result.warnings]
     for caution in result.cautions:
         out += textwrap.wrap(caution, 96, initial_indent="  Caution: ", subsequent_indent=" " * 11)
-    return out
+    return [piece for line in out for piece in _fit(line)]
 
 
 def _column_text(column_c: int | None) -> str:

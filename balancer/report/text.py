@@ -157,7 +157,10 @@ def check_text(
     lines = [panel_heading(panel), f"  read from {panel.source} ({len(panel.circuits)} circuits)"]
     if bars:
         lines += ["", *bars]
-    lines += ["", *loads_table(loads), f"  ({IMBALANCE_DEFINITION})"]
+    lines += ["", *loads_table(loads)]
+    lines += textwrap.wrap(
+        f"({IMBALANCE_DEFINITION})", 98, initial_indent="  ", subsequent_indent="   "
+    )
     if loads.unplaced:
         lines.append(
             f"  not counted: {len(loads.unplaced)} circuit(s) without a space number "
@@ -167,9 +170,19 @@ def check_text(
         if section:
             lines += ["", *section]
     if warnings:
-        lines += ["", "Notes:"] + [f"  - {w}" for w in warnings]
+        lines += ["", "Notes:", *bullets(warnings)]
     lines += ["", *wrap(CAUTION)]
     return "\n".join(lines)
+
+
+def bullets(items: list[str] | tuple[str, ...], width: int = 100) -> list[str]:
+    """``  - item`` lines, each item wrapped within ``width`` under its own first word."""
+    out: list[str] = []
+    for item in items:
+        out += textwrap.wrap(item, width, initial_indent="  - ", subsequent_indent="    ") or [
+            "  -"
+        ]
+    return out
 
 
 def wrap(text: str, width: int = 88) -> list[str]:
@@ -226,7 +239,7 @@ def balance_text(
             lines += ["", *section]
     notes = list(result.notes) + list(result.before_panel.notices)
     if notes:
-        lines += ["", "Notes:"] + [f"  - {n}" for n in notes]
+        lines += ["", "Notes:", *bullets(notes)]
     files = written if isinstance(written, list) else [written]
     lines += [""] + [f"Wrote {path}" for path in files]
     lines += ["", *wrap(CAUTION)]
