@@ -60,10 +60,19 @@ class System:
         return self.neutral and line != self.high_leg
 
     def label(self) -> str:
-        """``208Y/120 V, 3-phase 4-wire``; ``480 V delta, 3-phase 3-wire``."""
+        """``208Y/120 V, 3-phase 4-wire``; ``480 V delta, 3-phase 3-wire``; a high-leg delta
+        says so and names its high leg with its voltage to neutral (NEC 110.15, 408.3(E)):
+        ``240/120 V high-leg delta, 3-phase 4-wire, high leg B (208 V to neutral)``."""
         number, _, rest = self.designation.partition(" ")
         name = f"{number} V {rest}".rstrip()
-        return f"{name}, {self.phase_count}-phase {self._wires()}-wire"
+        wires = f"{self.phase_count}-phase {self._wires()}-wire"
+        if self.high_leg is None:
+            return f"{name}, {wires}"
+        to_neutral = abs(self.voltage_phasor(self.high_leg))
+        return (
+            f"{name} high-leg delta, {wires}, high leg {self.high_leg} "
+            f"({to_neutral:.0f} V to neutral)"
+        )
 
     def _wires(self) -> int:
         return len(self.lines) + (1 if self.neutral else 0)

@@ -100,7 +100,11 @@ def panel_heading(panel: Panel) -> str:
         parts.append(f"main {panel.main_a:g} A")
     elif panel.main_lugs_only:
         parts.append("main lugs only")
-    return " | ".join(parts)
+    line = " | ".join(parts)
+    if len(line) <= 100:
+        return line
+    # a long system label (a high-leg delta names its high leg): the ratings go on a second line
+    return " | ".join(parts[:2]) + "\n  " + " | ".join(parts[2:])
 
 
 def loads_table(loads: Loads, *, title: str = "") -> list[str]:
