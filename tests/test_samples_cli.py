@@ -90,3 +90,22 @@ def test_check_text_fits_a_terminal(sample: str, capsys: pytest.CaptureFixture[s
     assert main(["check", str(SAMPLES / sample), "--no-color"]) == 0
     wide = [line for line in capsys.readouterr().out.splitlines() if len(line) > 100]
     assert wide == []
+
+
+def test_new_breakers_are_listed_where_they_go(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    clinic = SAMPLES / "clinic-after-additions-208y120.xlsx"  # four circuits with no space yet
+    out = tmp_path / "clinic-balanced.xlsx"
+    assert (
+        main(["balance", str(clinic), "-o", str(out), "--no-tradeoff", "--time-limit", "10"]) == 0
+    )
+    text = capsys.readouterr().out
+    listed = text.split("New breakers to install (4):")[1].split("\n\n")[0].splitlines()
+    assert len([line for line in listed if line.strip()]) == 4
+    assert all("new" in line and "->" in line and "-pole)" in line for line in listed if line)
+    # and the revised workbook calls them new, where they were, in the Changes sheet
+    from openpyxl import load_workbook
+
+    changes = load_workbook(out)["Changes"]
+    assert sum(1 for row in changes.iter_rows(values_only=True) if "new" in row) == 4

@@ -177,7 +177,8 @@ def _widths(ws: Worksheet, widths: Sequence[float]) -> None:
 
 
 def _spaces_text(spaces: Sequence[int]) -> str:
-    return ", ".join(str(s) for s in spaces) if spaces else "unplaced"
+    """Space numbers; a circuit with none before balancing is a new breaker to install."""
+    return ", ".join(str(s) for s in spaces) if spaces else "new"
 
 
 def _lines_text(lines: Sequence[str]) -> str:

@@ -179,6 +179,26 @@ def check_text(
     return "\n".join(lines)
 
 
+def _new_breakers(result: Any) -> list[str]:
+    """Where each new breaker (a circuit with no space before) is to be installed."""
+    before, after = result.before_panel, result.after_panel
+    new = [
+        (old, placed)
+        for old, placed in zip(before.circuits, after.circuits, strict=True)
+        if not old.placed and placed.placed
+    ]
+    if not new:
+        return []
+    out = ["", f"New breakers to install ({len(new)}):"]
+    for old, placed in new:
+        spaces = ",".join(map(str, placed.spaces))
+        out.append(
+            f"  {old.description:<32} {'new':>8}     -> {spaces:>8} "
+            f"({''.join(after.lines_of(placed))}, {placed.poles}-pole)"
+        )
+    return out
+
+
 def bullets(items: list[str] | tuple[str, ...], width: int = 100) -> list[str]:
     """``  - item`` lines, each item wrapped within ``width`` under its own first word."""
     out: list[str] = []
@@ -238,6 +258,7 @@ def balance_text(
             )
     else:
         lines += ["", "Moves: none needed."]
+    lines += _new_breakers(result)
     for section in sections or []:
         if section:
             lines += ["", *section]
