@@ -230,3 +230,28 @@ def test_good_typed_values_are_parsed_once(tmp_path: Path) -> None:
     assert oven.extra == ()
     assert lights.conductor is not None
     assert str(lights.conductor) == "12 AWG Cu"  # a bare number in the cell: copper AWG
+
+
+def test_measured_basis_is_said_on_every_page_and_sheet(tmp_path: Path) -> None:
+    from openpyxl import load_workbook
+    from pypdf import PdfReader
+
+    from balancer.cli.main import main
+    from balancer.io.writer import LOAD_BASIS_FOOTER
+
+    clinic = (
+        Path(__file__).resolve().parents[1]
+        / "sample_schedules"
+        / ("clinic-after-additions-208y120.xlsx")
+    )
+    book, pdf = tmp_path / "m.xlsx", tmp_path / "m.pdf"
+    args = ["balance", str(clinic), "--basis", "measured", "--no-tradeoff", "--time-limit", "10"]
+    assert main([*args, "-o", str(book), "--pdf", str(pdf)]) == 0
+    assert all(ws.oddFooter.center.text == LOAD_BASIS_FOOTER for ws in load_workbook(book))
+    assert all("Load basis: clamp-meter readings" in p.extract_text() for p in PdfReader(pdf).pages)
+    # on the nameplate basis nothing says so
+    plain = tmp_path / "n.xlsx"
+    assert (
+        main(["balance", str(clinic), "--no-tradeoff", "--time-limit", "10", "-o", str(plain)]) == 0
+    )
+    assert not any(ws.oddFooter.center.text for ws in load_workbook(plain))

@@ -200,6 +200,15 @@ def _new_page(paper: Paper, panel: Panel) -> _Page:
     page.text(
         width - MARGIN_IN, height - 0.45, f"Panel {panel.name}", size=7, color=_GREY, ha="right"
     )
+    if any(c.balance_va is not None for c in panel.circuits):
+        # every page says so: these figures are not the schedule's design loads
+        page.text(
+            MARGIN_IN,
+            height - 0.32,
+            "Load basis: clamp-meter readings where given, design VA otherwise (spot readings).",
+            size=7,
+            color=_GREY,
+        )
     return page
 
 

@@ -158,6 +158,9 @@ def _section(ws: Worksheet, row: int, text: str) -> None:
     ws.cell(row=row, column=1, value=text).font = _SECTION_FONT
 
 
+LOAD_BASIS_FOOTER = "Load basis: clamp-meter readings where given, design VA otherwise"
+
+
 def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> None:
     ws.page_setup.orientation = "landscape" if landscape else "portrait"
     ws.page_setup.fitToWidth = 1
@@ -793,6 +796,9 @@ def write_workbook(
         _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
     _added_sheets(wb, extra_sheets, demand, order)
     _notes(wb.create_sheet())
+    if any(c.balance_va is not None for c in result.after_panel.circuits):
+        for sheet in wb.worksheets:  # printed, every page says what the figures stand on
+            sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
     return save_workbook(wb, path)
