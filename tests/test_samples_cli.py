@@ -80,6 +80,11 @@ def test_demo_writes_workbook_and_pdf(tmp_path: Path, capsys: pytest.CaptureFixt
     for name in ("office-208y120-balanced.xlsx", "office-208y120-balanced.pdf"):
         assert (tmp_path / name).stat().st_size > 0
         assert f"Wrote {tmp_path / name}" in out
+    # it ends by saying what to open and what to try next
+    closing = " ".join(out.rstrip().split("\n\n")[-1].split())
+    assert closing.startswith(f"Open {tmp_path / 'office-208y120-balanced.xlsx'}")
+    assert "Try next: balancer check" in closing
+    assert closing.endswith("balancer serve --open for the same in a browser.")
 
 
 @pytest.mark.parametrize(

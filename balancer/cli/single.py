@@ -90,12 +90,14 @@ def run_demo(args: argparse.Namespace, parser: argparse.ArgumentParser) -> int:
     args.output_dir.mkdir(parents=True, exist_ok=True)
     stem = api.default_output(schedule).stem
     print(f"Demo: balancing {schedule} (demo data)\n")
-    argv = [
-        "balance",
-        str(schedule),
-        "-o",
-        str(args.output_dir / f"{stem}.xlsx"),
-        "--pdf",
-        str(args.output_dir / f"{stem}.pdf"),
-    ]
-    return run_balance(parser.parse_args(argv))
+    workbook, pdf = args.output_dir / f"{stem}.xlsx", args.output_dir / f"{stem}.pdf"
+    argv = ["balance", str(schedule), "-o", str(workbook), "--pdf", str(pdf)]
+    status = run_balance(parser.parse_args(argv))
+    closing = (
+        f"Open {workbook} (the revised schedule, its Work order sheet and the trade-off table) "
+        f"or {pdf} (the printout). Try next: balancer check YOUR-SCHEDULE.xlsx; balancer "
+        f"balance {schedule.parent / 'clinic-after-additions-208y120.xlsx'} --basis measured; "
+        "or balancer serve --open for the same in a browser."
+    )
+    print("\n" + "\n".join(text.wrap(closing)))
+    return status

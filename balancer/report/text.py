@@ -210,7 +210,8 @@ def bullets(items: list[str] | tuple[str, ...], width: int = 100) -> list[str]:
 
 
 def wrap(text: str, width: int = 88) -> list[str]:
-    return textwrap.wrap(text, width)
+    """Lines of at most ``width``; a path or a hyphenated name is never split."""
+    return textwrap.wrap(text, width, break_long_words=False, break_on_hyphens=False)
 
 
 def balance_text(
