@@ -25,6 +25,7 @@ from balancer.domain.result import BalanceOptions, BalanceResult
 from balancer.errors import OutputError, Problem, ScheduleError
 from balancer.field.basis import Basis
 from balancer.field.run import FieldRun
+from balancer.io.files import same_file
 from balancer.io.pdf import Paper
 from balancer.io.reader import PanelOverrides, read_schedule
 from balancer.physics.analysis import Loads, analyze
@@ -166,7 +167,7 @@ def write_balance(
     from balancer.io.writer import write_workbook
 
     refuse_inputs([workbook, *([pdf] if pdf else [])], [schedule])
-    if pdf is not None and _same_file(workbook, pdf):
+    if pdf is not None and same_file(workbook, pdf):
         raise OutputError(Problem(str(pdf), "is the workbook too; give the PDF another name"))
     result = report.result
     written = [
@@ -211,17 +212,10 @@ def refuse_inputs(outputs: Sequence[Path | None], inputs: Sequence[Path | str | 
     """Raise OutputError when an output would be one of the inputs: balancer never writes one."""
     for output in outputs:
         for source in inputs:
-            if output is not None and source is not None and _same_file(Path(source), output):
+            if output is not None and source is not None and same_file(Path(source), output):
                 raise OutputError(
                     Problem(str(output), "is an input; balancer never writes its input")
                 )
-
-
-def _same_file(first: Path, second: Path) -> bool:
-    try:
-        return first.resolve() == second.resolve() or (second.exists() and first.samefile(second))
-    except OSError:
-        return False
 
 
 def _demand(panel: Panel, options: DemandOptions | None) -> DemandResult | None:
@@ -299,7 +293,7 @@ def write_building(
     from balancer.io.pdf import write_building_pdf
 
     refuse_inputs([workbook, pdf], list(report.sources))
-    if workbook is not None and pdf is not None and _same_file(workbook, pdf):
+    if workbook is not None and pdf is not None and same_file(workbook, pdf):
         raise OutputError(Problem(str(pdf), "is the workbook too; give the PDF another name"))
     building, before, result = report.building, report.before, report.result
     written: list[Path] = []

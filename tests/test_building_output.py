@@ -299,3 +299,15 @@ def test_building_printout_refuses_an_input(
 ) -> None:
     assert main(["building", str(DEMO_BOOK), "--pdf", str(DEMO_BOOK)]) == 2
     assert "input" in capsys.readouterr().err
+
+
+def test_a_folder_holding_one_building_workbook_is_read(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    (tmp_path / "site.xlsx").write_bytes(DEMO_BOOK.read_bytes())
+    (tmp_path / "notes.xlsx").write_bytes(b"not a workbook")  # ignored: no building sheet
+    assert main(["building", str(tmp_path)]) == 0
+    assert "Building site:" in capsys.readouterr().out
+    (tmp_path / "copy.xlsx").write_bytes(DEMO_BOOK.read_bytes())
+    assert main(["building", str(tmp_path)]) == 2  # two candidates: the user must name one
+    assert "more than one building workbook" in capsys.readouterr().err

@@ -164,15 +164,15 @@ def index_file(path: str | Path) -> Path:
 
 
 def _has_building_sheet(path: Path) -> bool:
-    """Whether a workbook has a sheet named like "Building" (its sheet list only is read)."""
-    import zipfile
+    """Whether a workbook has the index sheet :func:`read_building` looks for, read the same
+    guarded way as every workbook (a damaged or crafted file simply does not count)."""
+    from balancer.io.reader import open_xlsx
 
     try:
-        with zipfile.ZipFile(path) as book:
-            names = book.read("xl/workbook.xml")[:200_000].decode("utf-8", "replace")
-    except (OSError, KeyError, zipfile.BadZipFile):
+        with open_xlsx(path) as (book, _, _notes):
+            return any(_norm(n) == _norm(INDEX_SHEET) for n in book.sheetnames)
+    except ScheduleError:
         return False
-    return 'name="Building"' in names or "name='Building'" in names
 
 
 def read_building(path: str | Path) -> Building:

@@ -77,17 +77,21 @@ def atomic(path: Path, write: Callable[[Path], object]) -> Path:
     return path
 
 
+def same_file(first: Path, second: Path) -> bool:
+    """Whether two paths name one file (also through a link); False when either cannot be
+    looked at."""
+    try:
+        return first.resolve() == second.resolve() or (
+            first.exists() and second.exists() and os.path.samefile(first, second)
+        )
+    except OSError:
+        return False
+
+
 def refuse_input_path(path: Path, *inputs: str | Path | None) -> None:
     """Raise when ``path`` is one of the input files: the input is never written."""
-    target = Path(path).resolve()
     for given in inputs:
-        if not given:
-            continue
-        source = Path(given).resolve()
-        same = target == source or (
-            target.exists() and source.exists() and os.path.samefile(target, source)
-        )
-        if same:
+        if given and same_file(Path(path), Path(given)):
             raise OutputError(
                 f"{path}: this is the input schedule; balancer never overwrites its input. "
                 "Choose another output name."
