@@ -16,8 +16,8 @@ from balancer.building.tree import (
 from balancer.domain.panel import Panel
 from balancer.domain.result import SolveStatus
 from balancer.domain.systems import Line
+from balancer.optimize.goals import goal_for
 from balancer.report.safety import CAUTION, CAUTIONS
-from balancer.report.text import GOAL_NAMES
 
 if TYPE_CHECKING:
     from openpyxl.worksheet.worksheet import Worksheet
@@ -65,7 +65,7 @@ def panel_rows(
                 "line_a_after": _lines_text(after.line_a, 1),
                 "neutral_after_a": after.neutral_a,
                 "status": outcome.status.value,
-                "first_goal": GOAL_NAMES.get(outcome.first_goal, outcome.first_goal),
+                "first_goal": goal_for(outcome.first_goal).phrase,
                 "moves": len(outcome.moves),
                 "moved": ", ".join(outcome.moves),
                 "re_landed": ", ".join(outcome.swapped_feeds),

@@ -9,15 +9,9 @@ from pathlib import Path
 from typing import Any
 
 from balancer.domain.panel import Panel
+from balancer.optimize.goals import goal_for
 from balancer.physics.analysis import Loads
 from balancer.report.safety import CAUTION
-
-GOAL_NAMES = {
-    "spread": "the phase spread",
-    "line": "the worst line current",
-    "neutral": "the neutral current",
-    "transformer": "the supply transformer's heaviest winding",
-}
 
 IMBALANCE_DEFINITION = (
     "imbalance: NEMA MG 1 definition applied to phase loads, "
@@ -237,7 +231,7 @@ def balance_text(
             + (f", gap {result.gap_va:,.1f} VA" if status != "optimal" else ""),
         ]
     else:
-        goal = GOAL_NAMES.get(result.first_goal, result.first_goal)
+        goal = goal_for(result.first_goal).phrase
         lines += [
             "",
             f"Result: {status} ({result.engine}) on the first goal, {goal} (see the notes); "

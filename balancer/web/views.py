@@ -10,9 +10,9 @@ from balancer.api import BalanceReport, CheckReport
 from balancer.domain.panel import Panel
 from balancer.field.tradeoff import _status_text
 from balancer.field.workorder import ACTION_TEXT
+from balancer.optimize.goals import goal_for
 from balancer.report.json import balance_json, check_json
 from balancer.report.safety import CAUTIONS
-from balancer.report.text import GOAL_NAMES
 from balancer.web import svg
 
 
@@ -144,7 +144,7 @@ def arrangement_view(
         "row": row,
         "balance": data,
         "status_text": _status_text(result.status),
-        "goal_phrase": GOAL_NAMES.get(result.first_goal, result.first_goal),
+        "goal_phrase": goal_for(result.first_goal).phrase,
         "actions": dict(ACTION_TEXT),
         "facts": facts,
         "layout": layout(result.after_panel, result.before_panel),
