@@ -59,9 +59,11 @@ def _balance_parser(commands: argparse._SubParsersAction[argparse.ArgumentParser
     balance = commands.add_parser(
         "balance",
         help="find the best arrangement and write a revised schedule",
-        description="Find the arrangement of circuits in spaces with the smallest phase spread "
-        "(then the fewest moves, then the smallest neutral current), prove how good it is, and "
-        "write a revised schedule workbook. The input file is never changed.",
+        description="Find the arrangement of circuits in spaces that is best for the chosen "
+        "goal (the phase spread by default; then the fewest moves, then the smallest neutral "
+        "current), prove how good it is, and write a revised schedule workbook. On a panel in "
+        "service the recommended arrangement is the fewest moves within --within-pct points of "
+        "the best imbalance. The input file is never changed.",
     )
     balance.add_argument(
         "schedule", type=Path, nargs="?", help="the panel schedule (.xlsx or .csv), or a folder"
