@@ -44,6 +44,11 @@ class BalanceOptions:
     ``transformer_terms`` describe the windings of the transformer feeding the panel (see
     :func:`balancer.physics.transformer.loading_terms`); with them, objective
     ``"transformer"`` keeps the heaviest winding's loading lowest.
+
+    ``spread_floors`` are proven lower bounds on the phase spread for smaller move budgets:
+    ``(m, va)`` says no arrangement moving at most ``m`` circuits has a spread below ``va``
+    (the trade-off table passes its earlier rows). Where the spread kept is below such a floor,
+    the move count is proven without another solve.
     """
 
     fresh: bool = False
@@ -55,6 +60,7 @@ class BalanceOptions:
     move_spares: bool = False
     objective: Objective = "spread"
     transformer_terms: tuple[CurrentTerm, ...] = ()
+    spread_floors: tuple[tuple[int, float], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)

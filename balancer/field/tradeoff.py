@@ -103,8 +103,12 @@ def tradeoff(
     results: list[BalanceResult] = []
     rows: list[TradeoffRow] = []
     notes: list[str] = []
+    floors: list[tuple[int, float]] = []  # proven spread floors of the budgets solved so far
     for k in range(last + 1):
-        result = full if k == full_moves else solve(panel, replace(base, max_moves=k))
+        row_options = replace(base, max_moves=k, spread_floors=tuple(floors))
+        result = full if k == full_moves else solve(panel, row_options)
+        if result.first_goal == "spread" and math.isfinite(result.goal_bound):
+            floors.append((k, result.goal_bound))
         used = count_moves(panel, result.after_panel)
         if used > k:
             raise SolverError(f"asked for at most {k} moves, the optimiser returned {used}")

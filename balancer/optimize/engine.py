@@ -293,16 +293,36 @@ def _exact_lexicographic(
         goals[0]: max(first.bound, lines.floor if goals[0] == "spread" else -math.inf),
     }
     if goals[0] in preset and start is not None:
-        # the move stage keeps the spread cap the line search used, so its count bounds it
-        bounds["moves"] = fewest.moves_floor
+        # the move stage keeps the spread cap the line search used, so its count bounds it;
+        # so does a smaller budget proven unable to reach that cap
+        moves_floor = max(
+            fewest.moves_floor, _moves_floor_from_budgets(options, goals, first, bounds)
+        )
+        bounds["moves"] = moves_floor
         start_moves = _moves_at(exact, start)
-        if start_moves <= fewest.moves_floor + MOVES_GAP:
+        if start_moves <= moves_floor + MOVES_GAP:
             preset["moves"] = StageResult(
-                "moves", start_moves, fewest.moves_floor, True, tuple(start), 0.0, "fewest changes"
+                "moves", start_moves, moves_floor, True, tuple(start), 0.0, "fewest changes"
             )
     stages = _lexicographic(exact, goals, options, deadline, start, bounds, preset)
     picks = _last_picks(stages, preset, start)
     return _Exact(exact, stages, bounds, picks, notes)
+
+
+def _moves_floor_from_budgets(
+    options: BalanceOptions, goals: Sequence[str], first: StageResult, bounds: Mapping[str, float]
+) -> float:
+    """Fewest moves proven by ``options.spread_floors``: a budget of m moves whose spread
+    floor is above the cap the move stage keeps cannot reach it, so at least m + 1 are needed.
+    -inf when no floor applies."""
+    if list(goals[:2]) != ["spread", "moves"] or not options.spread_floors:
+        return -math.inf
+    bound = max(first.bound, bounds.get("spread", -math.inf))
+    if not _proven(first, options, bound):
+        return -math.inf
+    cap_va = max(first.value, bound + options.tolerance_va)  # as _lexicographic keeps it
+    beaten = [m for m, floor_va in options.spread_floors if floor_va > cap_va + 1e-9]
+    return float(max(beaten) + 1) if beaten else -math.inf
 
 
 def _exact_start(
