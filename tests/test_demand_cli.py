@@ -86,13 +86,15 @@ def test_dryer_neutral_column_from_the_documented_header(
     )
     assert main(["check", "--json", str(csv), "--system", "120/240"]) == 0
     data = json.loads(capsys.readouterr().out)
-    assert sorted(data["loads"]["line_a"].values()) == pytest.approx([20.833, 25.833], abs=1e-3)
-    assert data["loads"]["neutral_a"] == pytest.approx(5.0, abs=1e-3)
+    # JSON gives currents to the 0.1 A the terminal shows
+    lines = sorted(data["loads"]["line_fundamental_a"].values())
+    assert lines == pytest.approx([20.833, 25.833], abs=0.05)
+    assert data["loads"]["neutral_fundamental_a"] == pytest.approx(5.0, abs=0.05)
     # The feeder and the branch circuit take the heavier line current.
     demand = data["demand"]
-    assert demand["feeder"]["design_a"] == pytest.approx(25.83, abs=0.005)
-    assert demand["feeder"]["neutral_a"] == pytest.approx(5.0, abs=0.005)
-    assert demand["branch_flags"][0]["required_a"] == pytest.approx(25.83, abs=0.005)
+    assert demand["feeder"]["design_a"] == pytest.approx(25.83, abs=0.05)
+    assert demand["feeder"]["neutral_a"] == pytest.approx(5.0, abs=0.05)
+    assert demand["branch_flags"][0]["required_a"] == pytest.approx(25.83, abs=0.05)
 
 
 def _workstations(tmp_path: Path, profile: bool) -> Path:
@@ -122,8 +124,8 @@ def test_nonlinear_neutral_from_the_command_line_and_the_schedule(
     csv = _workstations(tmp_path, profile)
     assert main(["check", "--json", str(csv), "--system", "208Y/120", *extra]) == 0
     feeder = json.loads(capsys.readouterr().out)["demand"]["feeder"]
-    assert feeder["design_a"] == pytest.approx(250.0, abs=0.005)
-    assert feeder["neutral_a"] == pytest.approx(neutral_a, abs=0.005)
+    assert feeder["design_a"] == pytest.approx(250.0, abs=0.05)
+    assert feeder["neutral_a"] == pytest.approx(neutral_a, abs=0.05)
 
 
 def test_terminations_and_feeder_conductor_options(

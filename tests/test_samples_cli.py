@@ -23,9 +23,10 @@ def test_check_json_on_each_sample(name: str, capsys: pytest.CaptureFixture[str]
     data = json.loads(capsys.readouterr().out)
     loads = data["loads"]
     phase_va = loads["phase_va"]
-    assert math.isclose(sum(phase_va.values()), loads["total_va"], abs_tol=0.01)
+    # JSON gives VA to 0.1 VA, each figure rounded on its own
+    assert math.isclose(sum(phase_va.values()), loads["total_va"], abs_tol=0.15)
     assert math.isclose(
-        max(phase_va.values()) - min(phase_va.values()), loads["spread_va"], abs_tol=0.01
+        max(phase_va.values()) - min(phase_va.values()), loads["spread_va"], abs_tol=0.15
     )
     assert loads["imbalance_pct"] > 1.0  # the samples are built with a visible imbalance
     placed = [c for c in data["circuits"] if c["spaces"]]
@@ -53,7 +54,7 @@ def test_office_sample_phase_loads_by_independent_reading(
             expected["ABC"[((space - 1) // 2) % 3]] += load / poles
     assert main(["check", "--json", str(path)]) == 0
     got = json.loads(capsys.readouterr().out)["loads"]["phase_va"]
-    assert got == pytest.approx(expected, abs=0.01)
+    assert got == pytest.approx(expected, abs=0.05)  # JSON gives VA to 0.1 VA
 
 
 def test_check_text_names_the_figures(capsys: pytest.CaptureFixture[str]) -> None:
@@ -76,7 +77,8 @@ def test_demo_writes_workbook_and_pdf(tmp_path: Path, capsys: pytest.CaptureFixt
     assert main(["demo", "--output-dir", str(tmp_path)]) == 0
     out = capsys.readouterr().out
     assert "demo data" in out
-    assert "Result: optimal" in out
+    assert "Result: phase spread" in out
+    assert "proven" in out
     for name in ("office-208y120-balanced.xlsx", "office-208y120-balanced.pdf"):
         assert (tmp_path / name).stat().st_size > 0
         assert f"Wrote {tmp_path / name}" in out

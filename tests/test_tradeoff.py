@@ -392,8 +392,8 @@ def test_renderings_carry_every_row() -> None:
         "goal_value",
         "spread_va",
         "imbalance_pct",
-        "neutral_a",
         "neutral_rms_a",
+        "neutral_fundamental_a",
         "status",
     }
     assert all(d["goal"] == "spread" and d["goal_value"] == d["spread_va"] for d in data)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import textwrap
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
 from pathlib import Path
@@ -228,37 +227,45 @@ def building_text(
     before: RollUp,
     result: BuildingResult | None = None,
     demand: tuple[RollUp, RollUp | None] | None = None,
+    *,
+    color: bool = False,
 ) -> str:
-    """The terminal report: panels, feeders, summary, caution."""
+    """The terminal report: panels as found (and after balancing), demand, feeders, summary,
+    caution; within 100 columns, warnings marked (and coloured when ``color``)."""
+    from balancer.report.text import WARNING_MARK, fit, warning_lines, wrap
+
     basis = "connected basis" + ("; demand per the rule set where shown" if demand else "")
     lines = [f"Building {building.name}: {len(building.panels)} panels ({basis})", ""]
-    panel_cols = [
+    rows = panel_rows(building, before, result, demand)
+    found = [
         ("panel", "Panel"),
         ("system", "System"),
         ("fed_from", "Fed from"),
         ("phase_va_before", "VA per line"),
+        ("imbalance_before_pct", "Imbalance %"),
+        ("line_a_before", "Amps per line"),
+        ("neutral_before_a", "Neutral A"),
     ]
-    if result is None:
-        panel_cols += [
-            ("imbalance_before_pct", "Imbalance %"),
-            ("line_a_before", "Amps per line"),
-            ("neutral_before_a", "Neutral A"),
-        ]
-    else:
-        panel_cols += [
-            ("imbalance_before_pct", "Imb. % before"),
-            ("phase_va_after", "VA per line after"),
-            ("imbalance_after_pct", "Imb. % after"),
-            ("line_a_after", "Amps per line after"),
+    lines += ["As found:", *_table(rows, found)]
+    if result is not None:
+        balanced = [
+            ("panel", "Panel"),
+            ("phase_va_after", "VA per line"),
+            ("imbalance_after_pct", "Imbalance %"),
+            ("line_a_after", "Amps per line"),
             ("status", "Status"),
             ("moves", "Moves"),
         ]
+        lines += ["", "After balancing:", *_table(rows, balanced)]
     if demand is not None:
-        panel_cols.append(("demand_va", "Demand VA"))
-        panel_cols.append(("demand_phase_va_before", "Demand VA per line"))
+        demand_cols = [
+            ("panel", "Panel"),
+            ("demand_va", "Demand VA"),
+            ("demand_phase_va_before", "Demand VA per line"),
+        ]
         if demand[1] is not None:
-            panel_cols.append(("demand_phase_va_after", "Demand per line after"))
-    lines += _table(panel_rows(building, before, result, demand), panel_cols)
+            demand_cols.append(("demand_phase_va_after", "Demand per line after"))
+        lines += ["", "Demand:", *_table(rows, demand_cols)]
     feeds = feeder_rows(building, before, result)
     if feeds:
         feeder_cols = [
@@ -270,14 +277,21 @@ def building_text(
             ("upstream_a_before", "Amps upstream"),
             ("transformer_loading_before_pct", "Loading %"),
         ]
+        lines += ["", "Feeders as found:", *_table(feeds, feeder_cols)]
         if result is not None:
-            feeder_cols += [
-                ("lines_after", "Lines after"),
-                ("upstream_a_after", "Amps after"),
-                ("transformer_loading_after_pct", "Loading % after"),
+            after_cols = [
+                ("panel", "Feeds"),
+                ("lines_after", "Lines"),
+                ("upstream_a_after", "Amps upstream"),
+                ("transformer_loading_after_pct", "Loading %"),
             ]
-        lines += ["", *_table(feeds, feeder_cols)]
-    lines += ["", *summary_lines(building, before, result)]
+            lines += ["", "Feeders after balancing:", *_table(feeds, after_cols)]
+    lines.append("")
+    for line in summary_lines(building, before, result):
+        if line.startswith(WARNING_MARK):
+            lines += warning_lines([line.removeprefix(WARNING_MARK).strip()], color)
+        else:
+            lines.append(line)
     if result is not None:
         for name, outcome in result.outcomes.items():
             if outcome.swapped_feeds:
@@ -287,8 +301,8 @@ def building_text(
                 )
             if not outcome.exact or outcome.status is SolveStatus.FEASIBLE:
                 lines += [f"{name}: {n}" for n in outcome.notes if "proven" in n or "exactly" in n]
-    lines += ["", textwrap.fill(CAUTION, 88)]
-    return "\n".join(lines)
+    lines += ["", *wrap(CAUTION)]
+    return "\n".join(fit(lines))
 
 
 # Column titles of the figures workbook; any key not listed is shown with spaces for "_".

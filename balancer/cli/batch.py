@@ -13,7 +13,6 @@ from balancer.api import FieldChoices, refuse_inputs
 from balancer.batch import (
     SUMMARY_NAME,
     Mode,
-    Row,
     exit_status,
     make_tasks,
     run_batch,
@@ -23,6 +22,7 @@ from balancer.batch import (
 from balancer.cli import options
 from balancer.domain.result import BalanceOptions
 from balancer.errors import Problem, ScheduleError
+from balancer.report.json import batch_json
 
 
 class Progress:
@@ -82,9 +82,7 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
     rows = run_batch(tasks, args.jobs, Progress(len(tasks)).step)
     written = write_summary(summary, rows, mode) if summary is not None else None
     if args.json:
-        files = [{k: getattr(r, k) for k in Row.__dataclass_fields__} for r in rows]
-        book = None if written is None else str(written)
-        print(json.dumps({"files": files, "summary_workbook": book}, indent=2))
+        print(json.dumps(batch_json(rows, mode, written), indent=2, ensure_ascii=False))
     else:
         print(summary_text(rows, mode))
         if written is not None:

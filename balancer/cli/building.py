@@ -6,20 +6,18 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import sys
 from pathlib import Path
 
 from balancer import api
 from balancer.building.files import index_file
-from balancer.building.report import (
-    building_text,
-    feeder_rows,
-    move_rows,
-    panel_rows,
-    summary_lines,
-)
+from balancer.building.report import building_text
 from balancer.cli import options
+from balancer.cli.progress import progress, wanted
 from balancer.code.demand import DemandOptions
-from balancer.report.safety import CAUTION
+from balancer.report.json import building_json
+from balancer.report.text import WIDTH, wrap
+from balancer.report.textbars import use_color
 
 
 def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -57,6 +55,7 @@ def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -
         help="also roll up code demand loads (each feeder over all the loads it serves)",
     )
     options.add_rules(parser)
+    options.add_terminal(parser)
     parser.add_argument(
         "--jobs",
         type=int,
@@ -77,29 +76,24 @@ def run_command(args: argparse.Namespace) -> int:
     if args.pdf is not None:
         pdf = Path(args.pdf) if args.pdf is not True else (workbook or index).with_suffix(".pdf")
     demand = DemandOptions(rules=args.rules, occupancy=args.occupancy) if args.demand else None
-    report = api.run_building(
-        args.index, balance_options, demand, jobs=args.jobs, outputs=[workbook, pdf]
-    )
+    doing = "balancing" if args.balance else "rolling up"
+    with progress(f"{doing} {index.stem}", enabled=wanted(sys.stderr, args.json)):
+        report = api.run_building(
+            args.index, balance_options, demand, jobs=args.jobs, outputs=[workbook, pdf]
+        )
     building, before, result = report.building, report.before, report.result
-    if args.json:
-        data = {
-            "building": building.name,
-            "panels": panel_rows(building, before, result, report.demand),
-            "feeders": feeder_rows(building, before, result),
-            "summary": summary_lines(building, before, result),
-            "caution": CAUTION,
-        }
-        if result is not None:
-            data["moves"] = move_rows(result)
-        print(json.dumps(data, indent=2, ensure_ascii=False))
-    else:
-        print(building_text(building, before, result, report.demand))
-    report = api.write_building(report, workbook, pdf, paper=args.paper)
     if not args.json:
-        for path in report.written:
-            if path.suffix == ".pdf":
-                print(f"Printout written to {path}")
-            else:
-                what = "Figures, work order and revised schedules" if result else "Figures"
-                print(f"\n{what} written to {path}")
+        color = use_color(sys.stdout, args.no_color)
+        print(building_text(building, before, result, report.demand, color=color))
+    with progress(f"writing {index.stem}", enabled=wanted(sys.stderr, args.json)):
+        report = api.write_building(report, workbook, pdf, paper=args.paper)
+    if args.json:
+        print(json.dumps(building_json(report), indent=2, ensure_ascii=False))
+        return 0
+    for path in report.written:
+        if path.suffix == ".pdf":
+            print("\n".join(wrap(f"Printout written to {path}", WIDTH)))
+        else:
+            what = "Figures, work order and revised schedules" if result else "Figures"
+            print("\n" + "\n".join(wrap(f"{what} written to {path}", WIDTH)))
     return 0

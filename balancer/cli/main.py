@@ -12,6 +12,7 @@ from pathlib import Path
 from balancer import __version__
 from balancer.cli import batch, building, options, serve, single
 from balancer.errors import BalancerError
+from balancer.report.json import error_json
 
 EXIT_OK, EXIT_BAD_INPUT, EXIT_SOLVER, EXIT_INFEASIBLE = 0, 2, 3, 4
 
@@ -146,6 +147,7 @@ def build_parser() -> argparse.ArgumentParser:
         default=Path("balancer-demo"),
         help="folder for the revised workbook (default: ./balancer-demo)",
     )
+    options.add_terminal(demo)
     return parser
 
 
@@ -180,12 +182,7 @@ def _parse(parser: argparse.ArgumentParser, argv: Sequence[str] | None) -> argpa
 
 
 def _error_json(exc: BalancerError) -> str:
-    problems = [{"where": p.where, "what": p.what} for p in getattr(exc, "problems", ())]
-    return json.dumps(
-        {"error": str(exc), "exit_status": exc.exit_status, "problems": problems},
-        indent=2,
-        ensure_ascii=False,
-    )
+    return json.dumps(error_json(exc), indent=2, ensure_ascii=False)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

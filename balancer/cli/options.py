@@ -186,8 +186,19 @@ def add_output(parser: argparse.ArgumentParser) -> None:
         "a PDF (summary, circuit directory, work order, cautions); default name beside the "
         "schedule",
     )
-    group.add_argument(
+    add_terminal(group)
+
+
+def add_terminal(parser: argparse.ArgumentParser | Any) -> None:
+    """``--no-color`` and ``--verbose``: how the terminal text looks."""
+    parser.add_argument(
         "--no-color", action="store_true", help="plain text only, even on a colour terminal"
+    )
+    parser.add_argument(
+        "-v",
+        "--verbose",
+        action="store_true",
+        help="also show the solver's own figures (status, bounds, gap, time) and every note",
     )
 
 

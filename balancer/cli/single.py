@@ -12,6 +12,7 @@ from typing import Any
 
 from balancer import api
 from balancer.cli import options
+from balancer.cli.progress import progress, wanted
 from balancer.code.demand import loads_section_lines
 from balancer.errors import Problem, ScheduleError
 from balancer.physics.analysis import Loads
@@ -42,7 +43,12 @@ def run_check(args: argparse.Namespace) -> int:
         bars = _bars(args, loads, None, panel.system.neutral)
         demand = loads_section_lines(report.demand) if report.demand else []
         sections = [report.field.text_lines(), demand]
-        print(text.check_text(panel, loads, list(report.warnings), bars=bars, sections=sections))
+        color = use_color(sys.stdout, args.no_color)
+        print(
+            text.check_text(
+                panel, loads, list(report.warnings), bars=bars, sections=sections, color=color
+            )
+        )
     pdf = options.pdf_path(args, args.schedule, "")
     if pdf is not None:
         written = api.write_check_pdf(report, pdf, schedule=args.schedule, paper=args.paper)
@@ -54,15 +60,16 @@ def run_balance(args: argparse.Namespace) -> int:
     workbook = args.output or api.default_output(args.schedule)
     pdf = options.pdf_path(args, args.schedule, "-balanced")
     api.refuse_inputs([workbook, pdf], [args.schedule])  # before the long solve
-    report = api.run_balance(
-        args.schedule,
+    choices = (
         options.balance(args),
         options.overrides(args),
         options.field(args),
         options.demand(args),
         options.supply(args, batch=False),
     )
-    report = api.write_balance(report, workbook, pdf, schedule=args.schedule, paper=args.paper)
+    with progress(f"balancing {args.schedule.stem}", enabled=wanted(sys.stderr, args.json)):
+        report = api.run_balance(args.schedule, *choices)
+        report = api.write_balance(report, workbook, pdf, schedule=args.schedule, paper=args.paper)
     if args.json:
         print_json(balance_json(report))
         return 0
@@ -72,7 +79,17 @@ def run_balance(args: argparse.Namespace) -> int:
         report.field.text_lines(args.work_order),
         ["After balancing:", *loads_section_lines(report.demand)] if report.demand else [],
     ]
-    print(text.balance_text(result, list(report.written), bars=bars, sections=sections))
+    print(
+        text.balance_text(
+            result,
+            list(report.written),
+            bars=bars,
+            sections=sections,
+            warnings=report.warnings,
+            color=use_color(sys.stdout, args.no_color),
+            verbose=args.verbose,
+        )
+    )
     return 0
 
 
@@ -92,6 +109,7 @@ def run_demo(args: argparse.Namespace, parser: argparse.ArgumentParser) -> int:
     print(f"Demo: balancing {schedule} (demo data)\n")
     workbook, pdf = args.output_dir / f"{stem}.xlsx", args.output_dir / f"{stem}.pdf"
     argv = ["balance", str(schedule), "-o", str(workbook), "--pdf", str(pdf)]
+    argv += ["--no-color"] * args.no_color + ["--verbose"] * args.verbose
     status = run_balance(parser.parse_args(argv))
     closing = (
         f"Open {workbook} (the revised schedule, its Work order sheet and the trade-off table) "

@@ -333,8 +333,8 @@ def tradeoff_json(table: Tradeoff) -> list[dict[str, Any]]:
             "goal_value": _finite(row.goal_value),
             "spread_va": _finite(row.spread_va),
             "imbalance_pct": _finite(row.imbalance_pct),
-            "neutral_a": _finite(row.neutral_a),
             "neutral_rms_a": _finite(row.neutral_rms_a),
+            "neutral_fundamental_a": _finite(row.neutral_a),
             "status": row.status.value,
         }
         for row in table.rows

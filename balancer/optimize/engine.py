@@ -383,7 +383,10 @@ def _result(
         spread_bound = max(lines.floor, stages[0].bound, bounds["spread"])
     spread_bound = min(spread_bound, after.loads.spread_va)
     if options.max_moves is not None and layout.count_moves:
-        notes.append(f"limited to at most {options.max_moves} moves; the bound holds within it")
+        notes.append(
+            f"limited to at most {options.max_moves} moves: 'best possible' means with at most "
+            "that many moves"
+        )
     first_goal = next(g for g in goals if g != "moves")
     first_stage = next(s for s in stages if s.goal == first_goal)
     return BalanceResult(

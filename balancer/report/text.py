@@ -19,6 +19,50 @@ IMBALANCE_DEFINITION = (
 )
 
 
+WIDTH = 100  # the terminal text fits this many columns
+WARNING_MARK = "WARNING:"  # the one plain marker of a warning, on every line that starts one
+_WARN_ON = "\033[1;33m"  # bold yellow, only on a colour terminal
+_WARN_OFF = "\033[0m"
+
+
+def warning_lines(items: list[str] | tuple[str, ...], color: bool = False) -> list[str]:
+    """Each item as ``WARNING: …`` wrapped within :data:`WIDTH`, in bold yellow when ``color``.
+
+    The marker is there with or without colour, so a log file or a pipe keeps the meaning.
+    """
+    out: list[str] = []
+    for item in items:
+        wrapped = textwrap.wrap(
+            f"{WARNING_MARK} {item}",
+            WIDTH,
+            subsequent_indent=" " * (len(WARNING_MARK) + 1),
+            break_long_words=False,
+            break_on_hyphens=False,
+        )
+        out += [f"{_WARN_ON}{line}{_WARN_OFF}" if color else line for line in wrapped]
+    return out
+
+
+def fit(lines: list[str], width: int = WIDTH) -> list[str]:
+    """Lines longer than ``width`` wrapped under their own indent (two more for the rest), a
+    path or a hyphenated name never split."""
+    out: list[str] = []
+    for line in lines:
+        if len(line) <= width or "\033[" in line:
+            out.append(line)
+            continue
+        indent = line[: len(line) - len(line.lstrip())]
+        out += textwrap.wrap(
+            line.strip(),
+            width,
+            initial_indent=indent,
+            subsequent_indent=indent + "  ",
+            break_long_words=False,
+            break_on_hyphens=False,
+        ) or [line]
+    return out
+
+
 def _clean(value: Any) -> Any:
     """JSON-friendly: round floats to 0.001, enums to their value, tuples to lists."""
     if isinstance(value, float):
@@ -101,7 +145,7 @@ def panel_heading(panel: Panel) -> str:
     return " | ".join(parts[:2]) + "\n  " + " | ".join(parts[2:])
 
 
-def loads_table(loads: Loads, *, title: str = "") -> list[str]:
+def loads_table(loads: Loads, *, title: str = "", color: bool = False) -> list[str]:
     """Per-line figures as aligned text lines.
 
     Currents are true RMS (with each load class's harmonics); where harmonics change them the
@@ -135,10 +179,13 @@ def loads_table(loads: Loads, *, title: str = "") -> list[str]:
             "(negative sequence of the fundamental line currents)"
         )
     if loads.neutral_exceeds_phase:
-        lines.append(
-            "  ! the neutral carries more current than any line: it counts as a "
-            "current-carrying conductor (NEC 310.15(E)) and gets no demand reduction for its "
-            "non-linear part (NEC 220.61(C))"
+        lines += warning_lines(
+            [
+                "the neutral carries more current than any line: it counts as a "
+                "current-carrying conductor (NEC 310.15(E)) and gets no demand reduction for its "
+                "non-linear part (NEC 220.61(C))"
+            ],
+            color,
         )
     return lines
 
@@ -150,12 +197,14 @@ def check_text(
     *,
     bars: list[str] = (),  # type: ignore[assignment]
     sections: list[list[str]] = (),  # type: ignore[assignment]
+    color: bool = False,
 ) -> str:
-    """The ``check`` summary: heading, bars, per-line table, then each extra section."""
+    """The ``check`` summary: heading, bars, per-line table, then each extra section; the
+    schedule's warnings marked (and coloured when ``color``)."""
     lines = [panel_heading(panel), f"  read from {panel.source} ({len(panel.circuits)} circuits)"]
     if bars:
         lines += ["", *bars]
-    lines += ["", *loads_table(loads)]
+    lines += ["", *loads_table(loads, color=color)]
     lines += textwrap.wrap(
         f"({IMBALANCE_DEFINITION})", 98, initial_indent="  ", subsequent_indent="   "
     )
@@ -168,9 +217,9 @@ def check_text(
         if section:
             lines += ["", *section]
     if warnings:
-        lines += ["", "Notes:", *bullets(warnings)]
+        lines += ["", *warning_lines(warnings, color)]
     lines += ["", *wrap(CAUTION)]
-    return "\n".join(lines)
+    return "\n".join(fit(lines))
 
 
 def _new_breakers(result: Any) -> list[str]:
@@ -208,59 +257,116 @@ def wrap(text: str, width: int = 88) -> list[str]:
     return textwrap.wrap(text, width, break_long_words=False, break_on_hyphens=False)
 
 
+def proof_text(result: Any) -> str:
+    """How good the first goal's figure is, in the words a practitioner uses."""
+    from balancer.domain.result import BalanceOptions, SolveStatus
+
+    goal = goal_for(result.first_goal)
+    value, bound = result.goal_value, result.goal_bound
+    if result.status is SolveStatus.UNCHANGED:
+        return "nothing to rearrange: every circuit keeps its spaces"
+    shown = 0.5 * 10.0 ** (-goal.digits)
+    if result.goal_proven:
+        if math.isfinite(bound) and value - bound < shown:
+            return "proven the best possible"
+        margin = goal.tolerance(value, BalanceOptions(tolerance_va=result.tolerance_va))
+        return f"proven within {goal.text(margin)} of the best possible"
+    if math.isfinite(bound):
+        return f"not proven: could be up to {goal.text(max(0.0, value - bound))} better"
+    return "not proven: the time limit ended the search before any limit was found"
+
+
+def result_lines(result: Any, verbose: bool = False) -> list[str]:
+    """The ``Result:`` line, and with ``verbose`` the solver's own figures."""
+    from balancer.domain.result import SolveStatus
+
+    after = result.after
+    goal = goal_for(result.first_goal)
+    line = (
+        f"Result: {goal.phrase.removeprefix('the ')} {goal.text(result.goal_value)}, "
+        f"{proof_text(result)}"
+    )
+    if result.first_goal != "spread":
+        line += f"; phase spread {after.spread_va:,.0f} VA, a tie-breaker here"
+    if result.status is SolveStatus.FEASIBLE and result.goal_proven:
+        line += "; the later goals are not all proven (see the notes)"
+    lines = [line]
+    if verbose:
+        lines += [
+            f"Solver: {result.engine}, status {result.status.value}, {result.solve_seconds:.1f} s; "
+            f"first goal {result.first_goal} {goal.text(result.goal_value)}, best bound "
+            f"{goal.text(result.goal_bound)}",
+            f"  spread {after.spread_va:,.1f} VA, lower bound {result.lower_bound_spread_va:,.1f} "
+            f"VA, gap {result.gap_va:,.1f} VA, tolerance {result.tolerance_va:g} VA",
+        ]
+    return lines
+
+
+def move_lines(result: Any) -> list[str]:
+    """``Moves (n):`` and one line per breaker that changes spaces."""
+    if not result.moves:
+        return ["Moves: none needed."]
+    out = [f"Moves ({len(result.moves)}):"]
+    for m in result.moves:
+        origin = ",".join(map(str, m.from_spaces)) or "new"
+        out.append(
+            f"  {m.description:<32} {origin:>8} ({''.join(m.from_lines) or '-'}) -> "
+            f"{','.join(map(str, m.to_spaces)):>8} ({''.join(m.to_lines)})"
+        )
+    return out
+
+
+# Solver words kept out of the default notes (``--verbose`` shows every note as it is).
+SOLVER_NOTE_WORDS = ("bound", "relaxation", "polygon", "incumbent", "exact model", "node")
+
+
+def plain_notes(notes: list[str], verbose: bool) -> list[str]:
+    """The notes for the terminal: every one with ``verbose``; otherwise solver detail left to
+    ``--verbose`` (each goal's own note already says how far it is proven)."""
+    if verbose:
+        return notes
+    return [n for n in notes if not any(word in n for word in SOLVER_NOTE_WORDS)]
+
+
 def balance_text(
     result: Any,
     written: Path | list[Path],
     *,
     bars: list[str] | None = None,
     sections: list[list[str]] | None = None,
+    warnings: list[str] | tuple[str, ...] = (),
+    color: bool = False,
+    verbose: bool = False,
 ) -> str:
-    """The ``balance`` summary: bars, before and after, proof, moves, extra sections, files."""
+    """The ``balance`` summary: bars, before and after, proof, moves, extra sections, notes,
+    the schedule's warnings (marked, and coloured when ``color``), files; within
+    :data:`WIDTH` columns."""
     before, after = result.before, result.after
     lines = [panel_heading(result.before_panel)]
     if bars:
         lines += ["", *bars]
-    lines += ["", *loads_table(before, title="Before")]
-    lines += ["", *loads_table(after, title="After")]
-    status = result.status.value
-    if result.first_goal == "spread":
-        lines += [
-            "",
-            f"Result: {status} ({result.engine}); spread {after.spread_va:,.1f} VA, lower bound "
-            f"{result.lower_bound_spread_va:,.1f} VA, tolerance {result.tolerance_va:g} VA"
-            + (f", gap {result.gap_va:,.1f} VA" if status != "optimal" else ""),
-        ]
-    else:
-        goal = goal_for(result.first_goal).phrase
-        lines += [
-            "",
-            f"Result: {status} ({result.engine}) on the first goal, {goal} (see the notes); "
-            f"spread {after.spread_va:,.1f} VA, a tie-breaker here",
-        ]
+    lines += ["", *loads_table(before, title="Before", color=color)]
+    lines += ["", *loads_table(after, title="After", color=color)]
+    lines += ["", *result_lines(result, verbose)]
     if result.after_panel.system.high_leg and result.first_goal == "spread":
         lines += wrap(
             f"High leg: the 120 V loads on A and C share one winding of the supply bank "
             f"(neutral after: {after.neutral_a:.1f} A); --objective transformer --bank-kva KVA "
-            "balances for that winding instead."
+            "balances for that winding instead.",
+            WIDTH,
         )
-    if result.moves:
-        lines += ["", f"Moves ({len(result.moves)}):"]
-        for m in result.moves:
-            origin = ",".join(map(str, m.from_spaces)) or "new"
-            lines.append(
-                f"  {m.description:<32} {origin:>8} ({''.join(m.from_lines) or '-'}) -> "
-                f"{','.join(map(str, m.to_spaces)):>8} ({''.join(m.to_lines)})"
-            )
-    else:
-        lines += ["", "Moves: none needed."]
+    lines += ["", *move_lines(result)]
     lines += _new_breakers(result)
     for section in sections or []:
         if section:
             lines += ["", *section]
-    notes = list(result.notes) + list(result.before_panel.notices)
+    notes = plain_notes(list(result.notes), verbose)
     if notes:
         lines += ["", "Notes:", *bullets(notes)]
+    marked = list(warnings) or list(result.before_panel.notices)
+    if marked:
+        lines += ["", *warning_lines(marked, color)]
     files = written if isinstance(written, list) else [written]
     lines += [""] + [f"Wrote {path}" for path in files]
     lines += ["", *wrap(CAUTION)]
-    return "\n".join(lines)
+    return "\n".join(fit(lines))

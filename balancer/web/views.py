@@ -117,7 +117,7 @@ def table_view(report: BalanceReport, selected: int | None) -> dict[str, Any]:
             "moves": len(result.moves),
             "spread_va": result.after.spread_va,
             "imbalance_pct": result.after.imbalance_pct,
-            "neutral_a": result.after.neutral_a,
+            "neutral_fundamental_a": result.after.neutral_a,
             "status": result.status.value,
             "status_text": _status_text(result.status),
         },

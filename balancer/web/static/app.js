@@ -154,8 +154,8 @@ function showCheck(view) {
       {},
       el("td", {}, lineTag(line, facts)),
       el("td", { data: { figure: `va-${line}` } }, va(loads.phase_va[line])),
-      el("td", { data: { figure: `amps-${line}` } }, amps(loads.line_rms_a[line] ?? loads.line_a[line])),
-      el("td", {}, amps(loads.line_a[line]))
+      el("td", { data: { figure: `amps-${line}` } }, amps(loads.line_rms_a[line])),
+      el("td", {}, amps(loads.line_fundamental_a[line]))
     )
   );
   const figures = clear($("check-figures"));
@@ -175,7 +175,7 @@ function showCheck(view) {
       el("dd", { data: { figure: "spread" } }, va(loads.spread_va)),
       el("dt", {}, "Total load"),
       el("dd", { data: { figure: "total" } }, va(loads.total_va)),
-      facts.neutral ? [el("dt", {}, "Neutral current (RMS)"), el("dd", { data: { figure: "neutral" } }, amps(loads.neutral_rms_a || loads.neutral_a))] : null,
+      facts.neutral ? [el("dt", {}, "Neutral current (RMS)"), el("dd", { data: { figure: "neutral" } }, amps(loads.neutral_rms_a))] : null,
       loads.unbalance_factor_pct !== null ? [el("dt", {}, "Current unbalance |I2|/|I1|"), el("dd", {}, pct(loads.unbalance_factor_pct))] : null,
       data.demand ? [el("dt", {}, "Demand load"), el("dd", { data: { figure: "demand" } }, `${va(data.demand.total_demand_va)} (${data.demand.rule_set_title})`)] : null,
       data.demand ? [el("dt", {}, "Feeder design current"), el("dd", { data: { figure: "feeder" } }, `${amps(data.demand.feeder.design_a)} on line ${data.demand.feeder.design_line}`)] : null
@@ -455,7 +455,7 @@ function showTable(table) {
   const entries = table.rows.map((row, index) => ({ key: String(index), row, index }));
   if (table.recommended_row === null) {
     const r = table.recommended;
-    entries.unshift({ key: "recommended", row: { moves: r.moves, spread_va: r.spread_va, imbalance_pct: r.imbalance_pct, neutral_a: r.neutral_a, status_text: r.status_text }, index: null });
+    entries.unshift({ key: "recommended", row: { moves: r.moves, spread_va: r.spread_va, imbalance_pct: r.imbalance_pct, neutral_fundamental_a: r.neutral_fundamental_a, status_text: r.status_text }, index: null });
   }
   const goal = table.rows.length ? table.rows[0].goal : "spread";
   const body = el("tbody");
@@ -468,7 +468,7 @@ function showTable(table) {
       el("td", {}, String(entry.row.moves), recommended ? el("span", { class: "tag" }, "recommended") : null),
       el("td", {}, va(entry.row.spread_va)),
       el("td", {}, pct(entry.row.imbalance_pct)),
-      el("td", {}, amps(entry.row.neutral_a)),
+      el("td", {}, amps(entry.row.neutral_fundamental_a)),
       goal !== "spread" ? el("td", {}, entry.row.goal_value === undefined ? "—" : entry.row.goal_value.toFixed(2)) : null,
       el("td", { class: "text" }, entry.row.status_text)
     );
@@ -557,7 +557,7 @@ function showArrangement(view, key) {
           "tbody",
           {},
           data.moves.map((m) =>
-            el("tr", {}, el("td", { class: "text" }, m.id), el("td", { class: "text" }, m.description), el("td", { class: "text" }, `${spaces(m.from)} (${m.from_phases.join("")})`), el("td", { class: "text" }, `${spaces(m.to)} (${m.to_phases.join("")})`))
+            el("tr", {}, el("td", { class: "text" }, m.id), el("td", { class: "text" }, m.description), el("td", { class: "text" }, `${spaces(m.from_spaces)} (${m.from_lines.join("")})`), el("td", { class: "text" }, `${spaces(m.to_spaces)} (${m.to_lines.join("")})`))
           )
         )
       )
