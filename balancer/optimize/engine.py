@@ -470,6 +470,10 @@ def _solve_on_lines(
         replace(options, target_imbalance_pct=target), layout.count_moves, available
     )
     model = build_model(layout, "line", options, target_imbalance_pct=target, include=goals[:1])
+    if goals[0] == "spread" and options.max_moves is not None and target is None:
+        within = _spread_within_budget(layout, options, floor, options.max_moves)
+        if within is not None:
+            return within, model, goals
     seed = _seed(layout)
     if goals[0] == "spread" and seed is not None:
         searched, seed = _spread_by_search(layout, options, target, floor, seed)
@@ -541,6 +545,41 @@ def _spread_by_search(
             stage = StageResult("spread", value, bound, True, tuple(seed), spent, how)
             return _fewer_changes(layout, options, stage), seed
     return None, seed
+
+
+def _spread_within_budget(
+    layout: Layout, options: BalanceOptions, floor: float, budget: int
+) -> StageResult | None:
+    """The least spread reachable with at most ``budget`` moves, proven by bisection on the
+    spread cap with the fewest-changes search (its move counts are proven): a cap that needs
+    more than ``budget`` moves is a proven lower bound, an arrangement within the budget an
+    upper one. None when the search cannot settle it (the solver decides then).
+    """
+    if not layout.count_moves:
+        return None
+    began = time.perf_counter()
+    stop = began + min(FEWEST_S, SAFETY_SHARE * options.time_limit_s)
+    present = present_lines(layout)
+    if present is None:
+        return None
+    best, high = present, pattern_spread_va(layout, present)  # no moves: within any budget
+    low = floor - options.tolerance_va  # every arrangement's spread is above this
+    while high - low > options.tolerance_va:
+        left = stop - time.perf_counter()
+        if left <= 0:
+            return None
+        cap_va = max(floor, (low + high) / 2.0)
+        found = fewest_changes_lines(layout, cap_va, left)
+        if found is None:
+            return None
+        if found.bound > budget:
+            low = cap_va  # every arrangement within the cap needs more moves than the budget
+        elif found.picks is not None and found.moves is not None and found.moves <= budget:
+            best, high = found.picks, min(high, pattern_spread_va(layout, found.picks))
+        else:
+            return None  # neither proven out of reach nor found within the budget
+    spent = time.perf_counter() - began
+    return StageResult("spread", high, low, True, tuple(best), spent, "fewest changes by budget")
 
 
 def _fewer_changes(layout: Layout, options: BalanceOptions, stage: StageResult) -> StageResult:
