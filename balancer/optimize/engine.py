@@ -594,6 +594,13 @@ def _fewer_changes(layout: Layout, options: BalanceOptions, stage: StageResult) 
     limit_va = stage.value
     if _proven(stage, options, stage.bound):
         limit_va = max(stage.value, stage.bound + options.tolerance_va)
+    # The fewest changes within the cap, when the search proves them, leave nothing to undo.
+    found = fewest_changes_lines(
+        layout, limit_va, min(FEWEST_S, SAFETY_SHARE * options.time_limit_s)
+    )
+    if found is not None and found.picks is not None and found.moves == found.bound:
+        value = pattern_spread_va(layout, found.picks)
+        return replace(stage, picks=tuple(found.picks), value=max(value, stage.value))
     undo_s = min(UNDO_S, SAFETY_SHARE * options.time_limit_s)
     picks = fewer_changes_lines(layout, stage.picks, present, limit_va, undo_s)
     value = pattern_spread_va(layout, picks)

@@ -10,6 +10,7 @@ symmetry). Variables are named by index (``y_12_3``) and mapped back through ``M
 from __future__ import annotations
 
 import cmath
+import functools
 import itertools
 import math
 from collections.abc import Collection, Mapping, Sequence
@@ -20,10 +21,11 @@ import pulp
 
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions
-from balancer.domain.systems import Line
+from balancer.domain.systems import Line, System
 from balancer.errors import InfeasibleError
 from balancer.optimize.goals import MODEL_ORDER, POLYGON_SIDES, Goal, goal_for
 from balancer.physics.harmonics import circuit_currents_by_order
+from balancer.physics.phasors import CircuitCurrents
 
 ModelKind = Literal["line", "space", "mixed"]
 
@@ -226,6 +228,13 @@ class Contribution:
     line_current: dict[Line, complex]
 
 
+@functools.lru_cache(maxsize=8192)
+def _fundamental(system: System, circuit: Circuit, lines: tuple[Line, ...]) -> CircuitCurrents:
+    """A circuit's fundamental phasors on ``lines``: every model, search and trade-off row of a
+    run asks for the same few thousand (circuits and systems are frozen, so this is exact)."""
+    return circuit_currents_by_order(system, circuit, lines)[1]
+
+
 def contribution(
     panel: Panel, members: Sequence[int], lines: Sequence[Sequence[Line]]
 ) -> Contribution:
@@ -238,7 +247,7 @@ def contribution(
             phase[line] += circuit.basis_va / len(member_lines)
         # the same fundamental phasors analyze() reports (voltage, neutral share and the
         # harmonic profile included), so a proven current is the current shown
-        fundamental = circuit_currents_by_order(panel.system, circuit, tuple(member_lines))[1]
+        fundamental = _fundamental(panel.system, circuit, tuple(member_lines))
         for line, value in fundamental.lines.items():
             current[line] += value
         neutral += fundamental.neutral
