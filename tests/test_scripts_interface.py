@@ -233,6 +233,11 @@ def test_building_text_fits_a_terminal(tmp_path: Path) -> None:
         assert status == 0
         assert [line for line in text.splitlines() if len(line) > WIDTH] == []
         assert JARGON.findall(text) == []
+    status, text = _run(
+        ["building", str(BUILDING), "--balance", "-v", "-o", str(tmp_path / "v.xlsx")]
+    )
+    assert status == 0
+    assert "MDP: solver status optimal, gap" in text
 
 
 def test_warnings_are_marked_in_a_pipe_and_coloured_on_a_terminal(

@@ -229,9 +229,11 @@ def building_text(
     demand: tuple[RollUp, RollUp | None] | None = None,
     *,
     color: bool = False,
+    verbose: bool = False,
 ) -> str:
     """The terminal report: panels as found (and after balancing), demand, feeders, summary,
-    caution; within 100 columns, warnings marked (and coloured when ``color``)."""
+    caution; within 100 columns, warnings marked (and coloured when ``color``); with
+    ``verbose`` each panel's solver figures and every note."""
     from balancer.report.text import WARNING_MARK, fit, warning_lines, wrap
 
     basis = "connected basis" + ("; demand per the rule set where shown" if demand else "")
@@ -299,7 +301,13 @@ def building_text(
                     f"{name}: re-land the feeder conductors of {', '.join(outcome.swapped_feeds)} "
                     "(line A of the subpanel to the other pole)"
                 )
-            if not outcome.exact or outcome.status is SolveStatus.FEASIBLE:
+            if verbose:
+                lines.append(
+                    f"{name}: solver status {outcome.status.value}, gap {outcome.gap_va:,.1f} VA, "
+                    f"{outcome.solve_seconds:.1f} s"
+                )
+                lines += [f"{name}: {n}" for n in outcome.notes]
+            elif not outcome.exact or outcome.status is SolveStatus.FEASIBLE:
                 lines += [f"{name}: {n}" for n in outcome.notes if "proven" in n or "exactly" in n]
     lines += ["", *wrap(CAUTION)]
     return "\n".join(fit(lines))

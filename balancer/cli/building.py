@@ -84,7 +84,11 @@ def run_command(args: argparse.Namespace) -> int:
     building, before, result = report.building, report.before, report.result
     if not args.json:
         color = use_color(sys.stdout, args.no_color)
-        print(building_text(building, before, result, report.demand, color=color))
+        print(
+            building_text(
+                building, before, result, report.demand, color=color, verbose=args.verbose
+            )
+        )
     with progress(f"writing {index.stem}", enabled=wanted(sys.stderr, args.json)):
         report = api.write_building(report, workbook, pdf, paper=args.paper)
     if args.json:

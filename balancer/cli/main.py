@@ -116,6 +116,7 @@ def _balance_parser(commands: argparse._SubParsersAction[argparse.ArgumentParser
         action="store_true",
         help="with --objective transformer: the delta bank is open (two units)",
     )
+    options.add_verbose(balance)
     options.add_field(balance)
     options.add_panel(balance)
     options.add_demand(balance)

@@ -186,14 +186,22 @@ def add_output(parser: argparse.ArgumentParser) -> None:
         "a PDF (summary, circuit directory, work order, cautions); default name beside the "
         "schedule",
     )
-    add_terminal(group)
+    add_color(group)
 
 
-def add_terminal(parser: argparse.ArgumentParser | Any) -> None:
-    """``--no-color`` and ``--verbose``: how the terminal text looks."""
+def add_color(parser: argparse.ArgumentParser | Any) -> None:
     parser.add_argument(
         "--no-color", action="store_true", help="plain text only, even on a colour terminal"
     )
+
+
+def add_terminal(parser: argparse.ArgumentParser | Any) -> None:
+    """``--no-color`` and ``--verbose``: how the terminal text of a solving command looks."""
+    add_color(parser)
+    add_verbose(parser)
+
+
+def add_verbose(parser: argparse.ArgumentParser | Any) -> None:
     parser.add_argument(
         "-v",
         "--verbose",
