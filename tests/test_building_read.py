@@ -164,5 +164,5 @@ def test_building_command_with_demand(capsys: pytest.CaptureFixture[str]) -> Non
     rows = json.loads(capsys.readouterr().out)["panels"]
     service = rows[0]
     assert service["panel"] == "MDP"
-    assert service["demand_va"] > 0
+    assert service["demand"]["total_demand_va"] > 0
     assert main(["building", str(DEMO_BOOK), "--demand", "--rules", "no-such-rules"]) == 2

@@ -154,6 +154,13 @@ def test_building_json_matches_its_schema(tmp_path: Path) -> None:
         validator.validate(broken)
 
 
+def test_building_figures_with_demand_match_the_schema() -> None:
+    data = _json(["building", str(BUILDING), "--demand", "--json"])
+    _validator("building").validate(data)
+    assert all(p["demand"]["total_demand_va"] > 0 for p in data["panels"])
+    assert data["panels"][0]["demand"]["phase_demand_va_after"] is None  # nothing balanced
+
+
 def _loads_keys() -> list[str]:
     schema = json.loads((SCHEMAS / "common.schema.json").read_text())
     return list(schema["$defs"]["loads"]["properties"])

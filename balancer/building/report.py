@@ -222,6 +222,32 @@ def _table(rows: list[dict[str, object]], columns: Sequence[tuple[str, str]]) ->
     ]
 
 
+def _feeder_tables(feeds: list[dict[str, object]], balanced: bool) -> list[str]:
+    """The feeders as found and, when balanced, after: two tables that fit 100 columns."""
+    if not feeds:
+        return []
+    lines: list[str] = []
+    feeder_cols = [
+        ("panel", "Feeds"),
+        ("fed_from", "From"),
+        ("circuit", "Ckt"),
+        ("transformer", "Transformer"),
+        ("lines_before", "Lines"),
+        ("upstream_a_before", "Amps upstream"),
+        ("transformer_loading_before_pct", "Loading %"),
+    ]
+    lines += ["", "Feeders as found:", *_table(feeds, feeder_cols)]
+    if balanced:
+        after_cols = [
+            ("panel", "Feeds"),
+            ("lines_after", "Lines"),
+            ("upstream_a_after", "Amps upstream"),
+            ("transformer_loading_after_pct", "Loading %"),
+        ]
+        lines += ["", "Feeders after balancing:", *_table(feeds, after_cols)]
+    return lines
+
+
 def building_text(
     building: Building,
     before: RollUp,
@@ -268,26 +294,7 @@ def building_text(
         if demand[1] is not None:
             demand_cols.append(("demand_phase_va_after", "Demand per line after"))
         lines += ["", "Demand:", *_table(rows, demand_cols)]
-    feeds = feeder_rows(building, before, result)
-    if feeds:
-        feeder_cols = [
-            ("panel", "Feeds"),
-            ("fed_from", "From"),
-            ("circuit", "Ckt"),
-            ("transformer", "Transformer"),
-            ("lines_before", "Lines"),
-            ("upstream_a_before", "Amps upstream"),
-            ("transformer_loading_before_pct", "Loading %"),
-        ]
-        lines += ["", "Feeders as found:", *_table(feeds, feeder_cols)]
-        if result is not None:
-            after_cols = [
-                ("panel", "Feeds"),
-                ("lines_after", "Lines"),
-                ("upstream_a_after", "Amps upstream"),
-                ("transformer_loading_after_pct", "Loading %"),
-            ]
-            lines += ["", "Feeders after balancing:", *_table(feeds, after_cols)]
+    lines += _feeder_tables(feeder_rows(building, before, result), result is not None)
     lines.append("")
     for line in summary_lines(building, before, result):
         if line.startswith(WARNING_MARK):
