@@ -10,7 +10,7 @@ from __future__ import annotations
 import io
 import math
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -19,7 +19,7 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from balancer.domain.panel import Circuit, Panel
+from balancer.domain.panel import Circuit, Panel, PanelHeader
 from balancer.domain.result import BalanceResult, SolveStatus
 from balancer.domain.systems import Line
 from balancer.io.files import refuse_input_path, save_workbook
@@ -174,6 +174,80 @@ def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> No
         ws.print_title_rows = title_rows
 
 
+def _header_text(text: str) -> str:
+    return text.replace("&", "&&")  # '&' starts a header code in a spreadsheet's page header
+
+
+def running_header(ws: Worksheet, panel: Panel) -> None:
+    """Every printed page's header: the project, the panel and its system (the high leg named
+    on a high-leg delta panel), the date and revision."""
+    project, issue = title_block(panel.header)
+    ws.oddHeader.left.text = _header_text(project)
+    ws.oddHeader.left.size = 8
+    ws.oddHeader.center.text = _header_text(f"Panel {panel.name}: {panel.system.label()}")
+    ws.oddHeader.center.size = 8
+    ws.oddHeader.right.text = _header_text(issue)
+    ws.oddHeader.right.size = 8
+    ws.page_margins.top = max(ws.page_margins.top, 0.9)
+    ws.page_margins.header = 0.3
+
+
+WIDTH_MAX = 60.0  # characters; longer text is wrapped or merged, never a column this wide
+
+
+def _shown_width(cell: Any) -> float:
+    """About how many characters wide a cell's value shows, at its number format."""
+    value = cell.value
+    if value is None:
+        return 0.0
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        text = str(value)
+    elif "0.0" in str(cell.number_format):
+        text = f"{value:,.2f}"
+    else:
+        text = f"{value:,.0f}" + (" A" if '" A"' in str(cell.number_format) else "")
+    bold = 1.1 if cell.font is not None and cell.font.b else 1.0
+    return len(text) * bold
+
+
+def fit_columns(ws: Worksheet) -> None:
+    """Widen each column to its widest cell (a header to its longest word, since headers
+    wrap) so no text runs into the next column; wrapped and merged cells, and a sheet's
+    one-cell title rows, keep the width they were given."""
+    merged = {
+        (r, c)
+        for area in ws.merged_cells.ranges
+        for r in range(area.min_row, area.max_row + 1)
+        for c in range(area.min_col, area.max_col + 1)
+    }
+    need: dict[int, float] = {}
+    for row in ws.iter_rows():
+        filled = [cell for cell in row if cell.value is not None]
+        if (
+            len(filled) <= 1
+            and filled
+            and filled[0].column == 1
+            and isinstance(filled[0].value, str)
+        ):
+            continue  # a title or a note across the sheet
+        for cell in filled:
+            if (cell.row, cell.column) in merged:
+                continue
+            if cell.alignment is not None and cell.alignment.wrap_text:
+                if cell.fill is _HEAD_FILL or cell.fill == _HEAD_FILL:
+                    longest = max((len(w) for w in str(cell.value).split()), default=0)
+                    width = longest * 1.15 + 2
+                else:
+                    continue
+            else:
+                width = _shown_width(cell) + 2
+            need[cell.column] = max(need.get(cell.column, 0.0), min(width, WIDTH_MAX))
+    for column, width in need.items():
+        dimension = ws.column_dimensions[get_column_letter(column)]
+        if (dimension.width or 0) < width:
+            dimension.width = width
+
+
 def _widths(ws: Worksheet, widths: Sequence[float]) -> None:
     for i, width in enumerate(widths, start=1):
         ws.column_dimensions[get_column_letter(i)].width = width
@@ -194,14 +268,85 @@ def _main_text(panel: Panel) -> float | str | None:
     return "MLO" if getattr(panel, "main_lugs_only", False) else None
 
 
+def header_values(header: PanelHeader) -> list[tuple[str, Any, str | None]]:
+    """The title block's data as (Panel-sheet label, value, number format), in the order of
+    :data:`balancer.io.columns.PANEL_KEYS`; what the reader takes back unchanged."""
+    from balancer.io.columns import PANEL_BY_KEY
+
+    rows: list[tuple[str, Any, str | None]] = []
+    for key in HEADER_KEYS:
+        value = getattr(header, key)
+        if key == "isolated_ground":
+            value = _flag_text(value)
+        rows.append((PANEL_BY_KEY[key].label, value, "0.0##" if key == "sccr_ka" else "0"))
+    return rows
+
+
+HEADER_KEYS = (
+    "location",
+    "fed_from",
+    "feeder",
+    "mounting",
+    "enclosure",
+    "sccr_ka",
+    "neutral_pct",
+    "ground_bus",
+    "isolated_ground",
+    "project",
+    "date",
+    "revision",
+    "balanced",
+)
+
+
+def header_facts(header: PanelHeader) -> list[tuple[str, str]]:
+    """The title block as a reader sees it, with units: ("SCCR", "22 kA") …; blanks say
+    'not given' so a missing rating is seen as missing."""
+    ground = header.ground_bus or "not given"
+    if header.isolated_ground is not None:
+        bar = "with isolated ground bar" if header.isolated_ground else "no isolated ground bar"
+        ground = f"{header.ground_bus}, {bar}" if header.ground_bus else bar
+    rows = [
+        ("Location", header.location),
+        ("Fed from", header.fed_from),
+        ("Feeder", header.feeder),
+        ("Mounting", header.mounting),
+        ("Enclosure", header.enclosure),
+        ("Short-circuit rating (SCCR)", f"{header.sccr_ka:,.4g} kA" if header.sccr_ka else ""),
+        ("Neutral bus", f"{header.neutral_pct:g} %" if header.neutral_pct else ""),
+        ("Ground bus", ground),
+    ]
+    return [(label, value or "not given") for label, value in rows]
+
+
+def title_block(header: PanelHeader) -> tuple[str, str]:
+    """("Project: …", "Date: …   Revision: …") as every page's running header shows them; a
+    revised schedule's revision carries the date it was balanced."""
+    project = f"Project: {header.project or 'not given'}"
+    return project, f"Date: {header.date or 'not given'}   Revision: {header.revision_text()}"
+
+
+def revised_header(panel: Panel, balanced_on: str | None = None) -> PanelHeader:
+    """The revised schedule's title block: the schedule's own, with the date it was balanced
+    (today unless given)."""
+    import datetime
+
+    on = balanced_on or datetime.date.today().isoformat()
+    return replace(panel.header, balanced=on)
+
+
 def _panel_facts(panel: Panel) -> list[tuple[str, Any, str | None]]:
     main = _main_text(panel)
     return [
         ("Panel", panel.name, None),
         ("System", panel.system.label(), None),
         ("Spaces", panel.spaces, "0"),
-        ("Bus rating A", panel.bus_a, "0"),
-        ("Main A", "main lugs only" if main == "MLO" else main, "0"),
+        ("Bus rating", panel.bus_a, '#,##0" A"'),
+        ("Main", "main lugs only" if main == "MLO" else main, '#,##0" A"'),
+        *((label, value, None) for label, value in header_facts(panel.header)),
+        ("Project", panel.header.project or "not given", None),
+        ("Date", panel.header.date or "not given", None),
+        ("Revision", panel.header.revision_text(), None),
         ("Source", panel.source or "", None),
     ]
 
@@ -219,6 +364,7 @@ def panel_title_rows(panel: Panel) -> list[tuple[str, Any]]:
     main = _main_text(panel)
     if main is not None:
         rows.append(("Main", main))
+    rows += [(label, value) for label, value, _ in header_values(panel.header) if value]
     return rows
 
 
@@ -232,11 +378,13 @@ def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
         ("Spaces", panel.spaces, "0"),
         ("Bus", panel.bus_a, "0"),
         ("Main", _main_text(panel), "0"),
+        *header_values(panel.header),
     ]
     for row, (label, value, fmt) in enumerate(rows, start=2):
         _put(ws, row, 1, label)
         _put(ws, row, 2, value, fmt)
-    _widths(ws, [14, 24])
+    ws.cell(row=len(rows) + 3, column=1, value=panel.system.label())
+    _widths(ws, [20, max(24, *(len(str(v)) + 3 for _, v, _ in rows if v is not None))])
     print_setup(ws, landscape=False, title_rows=None)
 
 
@@ -623,6 +771,11 @@ def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | No
         _put(ws, row, 4, new.magnitude_a, AMPS)
         _put(ws, row, 5, new.angle_deg, "0.0")
     ws.cell(row=row + 1, column=1, value="Angles from line A's line-to-neutral voltage.")
+    ws.cell(
+        row=row + 2,
+        column=1,
+        value=f"Panel {result.after_panel.name}: {result.after_panel.system.label()}.",
+    )
     _widths(ws, [14, 11, 14, 11, 14])
     fig = draw_phasor_diagram(
         before,
@@ -631,7 +784,7 @@ def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | No
         title=f"{result.after_panel.name}: current phasors",
     )
     image = Image(io.BytesIO(phasor_figure_bytes(fig, "png", dpi=90)))
-    ws.add_image(image, f"A{row + 3}")
+    ws.add_image(image, f"A{row + 4}")
     print_setup(ws, landscape=True, title_rows=None)
 
 
@@ -748,6 +901,7 @@ def write_workbook(
     order: WorkOrder | None = None,
     phasor_diagram: bool = True,
     harmonic_neutral_rms_a: Sequence[float | None] | None = None,
+    balanced_on: str | None = None,
 ) -> Path:
     """Write the revised schedule workbook for ``result`` to ``path`` and return the path.
 
@@ -772,6 +926,9 @@ def write_workbook(
     harmonic_neutral_rms_a
         Neutral RMS current with harmonics before and after; taken from the figures when not
         given, and drawn as bars only when harmonics change the neutral.
+    balanced_on
+        The date written as the revised schedule's "Balanced" line (today when not given); the
+        schedule's own revision is kept beside it.
 
     Raises
     ------
@@ -780,6 +937,8 @@ def write_workbook(
     """
     path = Path(path)
     refuse_input_path(path, input_path, result.before_panel.source or None)
+    after = result.after_panel
+    result = replace(result, after_panel=replace(after, header=revised_header(after, balanced_on)))
     wb = Workbook()
     summary = wb.active
     assert summary is not None
@@ -799,6 +958,9 @@ def write_workbook(
     if any(c.balance_va is not None for c in result.after_panel.circuits):
         for sheet in wb.worksheets:  # printed, every page says what the figures stand on
             sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
+    for sheet in wb.worksheets:
+        running_header(sheet, result.after_panel)
+        fit_columns(sheet)
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
     return save_workbook(wb, path)
