@@ -314,9 +314,13 @@ def _summary_page(
         )
     if loads.unplaced:
         page.paragraph("Not placed, left out of the figures: " + ", ".join(loads.unplaced))
-    page.y_in += 0.35
-    _bar_chart(page, panel, loads, result)
-    page.y_in += 0.4
+    page.y_in += 0.45
+    # the chart gives way to the caution, which must end above the footer
+    caution_in = 0.45 + len(wrap_to_width(CAUTION, 8.5, page.width_in - 2 * MARGIN_IN)) * 0.17
+    chart_in = min(2.3, page.room_in - caution_in - 0.4)
+    if chart_in >= 1.2:
+        _bar_chart(page, panel, loads, result, chart_in)
+        page.y_in += 0.4
     _cautions(page)
 
 
@@ -344,7 +348,7 @@ def _facts_block(page: _Page, panel: Panel) -> None:
     for x, facts, label_in in ((MARGIN_IN, left, 1.3), (MARGIN_IN + half, right, 0.85)):
         page.y_in = top
         for label, value in facts:
-            label_lines = wrap_to_width(label, 9, label_in - 0.08) or [""]
+            label_lines = wrap_to_width(label, 9 * 1.08, label_in - 0.1) or [""]  # bold
             lines = wrap_to_width(value, 9, half - label_in - 0.15) or [""]
             for n, text in enumerate(label_lines):
                 page.text(x, page.y_in + n * 0.15, text, size=9, weight="bold")
@@ -365,7 +369,7 @@ def _facts_block(page: _Page, panel: Panel) -> None:
 
 def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: BalanceResult) -> None:
     """Each line's load and current before and after balancing, and the neutral's."""
-    header = ["Line", "Before VA", "After VA", "Before A RMS", "After A RMS"]
+    header = ["Line", "Before (VA)", "After (VA)", "Before (A RMS)", "After (A RMS)"]
     rows: list[list[Any]] = [
         [
             line,
@@ -386,7 +390,7 @@ def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: Balance
 
 def _line_table(page: _Page, panel: Panel, loads: Loads) -> None:
     """Each line's load, current and deviation from the average, and the neutral's current."""
-    header = ["Line", "Load VA", "Current A RMS", "Deviation from average"]
+    header = ["Line", "Load (VA)", "Current (A RMS)", "Deviation from average"]
     average = loads.total_va / len(panel.lines)
     rows: list[list[Any]] = [
         [
@@ -462,8 +466,9 @@ def _figure_lines(page: _Page, figures: list[tuple[str, str]]) -> None:
         page.y_in += 0.19
 
 
-def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None) -> None:
-    height_in = 2.3
+def _bar_chart(
+    page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None, height_in: float = 2.3
+) -> None:
     width_in = page.width_in - 2 * MARGIN_IN
     bottom = 1.0 - (page.y_in + height_in) / page.height_in
     ax = page.fig.add_axes(
@@ -493,10 +498,15 @@ def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | 
         ax.bar(x, after, 0.5, label="as placed", color="#4A5A6A", edgecolor="black")
     average = loads.total_va / len(lines)
     ax.axhline(average, color="black", ls="--", lw=1, label=f"average {average:,.0f} VA")
+    from matplotlib.ticker import StrMethodFormatter
+
     ax.set_xticks(x, [f"Line {line}" for line in lines])
-    ax.set_ylabel("VA", fontsize=8)
+    ax.set_ylabel("Load (VA)", fontsize=8)
+    ax.yaxis.set_major_formatter(StrMethodFormatter("{x:,.0f}"))
     ax.tick_params(labelsize=8)
     ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=3, frameon=False)
+    title = "Load per line before and after balancing" if result is not None else "Load per line"
+    page.text(MARGIN_IN, page.y_in - 0.3, f"{title} (VA)", size=9, weight="bold", color=_HEAD)
     page.y_in += height_in
 
 

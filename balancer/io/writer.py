@@ -182,12 +182,10 @@ def running_header(ws: Worksheet, panel: Panel) -> None:
     """Every printed page's header: the project, the panel and its system (the high leg named
     on a high-leg delta panel), the date and revision."""
     project, issue = title_block(panel.header)
-    ws.oddHeader.left.text = _header_text(project)
-    ws.oddHeader.left.size = 8
-    ws.oddHeader.center.text = _header_text(f"Panel {panel.name}: {panel.system.label()}")
-    ws.oddHeader.center.size = 8
-    ws.oddHeader.right.text = _header_text(issue)
-    ws.oddHeader.right.size = 8
+    ws.oddHeader.left.text = _header_text(f"{project}\n{issue}")
+    ws.oddHeader.left.size = 7
+    ws.oddHeader.right.text = _header_text(f"Panel {panel.name}\n{panel.system.label()}")
+    ws.oddHeader.right.size = 7
     ws.page_margins.top = max(ws.page_margins.top, 0.9)
     ws.page_margins.header = 0.3
 
@@ -312,7 +310,7 @@ def header_facts(header: PanelHeader) -> list[tuple[str, str]]:
         ("Feeder", header.feeder),
         ("Mounting", header.mounting),
         ("Enclosure", header.enclosure),
-        ("Short-circuit rating (SCCR)", f"{header.sccr_ka:,.4g} kA" if header.sccr_ka else ""),
+        ("SCCR", f"{header.sccr_ka:,.4g} kA" if header.sccr_ka else ""),
         ("Neutral bus", f"{header.neutral_pct:g} %" if header.neutral_pct else ""),
         ("Ground bus", ground),
     ]
@@ -411,6 +409,10 @@ def _facts_block(ws: Worksheet, panel: Panel, row: int) -> int:
     """The panel's facts and the reader's notices from ``row``; returns the row after them."""
     for label, value, fmt in _panel_facts(panel):
         ws.cell(row=row, column=1, value=label).font = Font(bold=True)
+        if isinstance(value, str) and len(value) > 16:  # across the sheet, not one wide column
+            _long_text(ws, row, 2, value, last_col=6, chars_per_line=70)
+            row += 1
+            continue
         cell = ws.cell(row=row, column=2, value=value)
         if fmt and isinstance(value, (int, float)):
             cell.number_format = fmt
