@@ -119,7 +119,7 @@ def test_revised_workbook_reads_back_with_title_block_and_design_loads(tmp_path:
     assert "200 %" in summary
     header = book["Layout"].oddHeader
     assert "Demo job && sons" in header.left.text  # printed as one '&'
-    assert "Revision: 4, balanced 2026-12-02" in header.left.text
+    assert "Revision: 4, balanced 2026-12-02" in header.right.text
 
 
 def test_pdf_shows_the_title_block_and_cuts_nothing(tmp_path: Path) -> None:

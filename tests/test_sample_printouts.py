@@ -59,7 +59,8 @@ def test_pdf_pages_carry_the_title_block(
             assert BASIS in text, f"page {number} does not state the load basis"
     # the printed workbook: every sheet's page header carries the same
     for ws in load_workbook(book).worksheets:
-        printed = f"{ws.oddHeader.left.text} {ws.oddHeader.right.text}"
+        parts = (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right)
+        printed = " ".join(part.text or "" for part in parts)
         assert f"Project: {header.project or 'not given'}" in printed, ws.title
         assert revision in printed, ws.title
         if sample.stem.startswith("machine-shop"):

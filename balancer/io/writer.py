@@ -182,10 +182,12 @@ def running_header(ws: Worksheet, panel: Panel) -> None:
     """Every printed page's header: the project, the panel and its system (the high leg named
     on a high-leg delta panel), the date and revision."""
     project, issue = title_block(panel.header)
-    ws.oddHeader.left.text = _header_text(f"{project}\n{issue}")
-    ws.oddHeader.left.size = 7
-    ws.oddHeader.right.text = _header_text(f"Panel {panel.name}\n{panel.system.label()}")
-    ws.oddHeader.right.size = 7
+    # one line each: a line break in a page header is not read alike by every spreadsheet
+    ws.oddHeader.left.text = _header_text(project)
+    ws.oddHeader.center.text = _header_text(f"Panel {panel.name}: {panel.system.label()}")
+    ws.oddHeader.right.text = _header_text(issue)
+    for part in (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right):
+        part.size = 7
     ws.page_margins.top = max(ws.page_margins.top, 0.9)
     ws.page_margins.header = 0.3
 
@@ -383,7 +385,7 @@ def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
         _put(ws, row, 2, value, fmt)
     ws.cell(row=len(rows) + 3, column=1, value=panel.system.label())
     _widths(ws, [20, max(24, *(len(str(v)) + 3 for _, v, _ in rows if v is not None))])
-    print_setup(ws, landscape=False, title_rows=None)
+    print_setup(ws, landscape=True, title_rows=None)  # room for the running header
 
 
 # --- sheets -----------------------------------------------------------------------------------
@@ -409,6 +411,7 @@ def _facts_block(ws: Worksheet, panel: Panel, row: int) -> int:
     """The panel's facts and the reader's notices from ``row``; returns the row after them."""
     for label, value, fmt in _panel_facts(panel):
         ws.cell(row=row, column=1, value=label).font = Font(bold=True)
+        ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
         if isinstance(value, str) and len(value) > 16:  # across the sheet, not one wide column
             _long_text(ws, row, 2, value, last_col=6, chars_per_line=70)
             row += 1
@@ -811,7 +814,7 @@ def _notes(ws: Worksheet) -> None:
         cell.alignment = _WRAP
         ws.row_dimensions[row].height = 15 * math.ceil(len(text) / 70) + 3
     ws.column_dimensions["A"].width = 80
-    print_setup(ws, landscape=False, title_rows=None)
+    print_setup(ws, landscape=True, title_rows=None)  # room for the running header
     ws.print_options.horizontalCentered = False
 
 
@@ -867,14 +870,20 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
             if c == 1 and isinstance(value, str):
                 cell.font = Font(bold=True)
             cell.alignment = Alignment(vertical="top")
+            while len(widths) < c:
+                widths.append(10.0)
+            closing = c == len(values) > 1 and len(values) < span and isinstance(value, str)
+            if closing and len(str(value)) > widths[c - 1]:
+                # a short row's closing text, across the empty cells beside it, not one wide column
+                room = int(sum(widths[c - 1 : span]))
+                _long_text(ws, r, c, str(value), last_col=span, chars_per_line=max(20, room))
+                continue
             if isinstance(value, str) and len(value) > COLUMN_CHARS_MAX:
                 cell.alignment = _WRAP
                 # Proportional type fits fewer characters than the column's nominal width.
                 lines = math.ceil(len(value) / (COLUMN_CHARS_MAX * 0.8))
                 height = ws.row_dimensions[r].height or 15
                 ws.row_dimensions[r].height = max(height, 15 * lines + 2)
-            while len(widths) < c:
-                widths.append(10.0)
             widths[c - 1] = max(widths[c - 1], min(COLUMN_CHARS_MAX, len(str(value)) + 2))
     _widths(ws, widths)
     print_setup(ws, landscape=True, title_rows=None)
