@@ -170,6 +170,8 @@ def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> No
     ws.page_margins.left = ws.page_margins.right = 0.5
     ws.oddFooter.right.text = "&A, page &P of &N"
     ws.oddFooter.left.text = "Engineering aid: verify before work"
+    for part in (ws.oddFooter.left, ws.oddFooter.center, ws.oddFooter.right):
+        part.size = 7  # small enough that the three parts never meet
     if title_rows:
         ws.print_title_rows = title_rows
 
@@ -383,6 +385,7 @@ def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
     for row, (label, value, fmt) in enumerate(rows, start=2):
         _put(ws, row, 1, label)
         _put(ws, row, 2, value, fmt)
+        ws.cell(row=row, column=2).alignment = Alignment(horizontal="left")
     ws.cell(row=len(rows) + 3, column=1, value=panel.system.label())
     _widths(ws, [20, max(24, *(len(str(v)) + 3 for _, v, _ in rows if v is not None))])
     print_setup(ws, landscape=True, title_rows=None)  # room for the running header
@@ -417,6 +420,7 @@ def _facts_block(ws: Worksheet, panel: Panel, row: int) -> int:
             row += 1
             continue
         cell = ws.cell(row=row, column=2, value=value)
+        cell.alignment = Alignment(horizontal="left")  # a list of facts, read left to right
         if fmt and isinstance(value, (int, float)):
             cell.number_format = fmt
         row += 1
