@@ -248,6 +248,22 @@ def fit_columns(ws: Worksheet) -> None:
         dimension = ws.column_dimensions[get_column_letter(column)]
         if (dimension.width or 0) < width:
             dimension.width = width
+    _header_heights(ws)
+
+
+def _header_heights(ws: Worksheet) -> None:
+    """Header rows tall enough for their wrapped titles (a spreadsheet does not always grow
+    them by itself)."""
+    for row in ws.iter_rows():
+        lines = 1
+        for cell in row:
+            if cell.value is None or cell.fill != _HEAD_FILL:
+                continue
+            width = ws.column_dimensions[get_column_letter(cell.column)].width or 10
+            lines = max(lines, math.ceil(len(str(cell.value)) * 1.15 / max(width - 1, 1)))
+        if lines > 1:
+            height = ws.row_dimensions[row[0].row].height or 15
+            ws.row_dimensions[row[0].row].height = max(height, 15 * lines + 2)
 
 
 def _widths(ws: Worksheet, widths: Sequence[float]) -> None:
@@ -702,6 +718,9 @@ def _circuits(ws: Worksheet, panel: Panel) -> None:
     print_setup(ws, landscape=True, title_rows="1:1")
 
 
+NOTE_WRAP_CHARS = 30
+
+
 def write_circuit_table(
     ws: Worksheet, panel: Panel, header_row: int, shaded: frozenset[str] = frozenset()
 ) -> int:
@@ -728,10 +747,17 @@ def write_circuit_table(
         extra = dict(circuit.extra)
         for col, header in enumerate(extra_headers, start=len(columns) + 1):
             _put(ws, row, col, extra.get(header))
+        for col in range(1, len(columns) + len(extra_headers) + 1):
+            value = ws.cell(row=row, column=col).value
+            if isinstance(value, str) and len(value) > NOTE_WRAP_CHARS and col > 2:
+                ws.cell(row=row, column=col).alignment = _WRAP  # notes wrap, the list stays narrow
+                lines = math.ceil(len(value) / (NOTE_WRAP_CHARS - 4))
+                height = ws.row_dimensions[row].height or 15
+                ws.row_dimensions[row].height = max(height, 15 * lines + 2)
         if circuit.id in shaded:
             for col in range(1, len(columns) + len(extra_headers) + 1):
                 ws.cell(row=row, column=col).fill = _MOVED_FILL
-    width = {"Description": 32, "Notes": 24}
+    width = {"Description": 32, "Notes": 32}
     _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
     return row
 
