@@ -336,7 +336,7 @@ def _facts_block(page: _Page, panel: Panel) -> None:
             else ("main lugs only" if getattr(panel, "main_lugs_only", False) else "not given"),
         ),
     ]
-    block = header_facts(panel.header)
+    block = header_facts(panel.header, neutral=panel.system.neutral)
     left = ratings + block[5:]  # the ratings, the buses
     right = block[:5]  # where it is, what feeds it, its enclosure
     page.text(MARGIN_IN, page.y_in, "System", size=9, weight="bold")

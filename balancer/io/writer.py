@@ -317,9 +317,10 @@ HEADER_KEYS = (
 )
 
 
-def header_facts(header: PanelHeader) -> list[tuple[str, str]]:
+def header_facts(header: PanelHeader, *, neutral: bool = True) -> list[tuple[str, str]]:
     """The title block as a reader sees it, with units: ("SCCR", "22 kA") …; blanks say
-    'not given' so a missing rating is seen as missing."""
+    'not given' so a missing rating is seen as missing. A panel without a neutral (``neutral``
+    false) has no neutral bus row unless the schedule gives one."""
     ground = header.ground_bus or "not given"
     if header.isolated_ground is not None:
         bar = "with isolated ground bar" if header.isolated_ground else "no isolated ground bar"
@@ -334,6 +335,8 @@ def header_facts(header: PanelHeader) -> list[tuple[str, str]]:
         ("Neutral bus", f"{header.neutral_pct:g} %" if header.neutral_pct else ""),
         ("Ground bus", ground),
     ]
+    if not neutral and header.neutral_pct is None:
+        rows = [row for row in rows if row[0] != "Neutral bus"]
     return [(label, value or "not given") for label, value in rows]
 
 
@@ -355,13 +358,14 @@ def revised_header(panel: Panel, balanced_on: str | None = None) -> PanelHeader:
 
 def _panel_facts(panel: Panel) -> list[tuple[str, Any, str | None]]:
     main = _main_text(panel)
+    neutral = panel.system.neutral
     return [
         ("Panel", panel.name, None),
         ("System", panel.system.label(), None),
         ("Spaces", panel.spaces, "0"),
         ("Bus rating", panel.bus_a, '#,##0" A"'),
         ("Main", "main lugs only" if main == "MLO" else main, '#,##0" A"'),
-        *((label, value, None) for label, value in header_facts(panel.header)),
+        *((label, value, None) for label, value in header_facts(panel.header, neutral=neutral)),
         ("Project", panel.header.project or "not given", None),
         ("Date", panel.header.date or "not given", None),
         ("Revision", panel.header.revision_text(), None),
