@@ -152,3 +152,18 @@ def test_wrapping_keeps_every_character_within_the_width() -> None:
     assert len(lines) > 1
     assert "".join(lines).replace(" ", "") == text.replace(" ", "")
     assert all(text_width_in(line, 8.0) <= 1.0 for line in lines)
+
+
+def test_crowded_summary_keeps_the_caution_and_moves_the_chart(tmp_path: Path) -> None:
+    # a dozen skipped total rows make a dozen notices: the chart goes to a page of its own
+    rows = [(i, f"Circuit {i}", 1, 500 + 10 * i) for i in range(1, 30)]
+    rows += [(None, f"TOTAL {i}", None, 100) for i in range(14)]
+    panel = read_schedule(write_schedule(tmp_path / "p.xlsx", rows, panel={"Spaces": 42}))
+    result = balance(panel)
+    pdf = write_pdf(tmp_path / "p.pdf", result.after_panel, result.after, result=result)
+    reader = PdfReader(pdf)
+    first, second = (" ".join(reader.pages[i].extract_text().split()) for i in (0, 1))
+    assert "Caution" in first
+    assert "authority having jurisdiction" in first
+    assert "Load per line before and after balancing (VA)" in second
+    assert "(continued)" in second

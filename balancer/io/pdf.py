@@ -283,9 +283,9 @@ def _summary_page(
     loads: Loads,
     result: BalanceResult | None,
     demand: DemandResult | None = None,
-) -> None:
+) -> bool:
     """The first page: the panel's facts, its per-line table, its figures, the bar chart and
-    the cautions."""
+    the cautions. False when the chart did not fit above the caution and is still to draw."""
     page.heading(f"Panel {panel.name}", size=15)
     _facts_block(page, panel)
     page.heading("Per-line figures", size=11)
@@ -318,10 +318,11 @@ def _summary_page(
     # the chart gives way to the caution, which must end above the footer
     caution_in = 0.45 + len(wrap_to_width(CAUTION, 8.5, page.width_in - 2 * MARGIN_IN)) * 0.17
     chart_in = min(2.3, page.room_in - caution_in - 0.4)
-    if chart_in >= 1.2:
+    if chart_in >= 1.6:
         _bar_chart(page, panel, loads, result, chart_in)
         page.y_in += 0.4
     _cautions(page)
+    return chart_in >= 1.6
 
 
 def _facts_block(page: _Page, panel: Panel) -> None:
@@ -777,8 +778,13 @@ def pdf_pages(
         return _new_page(paper, panel)
 
     first = make()
-    _summary_page(first, panel, loads, result, demand)
     pages.append(first)
+    if not _summary_page(first, panel, loads, result, demand):
+        chart = make()  # notices took the room: the chart on a page of its own
+        chart.heading(f"Panel {panel.name} (continued)")
+        chart.y_in += 0.45
+        _bar_chart(chart, panel, loads, result)
+        pages.append(chart)
     _directory_pages(pages, make, panel)
     if order is not None and order.steps:
         _work_order_pages(pages, make, panel.name, order)
