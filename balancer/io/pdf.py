@@ -21,6 +21,7 @@ from balancer.io.writer import (
     ExtraSheet,
     header_facts,
     revised_header,
+    row_has_tenths,
     row_role,
     title_block,
 )
@@ -741,6 +742,8 @@ def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]
             elif long_text:
                 page.paragraph(f"{values[0]}: {values[1]}", size=size)
             else:
+                if row_has_tenths(values):  # one place of decimals across the row
+                    values = [f"{v:,.1f}" if isinstance(v, float) else v for v in values]
                 page.data_row(values, widths, size=size, align=align)
             previous = "data" if role == "header" else role
         pages.append(page)

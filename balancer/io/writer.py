@@ -744,6 +744,10 @@ def write_circuit_table(
             if header not in extra_headers:
                 extra_headers.append(header)
     _header(ws, header_row, [name for name, _, _ in columns] + extra_headers)
+    names = [name for name, _, _ in columns] + extra_headers
+    wrapped = [  # free text wraps; the description stays on one line, its column sized to it
+        col for col, name in enumerate(names, start=1) if col > len(columns) or name == "Notes"
+    ]
     row = header_row
     for row, circuit in enumerate(panel.circuits, start=header_row + 1):
         for col, (_, get, fmt) in enumerate(columns, start=1):
@@ -751,9 +755,9 @@ def write_circuit_table(
         extra = dict(circuit.extra)
         for col, header in enumerate(extra_headers, start=len(columns) + 1):
             _put(ws, row, col, extra.get(header))
-        for col in range(1, len(columns) + len(extra_headers) + 1):
+        for col in wrapped:
             value = ws.cell(row=row, column=col).value
-            if isinstance(value, str) and len(value) > NOTE_WRAP_CHARS and col > 2:
+            if isinstance(value, str) and len(value) > NOTE_WRAP_CHARS:
                 ws.cell(row=row, column=col).alignment = _WRAP  # notes wrap, the list stays narrow
                 lines = math.ceil(len(value) / (NOTE_WRAP_CHARS - 4))
                 height = ws.row_dimensions[row].height or 15
@@ -869,6 +873,12 @@ def row_role(values: Sequence[Any]) -> str:
     return "data"
 
 
+def row_has_tenths(values: Sequence[Any]) -> bool:
+    """Whether a row of figures has one with a fraction: then all its decimals are shown to one
+    place ("148.0  145.8", not "148  145.8")."""
+    return any(isinstance(v, float) and not v.is_integer() for v in values)
+
+
 LONG_TEXT_CHARS = 40
 COLUMN_CHARS_MAX = 40
 
@@ -895,10 +905,11 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
             chars = int(sum(widths[1:span])) or 60
             _long_text(ws, r, 2, values[1], last_col=span, chars_per_line=max(30, chars))
             continue
+        tenths = row_has_tenths(values)
         for c, value in enumerate(values, start=1):
             cell = ws.cell(row=r, column=c, value=value)
             if isinstance(value, float):
-                cell.number_format = VA if value.is_integer() else "#,##0.0"
+                cell.number_format = "#,##0.0" if tenths else VA
             elif isinstance(value, int) and not isinstance(value, bool):
                 cell.number_format = VA
             if c == 1 and isinstance(value, str):
