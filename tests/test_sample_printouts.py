@@ -57,6 +57,7 @@ def test_pdf_pages_carry_the_title_block(
             assert HIGH_LEG in text, f"page {number} does not name the high leg"
         if sample.stem.startswith("clinic"):
             assert BASIS in text, f"page {number} does not state the load basis"
+    _no_text_runs_over(book)
     # the printed workbook: every sheet's page header carries the same
     for ws in load_workbook(book).worksheets:
         parts = (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right)
@@ -80,3 +81,26 @@ def test_samples_carry_their_title_blocks() -> None:
         assert header.sccr_ka is not None, sample.name
         assert header.enclosure.startswith("NEMA "), sample.name
         assert header.mounting in ("surface", "flush"), sample.name
+
+
+def _no_text_runs_over(book: Path) -> None:
+    """No cell's text is wider than its column unless it wraps, is merged across columns, or
+    is a sheet's one-cell title or note row (text there runs over empty cells)."""
+    for ws in load_workbook(book).worksheets:
+        merged = {
+            (r, c)
+            for area in ws.merged_cells.ranges
+            for r in range(area.min_row, area.max_row + 1)
+            for c in range(area.min_col, area.max_col + 1)
+        }
+        for row in ws.iter_rows():
+            filled = [cell for cell in row if cell.value is not None]
+            if len(filled) == 1 and filled[0].column == 1:
+                continue
+            for cell in filled:
+                if (cell.row, cell.column) in merged or cell.alignment.wrap_text:
+                    continue
+                value = cell.value
+                shown = f"{value:,.1f}" if isinstance(value, float) else str(value)
+                width = ws.column_dimensions[cell.column_letter].width or 8.43  # the default
+                assert len(shown) <= width, f"{ws.title}!{cell.coordinate}: {shown!r}"

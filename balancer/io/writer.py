@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import io
 import math
+import re
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -204,10 +205,10 @@ def _shown_width(cell: Any) -> float:
         return 0.0
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         text = str(value)
-    elif "0.0" in str(cell.number_format):
-        text = f"{value:,.2f}"
     else:
-        text = f"{value:,.0f}" + (" A" if '" A"' in str(cell.number_format) else "")
+        places = 2 if "0.0" in str(cell.number_format) else 0
+        unit = re.search(r'"([^"]*)"', str(cell.number_format))  # a unit the format adds
+        text = f"{value:,.{places}f}" + (unit.group(1) if unit else "")
     bold = 1.1 if cell.font is not None and cell.font.b else 1.0
     return len(text) * bold
 
@@ -236,7 +237,7 @@ def fit_columns(ws: Worksheet) -> None:
             if (cell.row, cell.column) in merged:
                 continue
             if cell.alignment is not None and cell.alignment.wrap_text:
-                if cell.fill is _HEAD_FILL or cell.fill == _HEAD_FILL:
+                if cell.fill == _HEAD_FILL:
                     longest = max((len(w) for w in str(cell.value).split()), default=0)
                     width = longest * 1.15 + 2
                 else:
