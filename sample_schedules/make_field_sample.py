@@ -433,7 +433,25 @@ ROWS: list[list[object]] = [
         "new circuit",
     ],
 ]
-PANEL = {"Name": "LP-2", "System": "208Y/120", "Spaces": 30, "Bus": 225, "Main": 200}
+PANEL = {
+    "Name": "LP-2",
+    "System": "208Y/120",
+    "Spaces": 30,
+    "Bus": 225,
+    "Main": 200,
+    "Location": "Corridor 1, recessed in wall by exam 4",
+    "Fed from": "MDP, circuit 12",
+    "Feeder": "4 #4/0 AWG Cu + #4 AWG Cu ground, 2-1/2 in EMT",
+    "Mounting": "flush",
+    "Enclosure": "NEMA 1",
+    "SCCR (kA)": 10,
+    "Neutral bus": "100 %",
+    "Ground bus": "yes",
+    "Isolated ground bar": "no",
+    "Project": "Maple Street Family Clinic, exam 9 fit-out (demo)",
+    "Date": "2026-11-24",
+    "Revision": "3",
+}
 
 
 def build(path: Path) -> Path:
@@ -458,8 +476,8 @@ def build(path: Path) -> Path:
     for key, value in PANEL.items():
         info.append([key, value])
     info.append(["Note", DEMO])
-    info.column_dimensions["A"].width = 12
-    info.column_dimensions["B"].width = 40
+    info.column_dimensions["A"].width = 20
+    info.column_dimensions["B"].width = 48
     handle, temp = tempfile.mkstemp(suffix=".xlsx", dir=path.parent)
     os.close(handle)
     try:

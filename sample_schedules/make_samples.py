@@ -52,8 +52,8 @@ def _write_xlsx(path: Path, title: str, panel: dict[str, object], rows: list[lis
     for key, value in panel.items():
         info.append([key, value])
     info.append(["Note", DEMO])
-    info.column_dimensions["A"].width = 12
-    info.column_dimensions["B"].width = 40
+    info.column_dimensions["A"].width = 20
+    info.column_dimensions["B"].width = 48
     book.save(path)
 
 
@@ -720,25 +720,97 @@ def main() -> None:
     _write_xlsx(
         HERE / "office-208y120.xlsx",
         "Harbourview Offices - Level 3 - Panel L3A (demo data)",
-        {"Name": "L3A", "System": "208Y/120", "Spaces": 42, "Bus": 225, "Main": "MLO"},
+        {
+            "Name": "L3A",
+            "System": "208Y/120",
+            "Spaces": 42,
+            "Bus": 225,
+            "Main": "MLO",
+            "Location": "Level 3 electrical room 3.01",
+            "Fed from": "DP-3, circuit 7",
+            "Feeder": "4 #4/0 AWG Cu + #4 AWG Cu ground, 2-1/2 in EMT",
+            "Mounting": "surface",
+            "Enclosure": "NEMA 1",
+            "SCCR (kA)": 22,
+            "Neutral bus": "200 %",
+            "Ground bus": "yes",
+            "Isolated ground bar": "yes",
+            "Project": "Harbourview Offices level 3 refit (demo)",
+            "Date": "2026-11-16",
+            "Revision": "2",
+        },
         OFFICE,
     )
     _write_xlsx(
         HERE / "workshop-480y277.xlsx",
         "Ridgeline Fabrication - Shop panel H1 (demo data)",
-        {"Name": "H1", "System": "480Y/277", "Spaces": 30, "Bus": 400, "Main": 250},
+        {
+            "Name": "H1",
+            "System": "480Y/277",
+            "Spaces": 30,
+            "Bus": 400,
+            "Main": 250,
+            "Location": "Shop floor, column line C4",
+            "Fed from": "MSB, circuit 3",
+            "Feeder": "4 #250 kcmil Cu + #4 AWG Cu ground, 3 in RMC",
+            "Mounting": "surface",
+            "Enclosure": "NEMA 12",
+            "SCCR (kA)": "35 kA",
+            "Neutral bus": "100 %",
+            "Ground bus": "yes",
+            "Isolated ground bar": "no",
+            "Project": "Ridgeline Fabrication shop (demo)",
+            "Date": "2026-10-30",
+            "Revision": "C",
+        },
         SHOP,
     )
     _write_xlsx(
         HERE / "bakery-120-240.xlsx",
         "Corner bakery unit - Tenant panel T2 (demo data)",
-        {"Name": "T2", "System": "120/240", "Spaces": 24, "Bus": 200, "Main": 150},
+        {
+            "Name": "T2",
+            "System": "120/240",
+            "Spaces": 24,
+            "Bus": 200,
+            "Main": 150,
+            "Location": "Bakery back of house",
+            "Fed from": "Meter centre MC-1, unit 4",
+            "Feeder": "3 #1/0 AWG Al + #6 AWG Cu ground",
+            "Mounting": "flush",
+            "Enclosure": "NEMA 1",
+            "SCCR (kA)": "10,000 AIC",
+            "Neutral bus": "100 %",
+            "Ground bus": "yes",
+            "Isolated ground bar": "no",
+            "Project": "Corner bakery tenant fit-out (demo)",
+            "Date": "2026-09-08",
+            "Revision": "1",
+        },
         BAKERY,
     )
     _write_xlsx(
         HERE / "machine-shop-240-120-high-leg.xlsx",
         "Old Mill machine shop - Panel MS (demo data)",
-        {"Name": "MS", "System": "240/120", "Spaces": 30, "Bus": 225, "Main": 200},
+        {
+            "Name": "MS",
+            "System": "240/120",
+            "Spaces": 30,
+            "Bus": 225,
+            "Main": 200,
+            "Location": "Machine shop, north wall",
+            "Fed from": "Utility service, 240/120 V delta bank",
+            "Feeder": "4 #3/0 AWG Cu + #6 AWG Cu ground, 2 in RMC",
+            "Mounting": "surface",
+            "Enclosure": "NEMA 1",
+            "SCCR (kA)": "22 kAIC",
+            "Neutral bus": "100 %",
+            "Ground bus": "yes",
+            "Isolated ground bar": "no",
+            "Project": "Old Mill machine shop survey (demo)",
+            "Date": "2026-11-02",
+            "Revision": "0",
+        },
         MILL,
     )
     with (HERE / "salon-208y120.csv").open("w", newline="", encoding="utf-8") as handle:

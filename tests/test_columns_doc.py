@@ -66,3 +66,38 @@ def test_documented_header_is_recognised(written: str, header: str, unit: str) -
     assert found is not None, f"{written!r} (documented for {header!r}) is not recognised"
     assert _meaning(found[0].key, found[1]) == _meaning(spec.key, spec.scale)
     assert _meaning(found[0].key, found[1])[1] == (1000.0 if unit.lower() == "kva" else 1.0)
+
+
+def _documented_panel_keys() -> list[tuple[str, list[str]]]:
+    text = DOC.read_text(encoding="utf-8")
+    table = text.split("<!-- panel:start -->")[1].split("<!-- panel:end -->")[0]
+    rows = []
+    for line in table.strip().splitlines()[2:]:
+        cells = [cell.strip() for cell in line.strip().strip("|").split("|")]
+        rows.append((cells[0], re.findall(r"`([^`]+)`", cells[1])))
+    return rows
+
+
+def test_the_document_lists_panel_keys() -> None:
+    from balancer.io.columns import PANEL_KEYS, format_panel_table_markdown
+
+    rows = _documented_panel_keys()
+    assert [label for label, _ in rows] == [spec.label for spec in PANEL_KEYS]
+    table = DOC.read_text(encoding="utf-8").split("<!-- panel:start -->")[1]
+    assert table.split("<!-- panel:end -->")[0].strip() == format_panel_table_markdown().strip()
+
+
+@pytest.mark.parametrize(
+    ("written", "label"),
+    [
+        (name, label)
+        for label, spellings in _documented_panel_keys()
+        for name in dict.fromkeys([label, f"{label}:", *spellings])
+    ],
+)
+def test_documented_panel_key_is_recognised(written: str, label: str) -> None:
+    from balancer.io.columns import panel_key
+
+    found = panel_key(written.rstrip(":"))
+    assert found is not None, f"{written!r} (documented for {label!r}) is not recognised"
+    assert found.label == label

@@ -163,6 +163,42 @@ class Circuit:
 
 
 @dataclass(frozen=True, slots=True)
+class PanelHeader:
+    """What a schedule's title block says of the panel beyond its ratings: where it is, what
+    feeds it, its enclosure and buses, and the project, date and revision of the schedule.
+
+    Text is as the schedule writes it (blank when not given); ``sccr_ka`` is the short-circuit
+    current rating in kA, ``neutral_pct`` the neutral bus rating as a percentage of the phase
+    bus, ``mounting`` one of surface / flush / semi-flush, ``enclosure`` a NEMA type written
+    ``NEMA 3R``. ``balanced`` is what balancer writes on a revised schedule (the date it was
+    balanced), kept when the revised schedule is read again.
+    """
+
+    location: str = ""
+    fed_from: str = ""
+    feeder: str = ""
+    mounting: str = ""
+    enclosure: str = ""
+    sccr_ka: float | None = None
+    neutral_pct: float | None = None
+    ground_bus: str = ""
+    isolated_ground: bool | None = None
+    project: str = ""
+    date: str = ""
+    revision: str = ""
+    balanced: str = ""
+
+    def revision_text(self, balanced_on: str = "") -> str:
+        """The revision as a title block shows it: ``"2, balanced 2026-12-02"``; the schedule's
+        own revision is kept and the balancing date added, never a number made up."""
+        balanced = balanced_on or self.balanced
+        parts = [self.revision or "not given"]
+        if balanced:
+            parts.append(f"balanced {balanced}")
+        return ", ".join(parts)
+
+
+@dataclass(frozen=True, slots=True)
 class Panel:
     """A panelboard and its branch circuits, as read; never mutated (results are new objects)."""
 
@@ -175,6 +211,7 @@ class Panel:
     main_lugs_only: bool = False
     source: str = ""
     notices: tuple[str, ...] = field(default=())
+    header: PanelHeader = PanelHeader()
 
     @property
     def geometry(self) -> Geometry:

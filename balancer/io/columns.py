@@ -291,3 +291,196 @@ def format_table_markdown() -> str:
             f"| {spec.description} |"
         )
     return "\n".join(lines)
+
+
+PanelKind = Literal[
+    "text", "count", "amps", "system", "main", "ka", "mounting", "nema", "pct", "flag"
+]
+
+
+@dataclass(frozen=True, slots=True)
+class PanelKeySpec:
+    """One panel attribute: read from a Panel sheet ('Name | LP-1') or a title row above the
+    circuit table ('System: 208Y/120'), and written back under ``label``."""
+
+    key: str
+    label: str  # the spelling balancer writes on the Panel sheet
+    spellings: tuple[str, ...]  # accepted, compared after normalise()
+    kind: PanelKind
+    example: str
+    description: str
+
+
+PANEL_KEYS: tuple[PanelKeySpec, ...] = (
+    PanelKeySpec(
+        "name",
+        "Name",
+        ("name", "panel", "panelname", "designation", "panelboard"),
+        "text",
+        "L3A",
+        "the panel's designation",
+    ),
+    PanelKeySpec(
+        "system",
+        "System",
+        ("system", "voltage", "service", "volts", "supply"),
+        "system",
+        "208Y/120, 480Y/277, 400Y/230, 120/240, 240/120, 480 delta",
+        "the voltage system",
+    ),
+    PanelKeySpec(
+        "spaces",
+        "Spaces",
+        ("spaces", "spacecount", "circuits", "numberofspaces", "poles", "size"),
+        "count",
+        "42",
+        "number of breaker spaces",
+    ),
+    PanelKeySpec(
+        "bus",
+        "Bus",
+        ("bus", "busrating", "busa", "busamps", "bussing"),
+        "amps",
+        "225",
+        "bus rating in A",
+    ),
+    PanelKeySpec(
+        "main",
+        "Main",
+        ("main", "mainbreaker", "maina", "mains", "mainrating", "mainocpd"),
+        "main",
+        "200, or MLO",
+        "main breaker in A, or MLO for main lugs only",
+    ),
+    PanelKeySpec(
+        "location",
+        "Location",
+        ("location", "loc", "room", "panellocation", "mountedin"),
+        "text",
+        "Electrical room 3.01",
+        "where the panel is",
+    ),
+    PanelKeySpec(
+        "fed_from",
+        "Fed from",
+        ("fedfrom", "source", "suppliedfrom", "feedfrom", "fed"),
+        "text",
+        "MDP-1, circuit 4",
+        "the panel or switchboard that feeds it",
+    ),
+    PanelKeySpec(
+        "feeder",
+        "Feeder",
+        ("feeder", "feeders", "feederconductors", "feedersize", "feedercable"),
+        "text",
+        '4 #4/0 AWG Cu + #4 AWG Cu G in 2" EMT',
+        "feeder conductors and their size",
+    ),
+    PanelKeySpec(
+        "mounting",
+        "Mounting",
+        ("mounting", "mount", "mounted", "installation"),
+        "mounting",
+        "surface, flush, semi-flush",
+        "how the enclosure is mounted",
+    ),
+    PanelKeySpec(
+        "enclosure",
+        "Enclosure",
+        ("enclosure", "enclosuretype", "nema", "nematype", "nemaenclosure", "nemarating"),
+        "nema",
+        "NEMA 1, 3R, 4X, 12",
+        "the enclosure's NEMA type (NEMA 250)",
+    ),
+    PanelKeySpec(
+        "sccr_ka",
+        "SCCR (kA)",
+        (
+            "sccr",
+            "aic",
+            "kaic",
+            "shortcircuitrating",
+            "shortcircuitcurrentrating",
+            "interruptingrating",
+            "aicrating",
+            "withstandrating",
+            "scr",
+            "faultrating",
+        ),
+        "ka",
+        "22 kA, 10,000 AIC, 65",
+        "short-circuit current rating in kA (a figure of 1,000 or more is read as amperes)",
+    ),
+    PanelKeySpec(
+        "neutral_pct",
+        "Neutral bus (%)",
+        ("neutralbus", "neutral", "neutralrating", "neutralbusrating", "neutralpct"),
+        "pct",
+        "100 %, 200 %",
+        "neutral bus rating as a percentage of the phase bus",
+    ),
+    PanelKeySpec(
+        "ground_bus",
+        "Ground bus",
+        ("groundbus", "ground", "groundbar", "egcbus", "grounding"),
+        "text",
+        "yes, bonded to enclosure",
+        "the equipment grounding bus",
+    ),
+    PanelKeySpec(
+        "isolated_ground",
+        "Isolated ground bar",
+        ("isolatedgroundbar", "isolatedground", "igbar", "igbus", "isolatedgroundbus", "ig"),
+        "flag",
+        "yes / no",
+        "an isolated ground bar is fitted",
+    ),
+    PanelKeySpec(
+        "project",
+        "Project",
+        ("project", "projectname", "job", "jobname", "site"),
+        "text",
+        "Harbourview Offices fit-out",
+        "the project",
+    ),
+    PanelKeySpec(
+        "date",
+        "Date",
+        ("date", "issued", "issuedate", "dateissued", "scheduledate"),
+        "text",
+        "2026-11-20",
+        "the date of the schedule (a date cell is written as YYYY-MM-DD)",
+    ),
+    PanelKeySpec(
+        "revision",
+        "Revision",
+        ("revision", "rev", "revno", "issue"),
+        "text",
+        "2",
+        "the schedule's revision; a revised schedule keeps it and adds a Balanced line",
+    ),
+    PanelKeySpec(
+        "balanced",
+        "Balanced",
+        ("balanced", "balancedon", "rebalanced"),
+        "text",
+        "2026-12-02 by balancer",
+        "written by balancer: the date a revised schedule was balanced; kept when read",
+    ),
+)
+
+PANEL_BY_KEY = {spec.key: spec for spec in PANEL_KEYS}
+
+
+def panel_key(text: str) -> PanelKeySpec | None:
+    """The panel attribute a label means ('Fed from:', 'SCCR (kA)'); None when not one."""
+    name = normalise(text)[0]
+    return next((spec for spec in PANEL_KEYS if name in spec.spellings), None)
+
+
+def format_panel_table_markdown() -> str:
+    lines = ["| key | also accepted | example | meaning |", "|---|---|---|---|"]
+    for spec in PANEL_KEYS:
+        also = ", ".join(f"`{s}`" for s in spec.spellings)
+        lines.append(f"| {spec.label} | {also} | {spec.example} | {spec.description} |")
+    return "\n".join(lines)

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cache
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
@@ -19,7 +19,11 @@ from balancer.io.files import atomic, refuse_input_path
 from balancer.io.writer import (
     STATUS_TEXT,
     ExtraSheet,
+    header_facts,
+    revised_header,
+    row_has_tenths,
     row_role,
+    title_block,
 )
 from balancer.physics.analysis import Loads, share_by_line
 from balancer.report.safety import CAUTION, CAUTIONS
@@ -76,12 +80,17 @@ class _Page:
         self.text(MARGIN_IN, self.y_in, text, size=size, weight="bold", color=_HEAD)
         self.y_in += size / _POINTS * 1.6
 
-    def paragraph(self, text: str, size: float = 8.5, width_chars: int = 110) -> None:
-        import textwrap
-
-        for part in textwrap.wrap(text, width_chars) or [""]:
-            self.text(MARGIN_IN, self.y_in, part, size=size)
+    def paragraph(self, text: str, size: float = 8.5, indent_in: float = 0.0) -> None:
+        """Text wrapped to the page width, measured in the font, never cut."""
+        room = self.width_in - 2 * MARGIN_IN - indent_in
+        for part in wrap_to_width(text, size, room) or [""]:
+            self.text(MARGIN_IN + indent_in, self.y_in, part, size=size)
             self.y_in += size / _POINTS * 1.35
+
+    @property
+    def room_in(self) -> float:
+        """Height left above the footer."""
+        return self.height_in - MARGIN_IN - 0.35 - self.y_in
 
     def table(
         self,
@@ -92,7 +101,7 @@ class _Page:
         size: float = 8.5,
         align: Sequence[str] | None = None,
     ) -> None:
-        """Rows of cells; text is cut with an ellipsis where it would overflow its column."""
+        """Rows of cells; text too long for its column wraps onto more lines in its row."""
         align = align or ["left"] * len(header)
         self.header_band(header, widths_in, size=size, align=align)
         for row in rows:
@@ -109,40 +118,83 @@ class _Page:
     ) -> None:
         step = size / _POINTS * 1.55
         x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
-        self.rect(MARGIN_IN, self.y_in - 0.03, sum(widths_in), step, _HEAD)
-        for x, w, title, how in zip(x_positions, widths_in, header, align, strict=False):
-            self._cell(x, w, title, size, how, color="white", weight="bold")
-        self.y_in += step
+        cells = [
+            wrap_to_width(title, size * 1.05, w - 0.1) or [""]  # bold is a little wider
+            for title, w in zip(header, widths_in, strict=False)
+        ]
+        lines = max((len(c) for c in cells), default=1)
+        height = step + (lines - 1) * size / _POINTS * 1.2
+        self.rect(MARGIN_IN, self.y_in - 0.03, sum(widths_in), height, _HEAD)
+        for x, w, parts, how in zip(x_positions, widths_in, cells, align, strict=False):
+            self._cell(x, w, parts, size, how, color="white", weight="bold")
+        self.y_in += height
 
     def data_row(
         self, row: Sequence[Any], widths_in: Sequence[float], *, size: float, align: Sequence[str]
     ) -> None:
         step = size / _POINTS * 1.55
         x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
-        for x, w, value, how in zip(x_positions, widths_in, row, align, strict=False):
+        cells = [
+            wrap_to_width(_fmt(v), size, w - 0.1) for v, w in zip(row, widths_in, strict=False)
+        ]
+        for x, w, value, parts, how in zip(x_positions, widths_in, row, cells, align, strict=False):
             if how == "auto":  # numbers right, text left
                 number = isinstance(value, (int, float)) and not isinstance(value, bool)
                 how = "right" if number else "left"
-            self._cell(x, w, _fmt(value), size, how)
-        self.y_in += step
+            self._cell(x, w, parts, size, how)
+        self.y_in += step + (max((len(c) for c in cells), default=1) - 1) * size / _POINTS * 1.2
         self.line(MARGIN_IN, MARGIN_IN + sum(widths_in), self.y_in - 0.04)
 
     @property
     def full(self) -> bool:
         return self.y_in > self.height_in - MARGIN_IN - 0.5
 
-    def _cell(self, x: float, w: float, text: str, size: float, how: str, **kw: Any) -> None:
-        room_in = w - 0.1
-        if text_width_in(text, size) > room_in:
-            while text and text_width_in(text + "…", size) > room_in:
-                text = text[:-1]
-            text += "…"
-        if how in ("right", "auto"):
-            self.text(x + w - 0.05, self.y_in, text, size=size, ha="right", **kw)
-        elif how == "center":
-            self.text(x + w / 2, self.y_in, text, size=size, ha="center", **kw)
-        else:
-            self.text(x + 0.05, self.y_in, text, size=size, **kw)
+    def _cell(
+        self, x: float, w: float, parts: Sequence[str], size: float, how: str, **kw: Any
+    ) -> None:
+        """One cell's lines (already wrapped to its width), top down from the row's top."""
+        for n, text in enumerate(parts):
+            y = self.y_in + n * size / _POINTS * 1.2
+            if how in ("right", "auto"):
+                self.text(x + w - 0.05, y, text, size=size, ha="right", **kw)
+            elif how == "center":
+                self.text(x + w / 2, y, text, size=size, ha="center", **kw)
+            else:
+                self.text(x + 0.05, y, text, size=size, **kw)
+
+
+def wrap_to_width(text: str, size: float, room_in: float) -> list[str]:
+    """``text`` in lines no wider than ``room_in`` at ``size`` points: broken at spaces (and
+    after commas, hyphens and slashes), a word longer than the room broken where it must.
+    Nothing is dropped."""
+    if not text:
+        return []
+    if text_width_in(text, size) <= room_in:
+        return [text]
+    import re
+
+    lines: list[str] = []
+    current = ""
+    for word in re.findall(r"\S+\s*", text):
+        pieces = [word]
+        if text_width_in(word.rstrip(), size) > room_in:  # break at , - / first, then anywhere
+            pieces = [p for p in re.split(r"(?<=[,/-])", word) if p]
+        for piece in pieces:
+            trial = current + piece
+            if current and text_width_in(trial.rstrip(), size) > room_in:
+                lines.append(current.rstrip())
+                current = ""
+                trial = piece
+            while text_width_in(trial.rstrip(), size) > room_in and len(trial) > 1:
+                cut = len(trial) - 1
+                while cut > 1 and text_width_in(trial[:cut], size) > room_in:
+                    cut -= 1
+                lines.append(trial[:cut])
+                trial = trial[cut:]
+            current = trial
+    if current.strip():
+        lines.append(current.rstrip())
+    return lines
 
 
 def _line2d(xs: list[float], ys: list[float], colour: str, lw: float) -> Any:
@@ -200,6 +252,7 @@ def _new_page(paper: Paper, panel: Panel) -> _Page:
     page.text(
         width - MARGIN_IN, height - 0.45, f"Panel {panel.name}", size=7, color=_GREY, ha="right"
     )
+    _running_header(page, panel)
     if any(c.balance_va is not None for c in panel.circuits):
         # every page says so: these figures are not the schedule's design loads
         page.text(
@@ -212,15 +265,28 @@ def _new_page(paper: Paper, panel: Panel) -> _Page:
     return page
 
 
+def _running_header(page: _Page, panel: Panel) -> None:
+    """Every page's header: the project, the date and revision, and the panel with its system
+    (which names the high leg of a high-leg delta panel, NEC 110.15)."""
+    project, issue = title_block(panel.header)
+    right = page.width_in - MARGIN_IN
+    page.text(right, 0.25, issue, size=7, color=_GREY, ha="right")
+    room = page.width_in - 2 * MARGIN_IN - text_width_in(issue, 7) - 0.2
+    page.text(MARGIN_IN, 0.25, (wrap_to_width(project, 7, room) or [""])[0], size=7, color=_GREY)
+    system = f"Panel {panel.name}: {panel.system.label()}"
+    page.text(MARGIN_IN, 0.37, system, size=7, color=_HEAD, weight="bold")
+    page.line(MARGIN_IN, right, 0.5)
+
+
 def _summary_page(
     page: _Page,
     panel: Panel,
     loads: Loads,
     result: BalanceResult | None,
     demand: DemandResult | None = None,
-) -> None:
+) -> bool:
     """The first page: the panel's facts, its per-line table, its figures, the bar chart and
-    the cautions."""
+    the cautions. False when the chart did not fit above the caution and is still to draw."""
     page.heading(f"Panel {panel.name}", size=15)
     _facts_block(page, panel)
     page.heading("Per-line figures", size=11)
@@ -228,6 +294,8 @@ def _summary_page(
         _before_after_table(page, panel, loads, result)
     else:
         _line_table(page, panel, loads)
+    if result is not None:
+        _before_after_figures(page, panel, loads, result)
     _figure_lines(page, _panel_figures(panel, loads, result))
     if demand is not None:
         feeder = demand.feeder
@@ -247,30 +315,55 @@ def _summary_page(
         )
     if loads.unplaced:
         page.paragraph("Not placed, left out of the figures: " + ", ".join(loads.unplaced))
-    page.y_in += 0.35
-    _bar_chart(page, panel, loads, result)
-    page.y_in += 0.4
+    page.y_in += 0.45
+    # the chart gives way to the caution, which must end above the footer
+    caution_in = 0.45 + len(wrap_to_width(CAUTION, 8.5, page.width_in - 2 * MARGIN_IN)) * 0.17
+    chart_in = min(2.3, page.room_in - caution_in - 0.4)
+    if chart_in >= 1.6:
+        _bar_chart(page, panel, loads, result, chart_in)
+        page.y_in += 0.4
     _cautions(page)
+    return chart_in >= 1.6
 
 
 def _facts_block(page: _Page, panel: Panel) -> None:
     """The panel's ratings and schedule, then the reader's notices."""
-    facts = [
-        ("System", panel.system.label()),
+    ratings = [
         ("Spaces", str(panel.spaces)),
-        ("Bus rating", f"{panel.bus_a:g} A" if panel.bus_a else "not given"),
+        ("Bus rating", f"{panel.bus_a:,g} A" if panel.bus_a else "not given"),
         (
             "Main",
-            f"{panel.main_a:g} A"
+            f"{panel.main_a:,g} A"
             if panel.main_a
             else ("main lugs only" if getattr(panel, "main_lugs_only", False) else "not given"),
         ),
-        ("Schedule", panel.source or "not given"),
     ]
-    for label, value in facts:
-        page.text(MARGIN_IN, page.y_in, label, size=9, weight="bold")
-        page.text(MARGIN_IN + 1.3, page.y_in, value, size=9)
-        page.y_in += 0.19
+    block = header_facts(panel.header, neutral=panel.system.neutral)
+    left = ratings + block[5:]  # the ratings, the buses
+    right = block[:5]  # where it is, what feeds it, its enclosure
+    page.text(MARGIN_IN, page.y_in, "System", size=9, weight="bold")
+    page.text(MARGIN_IN + 1.3, page.y_in, panel.system.label(), size=9)
+    page.y_in += 0.19
+    top = page.y_in
+    half = (page.width_in - 2 * MARGIN_IN) / 2
+    ends = []
+    for x, facts, label_in in ((MARGIN_IN, left, 1.3), (MARGIN_IN + half, right, 0.85)):
+        page.y_in = top
+        for label, value in facts:
+            label_lines = wrap_to_width(label, 9 * 1.08, label_in - 0.1) or [""]  # bold
+            lines = wrap_to_width(value, 9, half - label_in - 0.15) or [""]
+            for n, text in enumerate(label_lines):
+                page.text(x, page.y_in + n * 0.15, text, size=9, weight="bold")
+            for n, text in enumerate(lines):
+                page.text(x + label_in, page.y_in + n * 0.15, text, size=9)
+            page.y_in += 0.19 + 0.15 * (max(len(lines), len(label_lines)) - 1)
+        ends.append(page.y_in)
+    page.y_in = max(ends)
+    page.text(MARGIN_IN, page.y_in, "Schedule", size=9, weight="bold")
+    for text in wrap_to_width(panel.source or "not given", 9, page.width_in - 2 * MARGIN_IN - 1.3):
+        page.text(MARGIN_IN + 1.3, page.y_in, text, size=9)
+        page.y_in += 0.17
+    page.y_in += 0.02
     for notice in panel.notices:
         page.paragraph(f"Notice: {notice}")
     page.y_in += 0.1
@@ -278,7 +371,7 @@ def _facts_block(page: _Page, panel: Panel) -> None:
 
 def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: BalanceResult) -> None:
     """Each line's load and current before and after balancing, and the neutral's."""
-    header = ["Line", "Before VA", "After VA", "Before A RMS", "After A RMS"]
+    header = ["Line", "Before (VA)", "After (VA)", "Before (A RMS)", "After (A RMS)"]
     rows: list[list[Any]] = [
         [
             line,
@@ -299,7 +392,7 @@ def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: Balance
 
 def _line_table(page: _Page, panel: Panel, loads: Loads) -> None:
     """Each line's load, current and deviation from the average, and the neutral's current."""
-    header = ["Line", "Load VA", "Current A RMS", "Deviation from average"]
+    header = ["Line", "Load (VA)", "Current (A RMS)", "Deviation from average"]
     average = loads.total_va / len(panel.lines)
     rows: list[list[Any]] = [
         [
@@ -320,15 +413,9 @@ def _panel_figures(
     panel: Panel, loads: Loads, result: BalanceResult | None
 ) -> list[tuple[str, str]]:
     """The whole panel's figures, and how the balancing ended when there was one."""
-    figures = [
-        ("Total load", f"{loads.total_va:,.0f} VA"),
-        ("Spread (heaviest − lightest line)", f"{loads.spread_va:,.0f} VA"),
-        ("Imbalance (NEMA MG 1 definition)", f"{loads.imbalance_pct:.1f} %"),
-    ]
-    if loads.unbalance_factor_pct is not None:
-        figures.append(("Current unbalance |I2|/|I1|", f"{loads.unbalance_factor_pct:.1f} %"))
-    if panel.system.neutral and abs(loads.neutral_amps - loads.neutral_a) > 0.05:
-        figures.append(("Neutral at the fundamental only", f"{loads.neutral_a:,.1f} A"))
+    figures: list[tuple[str, str]] = []
+    if result is None:
+        figures = [(label, value) for label, value, _ in _whole_panel(panel, loads)]
     if result is not None:
         figures += [
             ("Result", STATUS_TEXT[result.status]),
@@ -342,6 +429,37 @@ def _panel_figures(
     return figures
 
 
+def _whole_panel(panel: Panel, loads: Loads) -> list[tuple[str, str, str]]:
+    """(figure, value with its unit, key) for the whole panel."""
+    figures = [
+        ("Total load", f"{loads.total_va:,.0f} VA", "total"),
+        ("Spread (heaviest − lightest line)", f"{loads.spread_va:,.0f} VA", "spread"),
+        ("Imbalance (NEMA MG 1 definition)", f"{loads.imbalance_pct:.1f} %", "imbalance"),
+    ]
+    if loads.unbalance_factor_pct is not None:
+        figures.append(
+            ("Current unbalance |I2|/|I1|", f"{loads.unbalance_factor_pct:.1f} %", "unbalance")
+        )
+    if panel.system.neutral:
+        figures.append(("Neutral current (RMS)", f"{loads.neutral_amps:,.1f} A", "neutral"))
+        if abs(loads.neutral_amps - loads.neutral_a) > 0.05:
+            figures.append(("Neutral at the fundamental only", f"{loads.neutral_a:,.1f} A", "n1"))
+    return figures
+
+
+def _before_after_figures(page: _Page, panel: Panel, loads: Loads, result: BalanceResult) -> None:
+    """The whole panel's figures before and after balancing, side by side."""
+    before = {key: value for _, value, key in _whole_panel(result.before_panel, result.before)}
+    rows = [
+        [label, before.get(key, ""), value]
+        for label, value, key in _whole_panel(panel, loads)
+        if key != "neutral"  # the per-line table above has the neutral before and after
+    ]
+    page.table(
+        ["Whole panel", "Before", "After"], rows, [2.8, 1.3, 1.3], align=["left", "right", "right"]
+    )
+
+
 def _figure_lines(page: _Page, figures: list[tuple[str, str]]) -> None:
     """Label and value pairs, one a line."""
     for label, value in figures:
@@ -350,8 +468,9 @@ def _figure_lines(page: _Page, figures: list[tuple[str, str]]) -> None:
         page.y_in += 0.19
 
 
-def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None) -> None:
-    height_in = 2.3
+def _bar_chart(
+    page: _Page, panel: Panel, loads: Loads, result: BalanceResult | None, height_in: float = 2.3
+) -> None:
     width_in = page.width_in - 2 * MARGIN_IN
     bottom = 1.0 - (page.y_in + height_in) / page.height_in
     ax = page.fig.add_axes(
@@ -381,10 +500,15 @@ def _bar_chart(page: _Page, panel: Panel, loads: Loads, result: BalanceResult | 
         ax.bar(x, after, 0.5, label="as placed", color="#4A5A6A", edgecolor="black")
     average = loads.total_va / len(lines)
     ax.axhline(average, color="black", ls="--", lw=1, label=f"average {average:,.0f} VA")
+    from matplotlib.ticker import StrMethodFormatter
+
     ax.set_xticks(x, [f"Line {line}" for line in lines])
-    ax.set_ylabel("VA", fontsize=8)
+    ax.set_ylabel("Load (VA)", fontsize=8)
+    ax.yaxis.set_major_formatter(StrMethodFormatter("{x:,.0f}"))
     ax.tick_params(labelsize=8)
     ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=3, frameon=False)
+    title = "Load per line before and after balancing" if result is not None else "Load per line"
+    page.text(MARGIN_IN, page.y_in - 0.3, f"{title} (VA)", size=9, weight="bold", color=_HEAD)
     page.y_in += height_in
 
 
@@ -618,6 +742,8 @@ def _section_pages(pages: list[_Page], make: Any, sections: Sequence[ExtraSheet]
             elif long_text:
                 page.paragraph(f"{values[0]}: {values[1]}", size=size)
             else:
+                if row_has_tenths(values):  # one place of decimals across the row
+                    values = [f"{v:,.1f}" if isinstance(v, float) else v for v in values]
                 page.data_row(values, widths, size=size, align=align)
             previous = "data" if role == "header" else role
         pages.append(page)
@@ -655,8 +781,13 @@ def pdf_pages(
         return _new_page(paper, panel)
 
     first = make()
-    _summary_page(first, panel, loads, result, demand)
     pages.append(first)
+    if not _summary_page(first, panel, loads, result, demand):
+        chart = make()  # notices took the room: the chart on a page of its own
+        chart.heading(f"Panel {panel.name} (continued)")
+        chart.y_in += 0.45
+        _bar_chart(chart, panel, loads, result)
+        pages.append(chart)
     _directory_pages(pages, make, panel)
     if order is not None and order.steps:
         _work_order_pages(pages, make, panel.name, order)
@@ -680,6 +811,7 @@ def write_pdf(
     demand: DemandResult | None = None,
     input_path: Path | str | None = None,
     order: WorkOrder | None = None,
+    balanced_on: str | None = None,
 ) -> Path:
     """Write the panel's PDF to ``path`` (atomically) and return the path.
 
@@ -703,6 +835,9 @@ def write_pdf(
         The schedule that was read, when known.
     order
         The work order planned for the result (printed when it has steps).
+    balanced_on
+        With ``result``: the date the revision is said to be balanced on (today when not
+        given).
     """
     from matplotlib import rc_context
     from matplotlib.backends.backend_pdf import PdfPages
@@ -711,6 +846,8 @@ def write_pdf(
         raise ValueError(f"paper must be one of {', '.join(PAPER_IN)}, not {paper!r}")
     path = Path(path)
     refuse_input_path(path, input_path, panel.source or None)
+    if result is not None:  # the revised schedule: its revision carries the balancing date
+        panel = replace(panel, header=revised_header(panel, balanced_on))
 
     def write(tmp: Path) -> None:
         # the fonts embedded; no text parsed as math (labels and legends too)

@@ -7,6 +7,7 @@ Every problem is collected with its place (``Circuits!E14``) and reported at onc
 from __future__ import annotations
 
 import csv
+import datetime
 import difflib
 import io
 import math
@@ -34,11 +35,20 @@ from balancer.domain.panel import (
     Geometry,
     LineReadings,
     Panel,
+    PanelHeader,
     smallest_space_count,
 )
 from balancer.domain.systems import System, check_connection, find_system, known_designations
 from balancer.errors import Problem, ScheduleError
-from balancer.io.columns import BY_KEY, ColumnSpec, all_spellings, match, normalise
+from balancer.io.columns import (
+    BY_KEY,
+    PANEL_BY_KEY,
+    ColumnSpec,
+    all_spellings,
+    match,
+    normalise,
+    panel_key,
+)
 from balancer.physics.harmonics import builtin_profiles, find_profile
 
 DEFAULT_SYSTEM = "208Y/120"
@@ -82,13 +92,6 @@ _NUMBER = re.compile(
     r"^\s*(?P<num>[-+]?(\d{1,3}(,\d{3})+|\d+)(\.\d+)?|[-+]?\.\d+)\s*(?P<unit>[a-z%]*)\s*$",
     re.IGNORECASE,
 )
-_PANEL_KEYS = {
-    "name": ("name", "panel", "panelname", "designation", "panelboard"),
-    "system": ("system", "voltage", "service", "volts", "supply"),
-    "spaces": ("spaces", "spacecount", "circuits", "numberofspaces", "poles", "size"),
-    "bus": ("bus", "busrating", "busa", "busamps", "bussing"),
-    "main": ("main", "mainbreaker", "maina", "mains", "mainrating", "mainocpd"),
-}
 
 
 @dataclass(frozen=True, slots=True)
@@ -526,14 +529,102 @@ def _panel_pairs(
             for i, (c, value) in enumerate(cells):
                 text = _text(value)
                 key_text, sep, inline = text.partition(":")
-                key = normalise(key_text)[0]
-                for attr, names in _PANEL_KEYS.items():
-                    if key in names and attr not in pairs:
-                        if sep and inline.strip():
-                            pairs[attr] = (inline.strip(), g.where(r, c))
-                        elif i + 1 < len(cells):
-                            pairs[attr] = (cells[i + 1][1], g.where(r, cells[i + 1][0]))
+                spec = panel_key(key_text)
+                if spec is not None and spec.key not in pairs:
+                    if sep and inline.strip():
+                        pairs[spec.key] = (inline.strip(), g.where(r, c))
+                    elif i + 1 < len(cells):
+                        pairs[spec.key] = (cells[i + 1][1], g.where(r, cells[i + 1][0]))
     return pairs
+
+
+NEMA_TYPES = (
+    "1",
+    "2",
+    "3",
+    "3R",
+    "3S",
+    "3X",
+    "3RX",
+    "3SX",
+    "4",
+    "4X",
+    "5",
+    "6",
+    "6P",
+    "12",
+    "12K",
+    "13",
+)
+MOUNTINGS = {"surface": "surface", "flush": "flush", "semiflush": "semi-flush", "recessed": "flush"}
+SCCR_KA = (1.0, 200.0)  # panelboard ratings run from 10 kA to 200 kA (common practice)
+NEUTRAL_PCT = (50.0, 300.0)
+
+
+def _panel_header(pairs: dict[str, tuple[Any, str]], problems: list[Problem]) -> PanelHeader:
+    """The title block's data; each value that does not read is a problem at its cell."""
+    values: dict[str, Any] = {}
+    for key, (raw, where) in pairs.items():
+        spec = PANEL_BY_KEY[key]
+        if key not in PanelHeader.__dataclass_fields__:
+            continue  # name, system and the ratings, read above
+        if spec.kind == "text":
+            values[key] = _header_text(raw)
+            continue
+        try:
+            values[key] = _header_value(spec.kind, raw)
+        except ValueError as exc:
+            label = re.sub(r"\s*\(.*\)$", "", spec.label)
+            problems.append(Problem(where, f"{label} '{_shown(_text(raw))}' {exc}"))
+    return PanelHeader(**values)
+
+
+def _header_text(raw: Any) -> str:
+    if isinstance(raw, datetime.datetime | datetime.date):
+        return raw.strftime("%Y-%m-%d")  # a date cell: the one spelling nobody misreads
+    return _text(raw)
+
+
+def _header_value(kind: str, raw: Any) -> Any:
+    """A title-block figure or choice; ValueError with what it should be."""
+    text = _text(raw)
+    if kind == "flag":
+        try:
+            return _flag(raw)
+        except ValueError:
+            raise ValueError("should be yes or no") from None
+    if kind == "mounting":
+        found = MOUNTINGS.get(re.sub(r"[^a-z]", "", text.lower()))
+        if found is None:
+            raise ValueError("should be surface, flush or semi-flush")
+        return found
+    if kind == "nema":
+        bare = re.sub(r"^(nema|type)\s*", "", text.strip(), flags=re.IGNORECASE).upper()
+        bare = re.sub(r"^TYPE\s*", "", bare).replace(" ", "")
+        if bare not in NEMA_TYPES:
+            raise ValueError(f"should be a NEMA enclosure type ({', '.join(NEMA_TYPES)})")
+        return f"NEMA {bare}"
+    try:
+        number, unit = _number(raw)
+    except ValueError:
+        number, unit = None, "?"
+    if kind == "pct":
+        if (
+            number is None
+            or unit not in ("", "%")
+            or not NEUTRAL_PCT[0] <= number <= NEUTRAL_PCT[1]
+        ):
+            raise ValueError("should be a percentage of the phase bus, such as 100 % or 200 %")
+        return number
+    # kA: '22', '22 kA', '22kAIC', '10,000 AIC', '10000 A'
+    if number is not None and unit in ("", "ka", "kaic", "k", "aic", "a", "sccr"):
+        if unit in ("a", "aic") or number >= 1000:
+            number /= 1000.0
+        if SCCR_KA[0] <= number <= SCCR_KA[1]:
+            return number
+    raise ValueError(
+        f"should be a rating in kA ({SCCR_KA[0]:g} to {SCCR_KA[1]:g}), such as 22 kA or 10,000 AIC"
+    )
 
 
 def _main_rating(text: str) -> tuple[float | None, bool]:
@@ -1082,6 +1173,7 @@ def _panel_from_grids(
         overrides.main if overrides.main is not None else _text(pairs.get("main", ("", ""))[0])
     )
     main_a = _main_breaker(main_text, pairs, problems)
+    header = _panel_header(pairs, problems)
     if system is not None and spaces is not None:
         spaces_where = (
             "--spaces"
@@ -1110,6 +1202,7 @@ def _panel_from_grids(
         main_lugs_only=bool(main_text) and main_a is None,
         source=str(path),
         notices=tuple(notices),
+        header=header,
     )
 
 

@@ -9,8 +9,9 @@ from __future__ import annotations
 
 import io
 import math
+import re
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -19,7 +20,7 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.worksheet import Worksheet
 
-from balancer.domain.panel import Circuit, Panel
+from balancer.domain.panel import Circuit, Panel, PanelHeader
 from balancer.domain.result import BalanceResult, SolveStatus
 from balancer.domain.systems import Line
 from balancer.io.files import refuse_input_path, save_workbook
@@ -170,8 +171,100 @@ def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> No
     ws.page_margins.left = ws.page_margins.right = 0.5
     ws.oddFooter.right.text = "&A, page &P of &N"
     ws.oddFooter.left.text = "Engineering aid: verify before work"
+    for part in (ws.oddFooter.left, ws.oddFooter.center, ws.oddFooter.right):
+        part.size = 7  # small enough that the three parts never meet
     if title_rows:
         ws.print_title_rows = title_rows
+
+
+def _header_text(text: str) -> str:
+    return text.replace("&", "&&")  # '&' starts a header code in a spreadsheet's page header
+
+
+def running_header(ws: Worksheet, panel: Panel) -> None:
+    """Every printed page's header: the project, the panel and its system (the high leg named
+    on a high-leg delta panel), the date and revision."""
+    project, issue = title_block(panel.header)
+    # one line each: a line break in a page header is not read alike by every spreadsheet
+    ws.oddHeader.left.text = _header_text(project)
+    ws.oddHeader.center.text = _header_text(f"Panel {panel.name}: {panel.system.label()}")
+    ws.oddHeader.right.text = _header_text(issue)
+    for part in (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right):
+        part.size = 7
+    ws.page_margins.top = max(ws.page_margins.top, 0.9)
+    ws.page_margins.header = 0.3
+
+
+WIDTH_MAX = 60.0  # characters; longer text is wrapped or merged, never a column this wide
+
+
+def _shown_width(cell: Any) -> float:
+    """About how many characters wide a cell's value shows, at its number format."""
+    value = cell.value
+    if value is None:
+        return 0.0
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        text = str(value)
+    else:
+        places = 2 if "0.0" in str(cell.number_format) else 0
+        unit = re.search(r'"([^"]*)"', str(cell.number_format))  # a unit the format adds
+        text = f"{value:,.{places}f}" + (unit.group(1) if unit else "")
+    bold = 1.1 if cell.font is not None and cell.font.b else 1.0
+    return len(text) * bold
+
+
+def fit_columns(ws: Worksheet) -> None:
+    """Widen each column to its widest cell (a header to its longest word, since headers
+    wrap) so no text runs into the next column; wrapped and merged cells, and a sheet's
+    one-cell title rows, keep the width they were given."""
+    merged = {
+        (r, c)
+        for area in ws.merged_cells.ranges
+        for r in range(area.min_row, area.max_row + 1)
+        for c in range(area.min_col, area.max_col + 1)
+    }
+    need: dict[int, float] = {}
+    for row in ws.iter_rows():
+        filled = [cell for cell in row if cell.value is not None]
+        if (
+            len(filled) <= 1
+            and filled
+            and filled[0].column == 1
+            and isinstance(filled[0].value, str)
+        ):
+            continue  # a title or a note across the sheet
+        for cell in filled:
+            if (cell.row, cell.column) in merged:
+                continue
+            if cell.alignment is not None and cell.alignment.wrap_text:
+                if cell.fill == _HEAD_FILL:
+                    longest = max((len(w) for w in str(cell.value).split()), default=0)
+                    width = longest * 1.15 + 2
+                else:
+                    continue
+            else:
+                width = _shown_width(cell) + 2
+            need[cell.column] = max(need.get(cell.column, 0.0), min(width, WIDTH_MAX))
+    for column, width in need.items():
+        dimension = ws.column_dimensions[get_column_letter(column)]
+        if (dimension.width or 0) < width:
+            dimension.width = width
+    _header_heights(ws)
+
+
+def _header_heights(ws: Worksheet) -> None:
+    """Header rows tall enough for their wrapped titles (a spreadsheet does not always grow
+    them by itself)."""
+    for row in ws.iter_rows():
+        lines = 1
+        for cell in row:
+            if cell.value is None or cell.fill != _HEAD_FILL:
+                continue
+            width = ws.column_dimensions[get_column_letter(cell.column)].width or 10
+            lines = max(lines, math.ceil(len(str(cell.value)) * 1.15 / max(width - 1, 1)))
+        if lines > 1:
+            height = ws.row_dimensions[row[0].row].height or 15
+            ws.row_dimensions[row[0].row].height = max(height, 15 * lines + 2)
 
 
 def _widths(ws: Worksheet, widths: Sequence[float]) -> None:
@@ -194,14 +287,89 @@ def _main_text(panel: Panel) -> float | str | None:
     return "MLO" if getattr(panel, "main_lugs_only", False) else None
 
 
+def header_values(header: PanelHeader) -> list[tuple[str, Any, str | None]]:
+    """The title block's data as (Panel-sheet label, value, number format), in the order of
+    :data:`balancer.io.columns.PANEL_KEYS`; what the reader takes back unchanged."""
+    from balancer.io.columns import PANEL_BY_KEY
+
+    rows: list[tuple[str, Any, str | None]] = []
+    for key in HEADER_KEYS:
+        value = getattr(header, key)
+        if key == "isolated_ground":
+            value = _flag_text(value)
+        rows.append((PANEL_BY_KEY[key].label, value, "0.0##" if key == "sccr_ka" else "0"))
+    return rows
+
+
+HEADER_KEYS = (
+    "location",
+    "fed_from",
+    "feeder",
+    "mounting",
+    "enclosure",
+    "sccr_ka",
+    "neutral_pct",
+    "ground_bus",
+    "isolated_ground",
+    "project",
+    "date",
+    "revision",
+    "balanced",
+)
+
+
+def header_facts(header: PanelHeader, *, neutral: bool = True) -> list[tuple[str, str]]:
+    """The title block as a reader sees it, with units: ("SCCR", "22 kA") …; blanks say
+    'not given' so a missing rating is seen as missing. A panel without a neutral (``neutral``
+    false) has no neutral bus row unless the schedule gives one."""
+    ground = header.ground_bus or "not given"
+    if header.isolated_ground is not None:
+        bar = "with isolated ground bar" if header.isolated_ground else "no isolated ground bar"
+        ground = f"{header.ground_bus}, {bar}" if header.ground_bus else bar
+    rows = [
+        ("Location", header.location),
+        ("Fed from", header.fed_from),
+        ("Feeder", header.feeder),
+        ("Mounting", header.mounting),
+        ("Enclosure", header.enclosure),
+        ("SCCR", f"{header.sccr_ka:,.4g} kA" if header.sccr_ka else ""),
+        ("Neutral bus", f"{header.neutral_pct:g} %" if header.neutral_pct else ""),
+        ("Ground bus", ground),
+    ]
+    if not neutral and header.neutral_pct is None:
+        rows = [row for row in rows if row[0] != "Neutral bus"]
+    return [(label, value or "not given") for label, value in rows]
+
+
+def title_block(header: PanelHeader) -> tuple[str, str]:
+    """("Project: …", "Date: …   Revision: …") as every page's running header shows them; a
+    revised schedule's revision carries the date it was balanced."""
+    project = f"Project: {header.project or 'not given'}"
+    return project, f"Date: {header.date or 'not given'}   Revision: {header.revision_text()}"
+
+
+def revised_header(panel: Panel, balanced_on: str | None = None) -> PanelHeader:
+    """The revised schedule's title block: the schedule's own, with the date it was balanced
+    (today unless given)."""
+    import datetime
+
+    on = balanced_on or datetime.date.today().isoformat()
+    return replace(panel.header, balanced=on)
+
+
 def _panel_facts(panel: Panel) -> list[tuple[str, Any, str | None]]:
     main = _main_text(panel)
+    neutral = panel.system.neutral
     return [
         ("Panel", panel.name, None),
         ("System", panel.system.label(), None),
         ("Spaces", panel.spaces, "0"),
-        ("Bus rating A", panel.bus_a, "0"),
-        ("Main A", "main lugs only" if main == "MLO" else main, "0"),
+        ("Bus rating", panel.bus_a, '#,##0" A"'),
+        ("Main", "main lugs only" if main == "MLO" else main, '#,##0" A"'),
+        *((label, value, None) for label, value in header_facts(panel.header, neutral=neutral)),
+        ("Project", panel.header.project or "not given", None),
+        ("Date", panel.header.date or "not given", None),
+        ("Revision", panel.header.revision_text(), None),
         ("Source", panel.source or "", None),
     ]
 
@@ -219,6 +387,7 @@ def panel_title_rows(panel: Panel) -> list[tuple[str, Any]]:
     main = _main_text(panel)
     if main is not None:
         rows.append(("Main", main))
+    rows += [(label, value) for label, value, _ in header_values(panel.header) if value]
     return rows
 
 
@@ -232,12 +401,15 @@ def _panel_sheet(ws: Worksheet, panel: Panel) -> None:
         ("Spaces", panel.spaces, "0"),
         ("Bus", panel.bus_a, "0"),
         ("Main", _main_text(panel), "0"),
+        *header_values(panel.header),
     ]
     for row, (label, value, fmt) in enumerate(rows, start=2):
         _put(ws, row, 1, label)
         _put(ws, row, 2, value, fmt)
-    _widths(ws, [14, 24])
-    print_setup(ws, landscape=False, title_rows=None)
+        ws.cell(row=row, column=2).alignment = Alignment(horizontal="left")
+    ws.cell(row=len(rows) + 3, column=1, value=panel.system.label())
+    _widths(ws, [20, max(24, *(len(str(v)) + 3 for _, v, _ in rows if v is not None))])
+    print_setup(ws, landscape=True, title_rows=None)  # room for the running header
 
 
 # --- sheets -----------------------------------------------------------------------------------
@@ -263,7 +435,13 @@ def _facts_block(ws: Worksheet, panel: Panel, row: int) -> int:
     """The panel's facts and the reader's notices from ``row``; returns the row after them."""
     for label, value, fmt in _panel_facts(panel):
         ws.cell(row=row, column=1, value=label).font = Font(bold=True)
+        ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
+        if isinstance(value, str) and len(value) > 16:  # across the sheet, not one wide column
+            _long_text(ws, row, 2, value, last_col=6, chars_per_line=70)
+            row += 1
+            continue
         cell = ws.cell(row=row, column=2, value=value)
+        cell.alignment = Alignment(horizontal="left")  # a list of facts, read left to right
         if fmt and isinstance(value, (int, float)):
             cell.number_format = fmt
         row += 1
@@ -545,6 +723,9 @@ def _circuits(ws: Worksheet, panel: Panel) -> None:
     print_setup(ws, landscape=True, title_rows="1:1")
 
 
+NOTE_WRAP_CHARS = 30
+
+
 def write_circuit_table(
     ws: Worksheet, panel: Panel, header_row: int, shaded: frozenset[str] = frozenset()
 ) -> int:
@@ -564,6 +745,10 @@ def write_circuit_table(
             if header not in extra_headers:
                 extra_headers.append(header)
     _header(ws, header_row, [name for name, _, _ in columns] + extra_headers)
+    names = [name for name, _, _ in columns] + extra_headers
+    wrapped = [  # free text wraps; the description stays on one line, its column sized to it
+        col for col, name in enumerate(names, start=1) if col > len(columns) or name == "Notes"
+    ]
     row = header_row
     for row, circuit in enumerate(panel.circuits, start=header_row + 1):
         for col, (_, get, fmt) in enumerate(columns, start=1):
@@ -571,10 +756,17 @@ def write_circuit_table(
         extra = dict(circuit.extra)
         for col, header in enumerate(extra_headers, start=len(columns) + 1):
             _put(ws, row, col, extra.get(header))
+        for col in wrapped:
+            value = ws.cell(row=row, column=col).value
+            if isinstance(value, str) and len(value) > NOTE_WRAP_CHARS:
+                ws.cell(row=row, column=col).alignment = _WRAP  # notes wrap, the list stays narrow
+                lines = math.ceil(len(value) / (NOTE_WRAP_CHARS - 4))
+                height = ws.row_dimensions[row].height or 15
+                ws.row_dimensions[row].height = max(height, 15 * lines + 2)
         if circuit.id in shaded:
             for col in range(1, len(columns) + len(extra_headers) + 1):
                 ws.cell(row=row, column=col).fill = _MOVED_FILL
-    width = {"Description": 32, "Notes": 24}
+    width = {"Description": 32, "Notes": 32}
     _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
     return row
 
@@ -623,6 +815,11 @@ def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | No
         _put(ws, row, 4, new.magnitude_a, AMPS)
         _put(ws, row, 5, new.angle_deg, "0.0")
     ws.cell(row=row + 1, column=1, value="Angles from line A's line-to-neutral voltage.")
+    ws.cell(
+        row=row + 2,
+        column=1,
+        value=f"Panel {result.after_panel.name}: {result.after_panel.system.label()}.",
+    )
     _widths(ws, [14, 11, 14, 11, 14])
     fig = draw_phasor_diagram(
         before,
@@ -631,7 +828,7 @@ def _phasors(ws: Worksheet, result: BalanceResult, harmonic: Sequence[float | No
         title=f"{result.after_panel.name}: current phasors",
     )
     image = Image(io.BytesIO(phasor_figure_bytes(fig, "png", dpi=90)))
-    ws.add_image(image, f"A{row + 3}")
+    ws.add_image(image, f"A{row + 4}")
     print_setup(ws, landscape=True, title_rows=None)
 
 
@@ -656,7 +853,7 @@ def _notes(ws: Worksheet) -> None:
         cell.alignment = _WRAP
         ws.row_dimensions[row].height = 15 * math.ceil(len(text) / 70) + 3
     ws.column_dimensions["A"].width = 80
-    print_setup(ws, landscape=False, title_rows=None)
+    print_setup(ws, landscape=True, title_rows=None)  # room for the running header
     ws.print_options.horizontalCentered = False
 
 
@@ -675,6 +872,12 @@ def row_role(values: Sequence[Any]) -> str:
     if len(cells) >= HEADER_MIN_CELLS and all(isinstance(v, str) for v in values):
         return "header"
     return "data"
+
+
+def row_has_tenths(values: Sequence[Any]) -> bool:
+    """Whether a row of figures has one with a fraction: then all its decimals are shown to one
+    place ("148.0  145.8", not "148  145.8")."""
+    return any(isinstance(v, float) and not v.is_integer() for v in values)
 
 
 LONG_TEXT_CHARS = 40
@@ -703,23 +906,30 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
             chars = int(sum(widths[1:span])) or 60
             _long_text(ws, r, 2, values[1], last_col=span, chars_per_line=max(30, chars))
             continue
+        tenths = row_has_tenths(values)
         for c, value in enumerate(values, start=1):
             cell = ws.cell(row=r, column=c, value=value)
             if isinstance(value, float):
-                cell.number_format = VA if value.is_integer() else "#,##0.0"
+                cell.number_format = "#,##0.0" if tenths else VA
             elif isinstance(value, int) and not isinstance(value, bool):
                 cell.number_format = VA
             if c == 1 and isinstance(value, str):
                 cell.font = Font(bold=True)
             cell.alignment = Alignment(vertical="top")
+            while len(widths) < c:
+                widths.append(10.0)
+            closing = c == len(values) > 1 and len(values) < span and isinstance(value, str)
+            if closing and len(str(value)) > widths[c - 1]:
+                # a short row's closing text, across the empty cells beside it, not one wide column
+                room = int(sum(widths[c - 1 : span]))
+                _long_text(ws, r, c, str(value), last_col=span, chars_per_line=max(20, room))
+                continue
             if isinstance(value, str) and len(value) > COLUMN_CHARS_MAX:
                 cell.alignment = _WRAP
                 # Proportional type fits fewer characters than the column's nominal width.
                 lines = math.ceil(len(value) / (COLUMN_CHARS_MAX * 0.8))
                 height = ws.row_dimensions[r].height or 15
                 ws.row_dimensions[r].height = max(height, 15 * lines + 2)
-            while len(widths) < c:
-                widths.append(10.0)
             widths[c - 1] = max(widths[c - 1], min(COLUMN_CHARS_MAX, len(str(value)) + 2))
     _widths(ws, widths)
     print_setup(ws, landscape=True, title_rows=None)
@@ -748,6 +958,7 @@ def write_workbook(
     order: WorkOrder | None = None,
     phasor_diagram: bool = True,
     harmonic_neutral_rms_a: Sequence[float | None] | None = None,
+    balanced_on: str | None = None,
 ) -> Path:
     """Write the revised schedule workbook for ``result`` to ``path`` and return the path.
 
@@ -772,6 +983,9 @@ def write_workbook(
     harmonic_neutral_rms_a
         Neutral RMS current with harmonics before and after; taken from the figures when not
         given, and drawn as bars only when harmonics change the neutral.
+    balanced_on
+        The date written as the revised schedule's "Balanced" line (today when not given); the
+        schedule's own revision is kept beside it.
 
     Raises
     ------
@@ -780,6 +994,8 @@ def write_workbook(
     """
     path = Path(path)
     refuse_input_path(path, input_path, result.before_panel.source or None)
+    after = result.after_panel
+    result = replace(result, after_panel=replace(after, header=revised_header(after, balanced_on)))
     wb = Workbook()
     summary = wb.active
     assert summary is not None
@@ -799,6 +1015,9 @@ def write_workbook(
     if any(c.balance_va is not None for c in result.after_panel.circuits):
         for sheet in wb.worksheets:  # printed, every page says what the figures stand on
             sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
+    for sheet in wb.worksheets:
+        running_header(sheet, result.after_panel)
+        fit_columns(sheet)
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
     return save_workbook(wb, path)
