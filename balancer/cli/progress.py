@@ -14,14 +14,15 @@ import time
 from collections.abc import Iterator
 from typing import TextIO
 
+from balancer.report.textbars import is_terminal
+
 DELAY_S = 2.0  # a step quicker than this shows nothing
 TICK_S = 0.5  # how often the seconds are redrawn
 
 
 def wanted(stream: TextIO, json_output: bool = False) -> bool:
     """Whether a progress line belongs on ``stream``: a terminal, and no JSON being printed."""
-    isatty = getattr(stream, "isatty", None)
-    return not json_output and bool(isatty and isatty())
+    return not json_output and is_terminal(stream)
 
 
 @contextlib.contextmanager

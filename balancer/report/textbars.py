@@ -31,6 +31,11 @@ def use_color(stream: TextIO, no_color: bool = False) -> bool:
     """
     if no_color or os.environ.get("NO_COLOR"):
         return False
+    return is_terminal(stream)
+
+
+def is_terminal(stream: TextIO) -> bool:
+    """Whether ``stream`` is a terminal (a stream without ``isatty`` is not)."""
     isatty = getattr(stream, "isatty", None)
     return bool(isatty and isatty())
 
