@@ -22,7 +22,7 @@ from balancer.code.demand import (
 )
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, BalanceResult
-from balancer.errors import OutputError, Problem, ScheduleError
+from balancer.errors import BalancerError, OutputError, Problem, ScheduleError
 from balancer.field.basis import Basis
 from balancer.field.run import FieldRun
 from balancer.io.files import same_file
@@ -285,9 +285,12 @@ def write_building(
     """Write the building workbook (figures; with balancing the moves, work order and revised
     schedules) and the printout."""
     from balancer.building.report import (
+        panel_summaries,
         pdf_work_rows,
         printed_panels,
+        printout_tables,
         summary_lines,
+        work_cautions,
         write_building_workbook,
     )
     from balancer.io.pdf import write_building_pdf
@@ -303,6 +306,7 @@ def write_building(
         panels = printed_panels(
             result.after if result else building, result.after_figures if result else before
         )
+        demand = report.demand or _building_demand(report)
         written.append(
             write_building_pdf(
                 pdf,
@@ -312,9 +316,26 @@ def write_building(
                 pdf_work_rows(result) if result else {},
                 paper=paper,
                 inputs=[*report.sources, *written],
+                tables=printout_tables(building, before, result, demand),
+                panel_pages=panel_summaries(building, before, result, demand),
+                cautions=work_cautions(result) if result else {},
             )
         )
     return replace(report, written=tuple(written))
+
+
+def _building_demand(report: BuildingReport) -> tuple[RollUp, RollUp | None] | None:
+    """The demand roll-up for a printout when none was asked for: each system's default rule
+    set (a printout's panel table gives demand beside connected kVA); None when the rules
+    cannot be worked out for this building."""
+    from balancer.building.tree import demand_roll_up
+
+    options = DemandOptions()
+    try:
+        after = demand_roll_up(report.result.after, options) if report.result else None
+        return demand_roll_up(report.building, options), after
+    except (BalancerError, ValueError):
+        return None
 
 
 def lock_circuits(panel: Panel, locks: Mapping[str, bool]) -> Panel:
@@ -354,6 +375,8 @@ def balance_row(
         goal_proven=chosen.goal_proven and status is SolveStatus.OPTIMAL,
         tradeoff=report.result.tradeoff,
         recommendation=report.result.recommendation,
+        with_additions_panel=report.result.with_additions_panel,
+        with_additions=report.result.with_additions,
     )
     field = replace(report.field, order=work_order_for(result))
     return replace(

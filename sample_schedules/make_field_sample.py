@@ -34,6 +34,7 @@ HEADER = [
     "Measured line C (A)",
     "Wire",
     "Notes",
+    "Critical",
 ]
 
 # Spaces 1-26 as found on site (readings taken on a weekday afternoon, invented), then the
@@ -433,6 +434,12 @@ ROWS: list[list[object]] = [
         "new circuit",
     ],
 ]
+# Loads that must not lose power (the Critical column): the fire alarm panel, the medication
+# refrigerator, the IT rack and the reception lighting, which also feeds the battery emergency
+# lights of the waiting room (invented). Their work-order steps ask for temporary power or a
+# scheduled outage first.
+CRITICAL = {1: "yes", 6: "yes", 18: "yes", 25: "yes"}
+
 PANEL = {
     "Name": "LP-2",
     "System": "208Y/120",
@@ -468,8 +475,8 @@ def build(path: Path) -> Path:
     for cell in sheet[4]:
         cell.font = Font(bold=True)
     for row in ROWS:
-        sheet.append(row)
-    widths = (6, 32, 12, 6, 8, 10, 6, 8, 7, 12, 12, 12, 12, 11, 44)
+        sheet.append([*row, CRITICAL.get(row[0]) if isinstance(row[0], int) else None])
+    widths = (6, 32, 12, 6, 8, 10, 6, 8, 7, 12, 12, 12, 12, 11, 44, 9)
     for index, width in enumerate(widths):
         sheet.column_dimensions[chr(ord("A") + index)].width = width
     info = book.create_sheet("Panel")

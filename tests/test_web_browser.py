@@ -149,6 +149,10 @@ def test_from_the_clinic_sample_to_its_work_order(page: Any, shots: Path) -> Non
     assert cautions.bounding_box()["y"] < order.bounding_box()["y"]  # cautions come first
     steps = page.locator("#work-order ol.steps > li").count()
     assert steps >= 1
+    # each step reads as words: a new breaker's rating and wire under its line
+    written = order.inner_text()
+    assert "[object" not in written
+    assert "new breaker: 1-pole, 20 A; conductor 12 AWG Cu (from the schedule)" in written
     page.screenshot(path=shots / "04-one-move-row.png", full_page=True)
 
     with page.expect_download() as download:

@@ -162,7 +162,7 @@ def test_notes_and_extra_columns_reach_the_steps() -> None:
     assert list(STEP_HEADER) in rows
     step_row = rows[rows.index(list(STEP_HEADER)) + 1]
     assert step_row[:8] == [1, "Move breaker", "14", "Water heater", "1, 3", "A-B", "5, 7", "C-A"]
-    assert "10 AWG Cu" in step_row[8]
+    assert "10 AWG Cu" in step_row[STEP_HEADER.index("Notes")]
 
 
 def test_expected_currents_are_those_of_the_new_layout() -> None:
@@ -203,6 +203,10 @@ def test_json_lists_steps_with_circuits() -> None:
         "to_spaces": [3],
         "to_lines": ["B"],
         "notes": "",
+        "breaker": "1-pole, rating not given",
+        "conductor": None,
+        "critical": None,
+        "details": [],
     }
 
 

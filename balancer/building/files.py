@@ -334,14 +334,14 @@ def _index_rows_of(building: Building, sheets: Mapping[str, str]) -> list[list[o
         if feed is None:
             rows.append([panel.name, sheets[panel.name], None, None, None, None, None, None])
             continue
-        feeder = building.feeder_circuit(feed)
+        number = building.feeder_number(feed)
         t = feed.transformer
         rows.append(
             [
                 panel.name,
                 sheets[panel.name],
                 feed.source,
-                feeder.first_space if feeder.placed else feeder.id,
+                int(number) if number.isdigit() else number,
                 (t.name or None) if t else None,
                 t.kva if t else None,
                 t.connection if t else None,
@@ -356,12 +356,15 @@ def write_building_sheets(
     building: Building,
     title: str,
     shaded: Mapping[str, frozenset[str]] | None = None,
+    was: Building | None = None,
 ) -> dict[str, str]:
     """Add to ``book`` a ``Building`` index sheet and one schedule sheet per panel, in the form
     :func:`read_building` reads, so the workbook can be read again as a building.
 
     Each panel sheet holds the panel's attributes in title rows and its circuits in space
-    order; the circuits of ``shaded[panel]`` (ids) are filled. Returns panel → sheet name.
+    order; the circuits of ``shaded[panel]`` (ids) are filled. With ``was`` (the building as
+    found), a feeder breaker that moved is named by its new number and its old one. Returns
+    panel → sheet name.
     """
     from openpyxl.styles import Font
 
@@ -388,8 +391,7 @@ def write_building_sheets(
             ws.cell(row=ws.max_row, column=1).font = Font(bold=True)
         feed = building.feed_of(panel.name)
         if feed is not None:
-            feeder = building.feeder_circuit(feed)
-            ws.append([f"Fed from {feed.source}, circuit {feeder.first_space or feeder.id}"])
+            ws.append([f"Fed from {building.feeder_text(feed, was=was)}"])
         leg = panel.system.high_leg
         if leg:
             to_neutral_v = abs(panel.system.voltage_phasor(leg))

@@ -10,6 +10,7 @@ from typing import TYPE_CHECKING
 from balancer.building.tree import (
     Building,
     BuildingResult,
+    Feed,
     RollUp,
 )
 from balancer.domain.panel import Panel
@@ -36,12 +37,11 @@ def panel_rows(
     rows: list[dict[str, object]] = []
     for name in reversed(building.order()):
         panel = building.panel(name)
-        feed = building.feed_of(name)
         fig = before.panels[name]
         row: dict[str, object] = {
             "panel": name,
             "system": panel.system.designation,
-            "fed_from": f"{feed.source} ckt {feed.circuit_id}" if feed else "service",
+            "fed_from": _fed_from(building, name, result),
             "total_va": fig.total_va,
             "phase_va_before": _lines_text(fig.phase_va),
             "imbalance_before_pct": fig.imbalance_pct,
@@ -86,7 +86,7 @@ def feeder_rows(
         row: dict[str, object] = {
             "panel": name,
             "fed_from": feed.source,
-            "circuit": feed.circuit_id,
+            "circuit": _feeder_number(building, feed, result),
             "transformer": (
                 f"{feed.transformer.name} {feed.transformer.kva:g} kVA "
                 f"{feed.transformer.connection}"
@@ -108,6 +108,26 @@ def feeder_rows(
             }
         rows.append(row)
     return rows
+
+
+def _fed_from(building: Building, name: str, result: BuildingResult | None) -> str:
+    """Where panel ``name`` is fed from, by the feeder's number in the layout shown: the revised
+    one (with the number as found beside it when it moved) after balancing."""
+    feed = building.feed_of(name)
+    if feed is None:
+        return "service"
+    if result is None:
+        return building.feeder_text(feed)
+    return result.after.feeder_text(feed, was=building)
+
+
+def _feeder_number(building: Building, feed: Feed, result: BuildingResult | None) -> str:
+    """The feeder's number in the layout shown, as :func:`_fed_from` gives it."""
+    old = building.feeder_number(feed)
+    if result is None:
+        return old
+    new = result.after.feeder_number(feed)
+    return new if new == old else f"{new} (was {old})"
 
 
 def move_rows(result: BuildingResult) -> list[dict[str, object]]:
@@ -199,6 +219,172 @@ def summary_lines(
     return out
 
 
+def spare_capacity(building: Building, figures: RollUp, name: str) -> str:
+    """Room left on what limits panel ``name``, on the connected basis with all it feeds: its
+    main breaker, else the transformer feeding it (its heaviest winding), else the feeder
+    breaker upstream, else its bus; "rating not given" when the schedules give none."""
+    panel = building.panel(name)
+    heaviest = max(figures.panels[name].line_a.values(), default=0.0)
+    feed = building.feed_of(name)
+
+    def left(rating: float, what: str) -> str:
+        if heaviest > rating:
+            return f"none: {heaviest - rating:,.0f} A over the {rating:g} A {what}"
+        return f"{rating - heaviest:,.0f} A of {rating:g} A {what}"
+
+    if panel.main_a:
+        return left(panel.main_a, "main")
+    if feed is not None and feed.transformer is not None:
+        loading = figures.feeders[name].transformer_loading_pct
+        if loading is not None:
+            t = feed.transformer
+            named = f"{t.name or 'transformer'} {t.kva:g} kVA"
+            if loading > 100.0:
+                return f"none: {named} at {loading:.0f} % on its heaviest winding"
+            return f"{100.0 - loading:.0f} % of {named}"
+    if feed is not None:
+        trip = building.feeder_circuit(feed).trip_a
+        if trip:
+            return left(trip, "feeder")
+    if panel.bus_a:
+        return left(panel.bus_a, "bus")
+    return "rating not given"
+
+
+def _change(before: float, after: float | None, digits: int = 1) -> str:
+    """``"34.0"`` as found; ``"34.0 → 1.0"`` when revised."""
+    text = f"{before:,.{digits}f}"
+    return text if after is None else f"{text} → {after:,.{digits}f}"
+
+
+def printout_tables(
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
+) -> list[tuple[str, list[list[object]]]]:
+    """The printout's summary-page tables, as (title, rows) with a header row: every panel
+    (system, where it is fed from, connected and demand kVA, amps per line, imbalance, spare
+    capacity), then every feeder and the transformer on it. Revised figures after balancing,
+    with the figure as found beside the imbalance and the loading."""
+    figures = result.after_figures if result else before
+    after = result.after if result else building
+    revised = " (revised)" if result else ""
+    panels: list[list[object]] = [
+        [
+            "Panel",
+            "System",
+            "Fed from",
+            "Connected kVA",
+            "Demand kVA",
+            f"Amps per line{revised}",
+            "Imbalance %" + (" found → revised" if result else ""),
+            "Spare capacity (connected)",
+        ]
+    ]
+    for name in reversed(building.order()):
+        fig = figures.panels[name]
+        demand_fig = None
+        if demand is not None:
+            demand_fig = (demand[1] if result and demand[1] is not None else demand[0]).panels[name]
+        panels.append(
+            [
+                name,
+                building.panel(name).system.designation,
+                _fed_from(building, name, result),
+                f"{fig.total_va / 1000:,.1f}",
+                f"{demand_fig.total_va / 1000:,.1f}" if demand_fig else "not worked out",
+                _lines_text(fig.line_a, 1),
+                _change(
+                    before.panels[name].imbalance_pct,
+                    fig.imbalance_pct if result else None,
+                ),
+                spare_capacity(after, figures, name),
+            ]
+        )
+    feeders: list[list[object]] = [
+        [
+            "Panel fed",
+            "From",
+            "Feeder circuit",
+            "Transformer",
+            f"Lines{revised}",
+            f"Amps upstream{revised}",
+            "Transformer loading %" + (" found → revised" if result else ""),
+        ]
+    ]
+    for name in reversed(building.order()):
+        feed = building.feed_of(name)
+        if feed is None:
+            continue
+        on_feeder = figures.feeders[name]
+        t = feed.transformer
+        found = before.feeders[name].transformer_loading_pct
+        feeders.append(
+            [
+                name,
+                feed.source,
+                _feeder_number(building, feed, result),
+                f"{t.name} {t.kva:g} kVA {t.connection}".strip() if t else "none",
+                "-".join(on_feeder.lines),
+                _lines_text(on_feeder.line_a, 1),
+                ""
+                if found is None
+                else _change(found, on_feeder.transformer_loading_pct if result else None),
+            ]
+        )
+    tables = [("Panels", panels)]
+    if len(feeders) > 1:
+        tables.append(("Feeders and transformers", feeders))
+    return tables
+
+
+def panel_summaries(
+    building: Building,
+    before: RollUp,
+    result: BuildingResult | None = None,
+    demand: tuple[RollUp, RollUp | None] | None = None,
+) -> dict[str, list[list[object]]]:
+    """Each panel's summary for its own page of the printout, as rows: a header (figure, as
+    found and, after balancing, revised), then one row per figure (with all it feeds)."""
+    out: dict[str, list[list[object]]] = {}
+    for name in reversed(building.order()):
+        found = before.panels[name]
+        now = result.after_figures.panels[name] if result else None
+        header: list[object] = ["Figure", "As found", *(["Revised"] if result else [])]
+        figs = [found] if now is None else [found, now]
+        rows: list[list[object]] = [header]
+        fed = [_fed_from(building, name, None)] + (
+            [_fed_from(building, name, result)] if result else []
+        )
+        rows.append(["Fed from", *fed])
+        rows.append(["Connected kVA", *[f"{f.total_va / 1000:,.1f}" for f in figs]])
+        if demand is not None:
+            ds = [demand[0]] if not result or demand[1] is None else [demand[0], demand[1]]
+            rows.append(["Demand kVA", *[f"{d.panels[name].total_va / 1000:,.1f}" for d in ds]])
+        rows.append(["VA per line", *[_lines_text(f.phase_va) for f in figs]])
+        rows.append(["Amps per line", *[_lines_text(f.line_a, 1) for f in figs]])
+        rows.append(["Imbalance %", *[f"{f.imbalance_pct:.1f}" for f in figs]])
+        if building.panel(name).system.neutral:
+            rows.append(["Neutral A", *[f"{f.neutral_a:.1f}" for f in figs]])
+        figures = result.after_figures if result else before
+        rows.append(
+            [
+                "Spare capacity",
+                spare_capacity(building, before, name),
+                *([spare_capacity(result.after, figures, name)] if result else []),
+            ]
+        )
+        if result is not None:
+            outcome = result.outcomes[name]
+            rows.append(["Breakers to move", "", str(len(outcome.moves))])
+            if outcome.swapped_feeds:
+                rows.append(["Feeders to re-land", "", ", ".join(outcome.swapped_feeds)])
+            rows.append(["Result", "", outcome.status.value])
+        out[name] = rows
+    return out
+
+
 def _root_of(building: Building, name: str) -> str:
     feed = building.feed_of(name)
     while feed is not None:
@@ -230,7 +416,7 @@ def _feeder_tables(feeds: list[dict[str, object]], balanced: bool) -> list[str]:
     feeder_cols = [
         ("panel", "Feeds"),
         ("fed_from", "From"),
-        ("circuit", "Ckt"),
+        ("circuit", "Circuit"),
         ("transformer", "Transformer"),
         ("lines_before", "Lines"),
         ("upstream_a_before", "Amps upstream"),
@@ -363,7 +549,7 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
     """The field steps of every panel that changes, service first: the cautions, then per panel
     its breaker steps (one free space at a time), the feeder conductors to re-land and the
     currents to expect afterwards (fundamental, with everything the panel feeds)."""
-    from balancer.field.workorder import STEP_HEADER, step_rows, work_order
+    from balancer.field.workorder import STEP_HEADER, breaker_text, step_rows, work_order
 
     rows: list[list[object]] = [[f"Work order — building {result.before.name}"], []]
     rows += [["Caution", c] for c in CAUTIONS]
@@ -377,7 +563,9 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
     for name in changed:
         outcome = result.outcomes[name]
         order = work_order(result.before.panel(name), result.after.panel(name))
-        rows += [[], [f"Panel {name}"], list(STEP_HEADER), *step_rows(order)]
+        rows += [[], [f"Panel {name}"]]
+        rows += [["Caution", c] for c in order.cautions if c not in CAUTIONS]
+        rows += [list(STEP_HEADER), *step_rows(order)]
         step = len(order.steps)
         for fed in outcome.swapped_feeds:
             feed = result.after.feed_of(fed)
@@ -396,6 +584,8 @@ def work_order_rows(result: BuildingResult) -> list[list[object]]:
                     lines,
                     spaces,
                     lines,
+                    breaker_text(circuit),
+                    "",
                     f"{fed} line A then lands on the "
                     + ("second" if feed.swapped else "first")
                     + " pole; mark both ends",
@@ -433,6 +623,18 @@ def pdf_work_rows(result: BuildingResult) -> dict[str, list[list[object]]]:
             rows.append([number, "Re-land conductors", feed.circuit_id, text, where, where, "____"])
         out[name] = rows
     return out
+
+
+def work_cautions(result: BuildingResult) -> dict[str, tuple[str, ...]]:
+    """Per panel that changes, the cautions its printed work order carries (with a line for
+    the loads that must not lose power when some move)."""
+    from balancer.field.workorder import work_order
+
+    return {
+        name: work_order(result.before.panel(name), result.after.panel(name)).cautions
+        for name in reversed(result.before.order())
+        if result.outcomes[name].moves or result.outcomes[name].swapped_feeds
+    }
 
 
 def printed_panels(building: Building, figures: RollUp) -> list[Panel]:
@@ -486,7 +688,7 @@ def write_building_workbook(
             name: frozenset(o.moves) | _feeder_ids(result, name)
             for name, o in result.outcomes.items()
         }
-        write_building_sheets(book, result.after, f"{building.name}, revised", shaded)
+        write_building_sheets(book, result.after, f"{building.name}, revised", shaded, building)
     return save_workbook(book, path)
 
 

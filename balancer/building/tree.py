@@ -104,6 +104,28 @@ class Building:
     def feeder_circuit(self, feed: Feed) -> Circuit:
         return self.panel(feed.source).circuit(feed.circuit_id)
 
+    def feeder_number(self, feed: Feed) -> str:
+        """The feeder breaker's circuit number in this building's layout: its first space.
+
+        ``feed.circuit_id`` is the breaker's identity, the number it had when read; after
+        balancing the breaker may sit in other spaces, and the revised schedule numbers it by
+        them. Every output names a feeder through this (or :meth:`feeder_text`), so one
+        feeder never carries two numbers.
+        """
+        circuit = self.feeder_circuit(feed)
+        return str(circuit.first_space) if circuit.placed else circuit.id
+
+    def feeder_text(self, feed: Feed, was: Building | None = None) -> str:
+        """``"MDP circuit 9"``; with ``was`` (the building as found), ``"MDP circuit 9 (was
+        7)"`` when the breaker moved."""
+        number = self.feeder_number(feed)
+        text = f"{feed.source} circuit {number}"
+        if was is not None:
+            old = was.feeder_number(feed)
+            if old != number:
+                text += f" (was {old})"
+        return text
+
     def with_panels(self, panels: Iterable[Panel], feeds: Iterable[Feed] | None = None) -> Building:
         return replace(
             self, panels=tuple(panels), feeds=tuple(self.feeds if feeds is None else feeds)

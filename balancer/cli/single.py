@@ -18,7 +18,8 @@ from balancer.errors import Problem, ScheduleError
 from balancer.physics.analysis import Loads
 from balancer.report import text
 from balancer.report.json import balance_json, check_json
-from balancer.report.textbars import before_after_bars, phase_bars, use_color
+from balancer.report.states import states
+from balancer.report.textbars import before_after_bars, phase_bars, state_bars, use_color
 
 DEMO_SAMPLE = "office-208y120.xlsx"
 
@@ -74,7 +75,12 @@ def run_balance(args: argparse.Namespace) -> int:
         print_json(balance_json(report))
         return 0
     result = report.result
-    bars = _bars(args, result.before, result.after, result.after_panel.system.neutral)
+    color = use_color(sys.stdout, args.no_color)
+    bars = state_bars(
+        [(s.heading, s.loads) for s in states(result)],
+        color=color,
+        show_neutral=result.after_panel.system.neutral,
+    )
     sections = [
         report.field.text_lines(args.work_order),
         ["After balancing:", *loads_section_lines(report.demand)] if report.demand else [],

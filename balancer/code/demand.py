@@ -21,6 +21,7 @@ from typing import Any, Literal
 from balancer.code.feeder import (
     BRANCH_DROP_GUIDE_PCT,
     NEUTRAL_THRESHOLD_A,
+    SIZES,
     SMALL_CONDUCTOR_LIMIT_A,
     STANDARD_RATINGS_A,
     TOTAL_DROP_GUIDE_PCT,
@@ -1169,6 +1170,66 @@ def _branch_need(rules: RuleSet, rule: ClassRule, current: float, continuous: bo
     if rule.largest_motor and sizing:
         why = " at 125% of the motor current"
     return _BranchNeed(required, clause, suggestion, why)
+
+
+@dataclass(frozen=True, slots=True)
+class BranchConductor:
+    """The copper conductor a branch circuit's load and breaker imply, when the schedule gives
+    none: the smallest size that carries the load, is protected by the breaker and is within
+    its small-conductor limit."""
+
+    conductor: Conductor
+    rating_a: float  # the breaker it was sized for: the schedule's, else the one suggested
+    rating_given: bool
+    required_a: float
+    column_c: int
+    clauses: str
+
+    @property
+    def text(self) -> str:
+        rating = f"{self.rating_a:g} A breaker" + ("" if self.rating_given else " (suggested)")
+        return (
+            f"{self.conductor} (implied by the branch-circuit check, not in the schedule: "
+            f"{self.required_a:.1f} A on a {rating}, {self.column_c} °C column, {self.clauses}; "
+            "confirm before pulling wire)"
+        )
+
+
+def branch_conductor(
+    panel: Panel, circuit: Circuit, options: DemandOptions | None = None
+) -> BranchConductor | None:
+    """The conductor the branch-circuit check implies for ``circuit`` (see
+    :class:`BranchConductor`); None for a spare, a circuit without load, or a rule set that
+    does not size circuits."""
+    options = options or DemandOptions()
+    rules = resolve_rule_set(options.rules, panel.system)
+    if circuit.is_spare or circuit.basis_va <= 0 or not rules.feeder_sizing:
+        return None
+    rows, _ = _classify_all(panel.with_circuits([circuit]), rules, options.occupancy)
+    _, name, connected, continuous = rows[0]
+    rule = rules.classes[name]
+    need = _branch_need(rules, rule, _circuit_current_a(panel, circuit, connected), continuous)
+    rating = circuit.trip_a or need.suggestion
+    if rating is None:
+        return None
+    receptacles = name == "general_receptacles"
+    for size in SIZES:
+        column = termination_column_c(rating, size, options.terminations_75c)
+        ampacity = ampacity_a("cu", size, column)
+        if ampacity is None or ampacity + 1e-9 < need.required_a:
+            continue
+        limit = SMALL_CONDUCTOR_LIMIT_A.get(("cu", size))
+        if not rule.largest_motor and (
+            (limit is not None and rating > limit)
+            or not protected_by(ampacity, rating, receptacles)
+        ):
+            continue
+        clauses = "Table 310.16, " + ("430.22" if rule.largest_motor else "240.4(D)")
+        return BranchConductor(
+            Conductor(size, "cu"), rating, circuit.trip_a is not None, need.required_a, column,
+            clauses,
+        )  # fmt: skip
+    return None
 
 
 def _breaker_flag(

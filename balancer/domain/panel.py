@@ -110,7 +110,8 @@ class Circuit:
     load basis a run chooses. ``balance_va`` is the load a run balances and analyses on instead
     (a clamp reading under ``--basis measured`` or ``larger``, set by
     :func:`balancer.field.basis.apply_basis`), None for the design load; :attr:`basis_va` is
-    the one to use for figures. ``measured_a`` is the single clamp reading of the circuit,
+    the one to use for figures. ``critical`` is the ``Critical`` column's answer (the load must
+    not lose power), None when blank. ``measured_a`` is the single clamp reading of the circuit,
     ``measured_line_a`` the per-line readings of a multi-pole circuit (amperes);
     ``harmonic_profile`` names a harmonic profile (checked when read), ``conductor`` the branch
     conductor. ``extra`` keeps every other input column, verbatim, in input order, so the writer
@@ -138,6 +139,7 @@ class Circuit:
     harmonic_profile: str | None = None
     conductor: Conductor | None = None
     balance_va: float | None = None
+    critical: bool | None = None  # the load must not lose power; None: not said
     extra: tuple[tuple[str, Any], ...] = ()
 
     @property

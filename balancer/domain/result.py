@@ -126,7 +126,17 @@ class BalanceResult:
     goal_bound: float = -math.inf  # proven lower bound on that figure over every arrangement
     goal_proven: bool = False  # the figure is within the goal's tolerance of the bound
     recommendation: Recommendation | None = None  # why this row of the trade-off was chosen
+    # The panel as it stands plus its new circuits landed without moving any breaker (the
+    # 0-move row of the trade-off table), and its figures; None when there is nothing new.
+    with_additions_panel: Panel | None = None
+    with_additions: Loads | None = None
 
     @property
     def gap_va(self) -> float:
         return max(0.0, self.after.spread_va - self.lower_bound_spread_va)
+
+    @property
+    def new_circuits(self) -> tuple[str, ...]:
+        """Ids of the new circuits: no space in the panel as it stands, one after."""
+        where = {c.id: c.placed for c in self.after_panel.circuits}
+        return tuple(c.id for c in self.before_panel.circuits if not c.placed and where.get(c.id))

@@ -9,6 +9,7 @@ from typing import Any, Literal
 
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, BalanceResult, Recommendation, SolveStatus
+from balancer.errors import BalancerError
 from balancer.field.basis import (
     Basis,
     CircuitBasis,
@@ -116,9 +117,28 @@ class FieldRun:
                 recommendation=_with_neutral(result, self.table),
             )
             self.recommendation = result.recommendation
+        if not options.fresh and placed:
+            result = self._with_additions(panel, result, options, balance_fn)
         if not options.fresh:
             self.order = work_order_for(result)
         return result
+
+    def _with_additions(
+        self, panel: Panel, result: BalanceResult, options: BalanceOptions, balance_fn: BalanceFn
+    ) -> BalanceResult:
+        """The result with the middle of its three states: the panel as it stands plus its new
+        circuits landed without moving a breaker. That is the trade-off table's 0-move row when
+        there is a table, else one solve with no move allowed."""
+        if not any(not c.placed for c in panel.circuits):
+            return result
+        if self.table is not None and self.table.rows and self.table.rows[0].moves == 0:
+            landed = self.table.results[0]
+        else:
+            try:
+                landed = balance_fn(panel, replace(options, max_moves=0, target_imbalance_pct=None))
+            except BalancerError:  # the new circuits do not fit without a move
+                return result
+        return replace(result, with_additions_panel=landed.after_panel, with_additions=landed.after)
 
     def margin(self, panel: Panel, options: BalanceOptions) -> float | None:
         """The imbalance margin that applies: ``within_pct`` (1 point by default) on a placed

@@ -30,6 +30,13 @@ class Tradeoff:
     full_moves: int  # moves of the best arrangement found with no move limit
     capped: bool  # True when the table stops before ``full_moves``
     notes: tuple[str, ...] = ()
+    new_circuits: int = 0  # circuits with no space yet, which every row lands
+
+
+NEW_ROW_NOTE = (
+    "0 moves: the {count} new circuit(s) landed where they fit best and no breaker moved "
+    "(the 'with additions' figures); every row includes them"
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -148,7 +155,8 @@ def tradeoff(
             f"table stops at {last} moves; the best arrangement found needs {full_moves} "
             f"moves to bring {goal.phrase} to {goal.text(full.goal_value)} ({full.status.value})"
         )
-    return Tradeoff(tuple(rows), tuple(results), full_moves, capped, tuple(notes))
+    new = sum(1 for c in panel.circuits if not c.placed)
+    return Tradeoff(tuple(rows), tuple(results), full_moves, capped, tuple(notes), new)
 
 
 def _row(moves: int, result: BalanceResult, status: SolveStatus) -> TradeoffRow:
@@ -320,8 +328,14 @@ def tradeoff_lines(table: Tradeoff) -> list[str]:
         )
     if extra:
         out.append(f"  status: how far {extra.phrase} is proven for each budget")
-    out += [f"  note: {n}" for n in table.notes]
+    out += [f"  note: {n}" for n in _notes(table)]
     return out
+
+
+def _notes(table: Tradeoff) -> list[str]:
+    """The table's notes, the meaning of its 0-move row first when there are new circuits."""
+    first = [NEW_ROW_NOTE.format(count=table.new_circuits)] if table.new_circuits else []
+    return first + list(table.notes)
 
 
 def tradeoff_json(table: Tradeoff) -> list[dict[str, Any]]:
@@ -362,9 +376,9 @@ def tradeoff_rows(table: Tradeoff) -> list[list[Any]]:
         if extra:
             cells.insert(4, round(row.goal_value, extra.digits))
         rows.append(cells)
-    if table.notes:
+    if _notes(table):
         rows.append([])
-        rows += [["Note", n] for n in table.notes]
+        rows += [["Note", n] for n in _notes(table)]
     return rows
 
 

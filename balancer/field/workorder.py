@@ -18,8 +18,9 @@ from typing import Any, Literal
 from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceResult
 from balancer.domain.systems import Line
+from balancer.field.critical import critical_reason
 from balancer.physics.analysis import analyze
-from balancer.report.safety import CAUTIONS
+from balancer.report.safety import CAUTIONS, MUST_STAY_ON_CAUTION, MUST_STAY_ON_STEP
 
 Action = Literal["install", "move", "park", "set aside", "reinstall"]
 
@@ -43,6 +44,20 @@ class StepItem:
     to_spaces: tuple[int, ...]
     to_lines: tuple[Line, ...]
     notes: str = ""
+    breaker: str = ""  # "2-pole, 40 A"
+    conductor: str = ""  # a new breaker's conductor: the schedule's, else the one implied
+    critical: str = ""  # why the load must not lose power; empty when it may
+
+    @property
+    def details(self) -> list[str]:
+        """What a person at the panel needs beside the move: the new breaker and its wire, and
+        the warning for a load that must not lose power."""
+        out = []
+        if not self.from_spaces and self.to_spaces:
+            out.append(f"new breaker: {self.breaker}; conductor {self.conductor or 'not known'}")
+        if self.critical:
+            out.append(MUST_STAY_ON_STEP.format(why=self.critical))
+        return out
 
 
 @dataclass(frozen=True, slots=True)
@@ -162,12 +177,19 @@ def work_order(before: Panel, after: Panel) -> WorkOrder:
         for m in unit.members:
             current[m] = spot[m]
     loads = analyze(after)
+    critical = [i.circuit_id for s in steps for i in s.items if i.critical]
+    cautions = CAUTIONS
+    if critical:
+        ids = list(dict.fromkeys(critical))
+        named = ("circuit " if len(ids) == 1 else "circuits ") + ", ".join(ids)
+        cautions = (MUST_STAY_ON_CAUTION.format(circuits=named), *CAUTIONS)
     order = WorkOrder(
         panel_name=after.name,
         steps=tuple(steps),
         expected_line_a=dict(loads.line_amps),
         expected_neutral_a=loads.neutral_amps,
         temporary_space_needed=temporary,
+        cautions=cautions,
     )
     final = replay(before, order)
     if final != target:  # pragma: no cover - guards the planner itself
@@ -229,6 +251,8 @@ def work_order_lines(order: WorkOrder) -> list[str]:
                 f"{_place_text(item.from_spaces, item.from_lines)} -> "
                 f"{_place_text(item.to_spaces, item.to_lines)}"
             )
+            for detail in item.details:
+                out.append(f"      {detail}")
             if item.notes:
                 out.append(f"      notes: {item.notes}")
         if step.remark:
@@ -258,6 +282,8 @@ STEP_HEADER = (
     "From lines",
     "To spaces",
     "To lines",
+    "Breaker",
+    "Conductor (new breaker)",
     "Notes",
     "Done (initials)",
 )
@@ -282,7 +308,9 @@ def step_rows(order: WorkOrder) -> list[list[Any]]:
     rows: list[list[Any]] = []
     for step in order.steps:
         for item in step.items:
-            notes = "; ".join(x for x in (item.notes, step.remark) if x)
+            critical = MUST_STAY_ON_STEP.format(why=item.critical) if item.critical else ""
+            rest = "; ".join(x for x in (item.notes, step.remark) if x)
+            notes = " ".join(x for x in (critical, rest) if x)
             rows.append(
                 [
                     step.number,
@@ -293,6 +321,8 @@ def step_rows(order: WorkOrder) -> list[list[Any]]:
                     "-".join(item.from_lines),
                     _spaces_text(item.to_spaces),
                     "-".join(item.to_lines),
+                    item.breaker,
+                    item.conductor,
                     notes,
                     "",
                 ]
@@ -317,6 +347,10 @@ def work_order_json(order: WorkOrder) -> list[dict[str, Any]]:
                     "to_spaces": list(item.to_spaces),
                     "to_lines": list(item.to_lines),
                     "notes": item.notes,
+                    "breaker": item.breaker,
+                    "conductor": item.conductor or None,
+                    "critical": item.critical or None,
+                    "details": item.details,  # the lines printed under the step
                 }
                 for item in step.items
             ],
@@ -466,15 +500,15 @@ def _step(
             to_spaces=to[m],
             to_lines=tuple(geometry.line_of(s) for s in to[m]),
             notes=circuit_notes(by_id[m]),
+            breaker=breaker_text(by_id[m]),
+            conductor=conductor_text(panel, by_id[m]) if not by_id[m].placed else "",
+            critical=critical_reason(by_id[m]) or "",
         )
         for m in unit.members
     )
     remarks = []
     if unit.group:
-        remarks.append(
-            "Multiwire circuit: move these breakers together with their shared neutral; "
-            "refit the handle tie (or use one multipole breaker) across the new spaces."
-        )
+        remarks.append(mwbc_remark(unit.group, unit.members))
     if action == "park":
         remarks.append("Temporary position: this breaker moves again in a later step.")
     if action == "set aside":
@@ -483,6 +517,37 @@ def _step(
             "re-installed in a later step."
         )
     return Step(number, action, items, unit.group, " ".join(remarks))
+
+
+def mwbc_remark(group: str, members: Iterable[str]) -> str:
+    """The step remark of a multiwire branch circuit: which circuits, and the handle tie."""
+    return (
+        f"Multiwire branch circuit {group} (circuits {', '.join(members)}, one shared neutral): "
+        "move them together with their neutral, keep them on different lines, and handle-tie "
+        "them or use one multipole breaker so they open together (common trip or handle ties, "
+        "NEC 210.4(B))."
+    )
+
+
+def breaker_text(circuit: Circuit) -> str:
+    """``"2-pole, 40 A"``; the rating "not given" when the schedule has none."""
+    rating = f"{circuit.trip_a:g} A" if circuit.trip_a else "rating not given"
+    return f"{circuit.poles}-pole, {rating}"
+
+
+def conductor_text(panel: Panel, circuit: Circuit) -> str:
+    """A circuit's conductor as the schedule gives it, else the size the branch-circuit check
+    implies for its design load and breaker (said so), else empty."""
+    from dataclasses import replace
+
+    from balancer.code.demand import branch_conductor
+
+    if circuit.conductor is not None:
+        written = circuit.conductor.as_written
+        same = written == str(circuit.conductor)
+        return f"{circuit.conductor} (from the schedule" + ("" if same else f": {written}") + ")"
+    implied = branch_conductor(panel, replace(circuit, balance_va=None))
+    return implied.text if implied is not None else ""
 
 
 def _check_layout(panel: Panel) -> None:

@@ -42,6 +42,7 @@ def phase_load_chart(
     after_col: int,
     average_col: int,
     unit: str = "VA",
+    middle_col: int | None = None,
 ) -> BarChart:
     """Clustered bars of each line's load before and after, with the average as a line.
 
@@ -55,15 +56,20 @@ def phase_load_chart(
     bars.y_axis.title = unit
     bars.x_axis.title = "Line"
     categories = Reference(ws, min_col=line_col, min_row=first_row, max_row=last_row)
-    for col in (before_col, after_col):
+    columns = (before_col, after_col) if middle_col is None else (before_col, middle_col, after_col)
+    for col in columns:
         bars.add_data(
             Reference(ws, min_col=col, min_row=header_row, max_row=last_row), titles_from_data=True
         )
     bars.set_categories(categories)
-    # Before hatched-light, after solid-dark: the two stay apart in greyscale print.
+    # Before hatched-light, after solid-dark: the two stay apart in greyscale print; a middle
+    # state (the panel with its additions) in between.
     bars.series[0].graphicalProperties = GraphicalProperties(solidFill="B8C4CE")
     bars.series[0].graphicalProperties.line = LineProperties(solidFill="3C4A57")
-    bars.series[1].graphicalProperties = GraphicalProperties(solidFill="3C4A57")
+    if middle_col is not None:
+        bars.series[1].graphicalProperties = GraphicalProperties(solidFill="7D8B99")
+        bars.series[1].graphicalProperties.line = LineProperties(solidFill="3C4A57")
+    bars.series[-1].graphicalProperties = GraphicalProperties(solidFill="3C4A57")
     average = LineChart()
     average.add_data(
         Reference(ws, min_col=average_col, min_row=header_row, max_row=last_row),

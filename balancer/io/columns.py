@@ -211,6 +211,23 @@ COLUMNS: tuple[ColumnSpec, ...] = (
         "yes: the load runs three hours or more (counted at 125 %)",
     ),
     ColumnSpec(
+        "critical",
+        "Critical",
+        (
+            "critical",
+            "criticalload",
+            "mustnotlosepower",
+            "keepenergised",
+            "keepenergized",
+            "essential",
+        ),
+        "flag",
+        "",
+        "yes: the load must not lose power (life safety, fire alarm, medical refrigeration, "
+        "server/IT …); its work-order step asks for temporary power or an outage scheduled "
+        "with the owner first. Blank: judged from the description and notes; no: never",
+    ),
+    ColumnSpec(
         "yokes",
         "Receptacles",
         ("receptacles", "yokes", "receptaclecount", "devices", "outlets"),

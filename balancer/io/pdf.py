@@ -7,6 +7,7 @@ and copied.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from functools import cache
@@ -27,6 +28,7 @@ from balancer.io.writer import (
 )
 from balancer.physics.analysis import Loads, share_by_line
 from balancer.report.safety import CAUTION, CAUTIONS
+from balancer.report.states import states
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -289,7 +291,7 @@ def _summary_page(
     the cautions. False when the chart did not fit above the caution and is still to draw."""
     page.heading(f"Panel {panel.name}", size=15)
     _facts_block(page, panel)
-    page.heading("Per-line figures", size=11)
+    page.heading("Per-line figures (currents true RMS)", size=11)
     if result is not None:
         _before_after_table(page, panel, loads, result)
     else:
@@ -370,24 +372,30 @@ def _facts_block(page: _Page, panel: Panel) -> None:
 
 
 def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: BalanceResult) -> None:
-    """Each line's load and current before and after balancing, and the neutral's."""
-    header = ["Line", "Before (VA)", "After (VA)", "Before (A RMS)", "After (A RMS)"]
-    rows: list[list[Any]] = [
-        [
-            line,
-            _va(result.before.phase_va[line]),
-            _va(loads.phase_va[line]),
-            _amps(result.before.line_amps[line]),
-            _amps(loads.line_amps[line]),
-        ]
-        for line in panel.lines
-    ]
+    """Each line's load and current in each state (before and after; as it stands, with the
+    additions and after when there are new circuits), and the neutral's: one row a line."""
+    shown = states(result)
+    header = ["Line"]
+    for state in shown:
+        header += [f"{state.title} (VA)", f"{state.title} (A)"]
+    rows: list[list[Any]] = []
+    for line in panel.lines:
+        row: list[Any] = [line]
+        for state in shown:
+            row += [_va(state.loads.phase_va[line]), _amps(state.loads.line_amps[line])]
+        rows.append(row)
     if panel.system.neutral:
-        rows.append(
-            ["Neutral", None, None, _amps(result.before.neutral_amps), _amps(loads.neutral_amps)]
-        )
-    widths = [0.9, 1.2, 1.2, 1.1, 1.1]
+        neutral: list[Any] = ["Neutral"]
+        for state in shown:
+            neutral += [None, _amps(state.loads.neutral_amps)]
+        rows.append(neutral)
+    column = 1.15 if len(shown) == 2 else 1.05
+    widths = [0.8, *[column] * (2 * len(shown))]
     page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
+    if result.new_circuits:  # say what each state holds, so none is read as another
+        for state in shown:
+            page.paragraph(f"{state.title}: {state.detail}.", size=7.5)
+        page.y_in += 0.08
 
 
 def _line_table(page: _Page, panel: Panel, loads: Loads) -> None:
@@ -448,15 +456,19 @@ def _whole_panel(panel: Panel, loads: Loads) -> list[tuple[str, str, str]]:
 
 
 def _before_after_figures(page: _Page, panel: Panel, loads: Loads, result: BalanceResult) -> None:
-    """The whole panel's figures before and after balancing, side by side."""
-    before = {key: value for _, value, key in _whole_panel(result.before_panel, result.before)}
+    """The whole panel's figures in each state, side by side."""
+    shown = states(result)
+    figures = [{key: value for _, value, key in _whole_panel(panel, s.loads)} for s in shown]
     rows = [
-        [label, before.get(key, ""), value]
-        for label, value, key in _whole_panel(panel, loads)
-        if key != "neutral"  # the per-line table above has the neutral before and after
+        [label, *[f.get(key, "") for f in figures]]
+        for label, _, key in _whole_panel(panel, loads)
+        if key != "neutral"  # the per-line table above has the neutral in each state
     ]
     page.table(
-        ["Whole panel", "Before", "After"], rows, [2.8, 1.3, 1.3], align=["left", "right", "right"]
+        ["Whole panel", *[s.title for s in shown]],
+        rows,
+        [2.8, *[1.3] * len(shown)],
+        align=["left", *["right"] * len(shown)],
     )
 
 
@@ -485,17 +497,25 @@ def _bar_chart(
     x = list(range(len(lines)))
     after = [loads.phase_va[line] for line in lines]
     if result is not None:
-        before = [result.before.phase_va[line] for line in lines]
-        ax.bar(
-            [i - 0.2 for i in x],
-            before,
-            0.4,
-            label="before",
-            color="white",
-            edgecolor="black",
-            hatch="//",
-        )
-        ax.bar([i + 0.2 for i in x], after, 0.4, label="after", color="#4A5A6A", edgecolor="black")
+        shown = states(result)
+        step = 0.8 / len(shown)
+        looks = [
+            {"color": "white", "hatch": "//"},
+            {"color": "#B8C4CE"},
+            {"color": "#4A5A6A"},
+        ]
+        looks = [looks[0], looks[-1]] if len(shown) == 2 else looks
+        for k, (state, look) in enumerate(zip(shown, looks, strict=True)):
+            offset = -0.4 + step * (k + 0.5)
+            values = [state.loads.phase_va[line] for line in lines]
+            ax.bar(
+                [i + offset for i in x],
+                values,
+                step,
+                label=state.title.lower(),
+                edgecolor="black",
+                **look,  # type: ignore[arg-type]
+            )
     else:
         ax.bar(x, after, 0.5, label="as placed", color="#4A5A6A", edgecolor="black")
     average = loads.total_va / len(lines)
@@ -506,8 +526,10 @@ def _bar_chart(
     ax.set_ylabel("Load (VA)", fontsize=8)
     ax.yaxis.set_major_formatter(StrMethodFormatter("{x:,.0f}"))
     ax.tick_params(labelsize=8)
-    ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=3, frameon=False)
-    title = "Load per line before and after balancing" if result is not None else "Load per line"
+    ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=4, frameon=False)
+    title = "Load per line"
+    if result is not None:
+        title += " in each state" if result.new_circuits else " before and after balancing"
     page.text(MARGIN_IN, page.y_in - 0.3, f"{title} (VA)", size=9, weight="bold", color=_HEAD)
     page.y_in += height_in
 
@@ -518,14 +540,15 @@ def _cautions(page: _Page) -> None:
     page.paragraph(CAUTION)
 
 
-def _full_cautions(page: _Page) -> None:
+def _full_cautions(page: _Page, cautions: Sequence[str] = CAUTIONS) -> None:
     page.heading("Before any work at the panel", size=11)
-    for note in CAUTIONS:
+    for note in cautions:
         page.paragraph(f"• {note}", size=8)
         page.y_in += 0.02
 
 
-def _directory_rows(panel: Panel) -> list[list[Any]]:
+def _directory_rows(panel: Panel, new: frozenset[str] = frozenset()) -> list[list[Any]]:
+    """Two spaces a row as the panel is built; a new breaker's description says ``new``."""
     geometry = panel.geometry
     by_space = {s: c for c in panel.circuits for s in c.spaces}
     out: list[list[Any]] = []
@@ -540,7 +563,10 @@ def _directory_rows(panel: Panel) -> list[list[Any]]:
         if space != circuit.first_space:
             return f"(pole of {circuit.first_space})", "", share
         trip = f"{circuit.trip_a:g} A" if circuit.trip_a else ""
-        return circuit.description, f"{circuit.poles}P {trip}".strip(), share
+        description = circuit.description
+        if circuit.id in new and "new" not in description.lower():
+            description += " (new)"
+        return description, f"{circuit.poles}P {trip}".strip(), share
 
     for pair in range(geometry.rows()):
         left, right = 2 * pair + 1, 2 * pair + 2
@@ -562,8 +588,10 @@ def _directory_rows(panel: Panel) -> list[list[Any]]:
     return out
 
 
-def _directory_pages(pages: list[_Page], make: Any, panel: Panel) -> None:
-    rows = _directory_rows(panel)
+def _directory_pages(
+    pages: list[_Page], make: Any, panel: Panel, new: frozenset[str] = frozenset()
+) -> None:
+    rows = _directory_rows(panel, new)
     header = [
         "Description",
         "Breaker",
@@ -606,51 +634,89 @@ WORK_HEADER = ("Step", "Action", "Circuit", "Description", "From", "To", "Done")
 
 
 def _work_order_pages(pages: list[_Page], make: Any, panel_name: str, order: WorkOrder) -> None:
-    _work_pages(pages, make, panel_name, work_rows(order))
+    _work_pages(pages, make, panel_name, work_rows(order), order.cautions)
+
+
+DETAIL_PT = 7.5
 
 
 def _work_pages(
-    pages: list[_Page], make: Any, panel_name: str, rows: Sequence[Sequence[Any]]
+    pages: list[_Page],
+    make: Any,
+    panel_name: str,
+    rows: Sequence[Sequence[Any]],
+    cautions: Sequence[str] = CAUTIONS,
 ) -> None:
-    """Work-order pages: rows in the columns of ``WORK_HEADER``, 34 to a page."""
+    """Work-order pages: rows in the columns of ``WORK_HEADER``; a row may carry, after them,
+    the lines to print under it (a new breaker's rating and conductor, a multiwire handle tie,
+    a load that must not lose power), wrapped across the page. A new page when one fills."""
     width = pages[0].width_in - 2 * MARGIN_IN
     fixed = [0.45, 1.9, 0.6, 1.0, 1.0, 0.6]
     widths = [fixed[0], fixed[1], fixed[2], width - sum(fixed), fixed[3], fixed[4], fixed[5]]
-    per_page, first_page = 34, 14  # the first page carries the cautions too
-    starts = [0, *range(first_page, len(rows), per_page)]
-    for number, start in enumerate(starts):
-        page = make()
-        page.heading(f"Work order, panel {panel_name}")
-        if number == 0:
-            _full_cautions(page)
-            page.y_in += 0.1
-        page.paragraph(
-            "Do the steps in order. Before each: de-energise the panel or the circuit, lock out, "
-            "verify dead with a meter. After each: re-label the directory; initial the Done column."
+    align = ["left"] * len(WORK_HEADER)
+    page = make()
+    page.heading(f"Work order, panel {panel_name}")
+    _full_cautions(page, cautions)
+    page.y_in += 0.1
+    page.paragraph(
+        "Do the steps in order. Before each: de-energise the panel or the circuit, lock out, "
+        "verify dead with a meter (for a load marked MUST NOT LOSE POWER, first arrange its "
+        "temporary power or scheduled outage). After each: re-label the directory; initial the "
+        "Done column."
+    )
+    page.y_in += 0.05
+    page.header_band(WORK_HEADER, widths, size=8, align=align)
+    step = 8 / _POINTS * 1.55
+    for row in rows:
+        details = (
+            [str(d) for d in row[len(WORK_HEADER)] or ()] if len(row) > len(WORK_HEADER) else []
         )
-        page.y_in += 0.05
-        end = first_page if number == 0 else start + per_page
-        page.table(WORK_HEADER, rows[start:end], widths, size=8)
-        pages.append(page)
+        if page.y_in + step * (1 + len(details)) > page.height_in - MARGIN_IN - 0.5:
+            pages.append(page)
+            page = make()
+            page.heading(f"Work order, panel {panel_name} (continued)")
+            page.header_band(WORK_HEADER, widths, size=8, align=align)
+        page.data_row(row[: len(WORK_HEADER)], widths, size=8, align=align)
+        for detail in details:
+            _detail(page, detail, MARGIN_IN + fixed[0] + 0.05, width - fixed[0] - 0.1)
+    pages.append(page)
+
+
+def _detail(page: _Page, text: str, x_in: float, width_in: float) -> None:
+    """A wrapped line of detail under a work-order row (measured, never cut short)."""
+    urgent = text.startswith("MUST NOT LOSE POWER")  # the one line that must not be missed
+    look = {"color": "#8B1A1A", "weight": "bold"} if urgent else {"color": _HEAD}
+    room = width_in / (1.2 if urgent else 1.0)  # bold type runs wider
+    for part in _wrap_cell(text, room, DETAIL_PT):
+        page.text(x_in, page.y_in - 0.02, part, size=DETAIL_PT, **look)
+        page.y_in += DETAIL_PT / _POINTS * 1.35
+    page.line(MARGIN_IN, x_in + width_in, page.y_in - 0.02)
 
 
 def work_rows(order: WorkOrder) -> list[list[Any]]:
-    """A work order's breaker steps as printed rows, in the columns of ``WORK_HEADER``."""
+    """A work order's breaker steps as printed rows, in the columns of ``WORK_HEADER``, each
+    followed by the lines to print under it (see :func:`_work_pages`)."""
     from balancer.field.workorder import ACTION_TEXT
 
-    return [
-        [
-            step.number,
-            ACTION_TEXT[step.action],
-            item.circuit_id,
-            item.description,
-            place_text(item.from_spaces, item.from_lines),
-            place_text(item.to_spaces, item.to_lines),
-            "____",
-        ]
-        for step in order.steps
-        for item in step.items
-    ]
+    rows: list[list[Any]] = []
+    for step in order.steps:
+        for index, item in enumerate(step.items):
+            details = list(item.details)
+            if step.remark and index == len(step.items) - 1:
+                details.append(step.remark)
+            rows.append(
+                [
+                    step.number,
+                    ACTION_TEXT[step.action],
+                    item.circuit_id,
+                    item.description,
+                    place_text(item.from_spaces, item.from_lines),
+                    place_text(item.to_spaces, item.to_lines),
+                    "____",
+                    details,
+                ]
+            )
+    return rows
 
 
 def place_text(spaces: Sequence[int], lines: Sequence[str]) -> str:
@@ -788,7 +854,7 @@ def pdf_pages(
         chart.y_in += 0.45
         _bar_chart(chart, panel, loads, result)
         pages.append(chart)
-    _directory_pages(pages, make, panel)
+    _directory_pages(pages, make, panel, frozenset(result.new_circuits) if result else frozenset())
     if order is not None and order.steps:
         _work_order_pages(pages, make, panel.name, order)
     extra = list(sections)
@@ -881,10 +947,15 @@ def write_building_pdf(
     *,
     paper: Paper = "letter",
     inputs: Sequence[str | Path] = (),
+    tables: Sequence[ExtraSheet] = (),
+    panel_pages: Mapping[str, Sequence[Sequence[Any]]] | None = None,
+    cautions: Mapping[str, Sequence[str]] | None = None,
 ) -> Path:
-    """A building's printout, written atomically: a summary page with the cautions, then for
-    every panel its circuit directory and, when it changes, its work order (rows in the columns
-    of ``WORK_HEADER``, from :func:`balancer.building.report.pdf_work_rows`).
+    """A building's printout, written atomically: a summary page (the summary lines, the
+    ``tables`` — each a title and rows whose first row is the header — and the caution), then
+    for every panel its summary (``panel_pages``: rows, the first the header), its circuit
+    directory and, when it changes, its work order (rows in the columns of ``WORK_HEADER``, from
+    :func:`balancer.building.report.pdf_work_rows`, with ``cautions`` for that panel).
 
     ``panels`` are as they should be posted: the revised layout after balancing. ``inputs``
     are refused as ``path``.
@@ -904,7 +975,12 @@ def write_building_pdf(
         for line in summary:
             first.paragraph(line)
             first.y_in += 0.02
-        first.y_in += 0.15
+        first.y_in += 0.1
+        for table_title, rows in tables:
+            first = _titled_rows(
+                pages, lambda: _new_page(paper, panels[0]), first, table_title, rows
+            )
+        first.y_in += 0.1
         _cautions(first)
         pages.append(first)
         for panel in panels:
@@ -912,10 +988,22 @@ def write_building_pdf(
             def make(panel: Panel = panel) -> _Page:
                 return _new_page(paper, panel)
 
-            _directory_pages(pages, make, panel)
-            rows = work.get(panel.name, ())
-            if rows:
-                _work_pages(pages, make, panel.name, rows)
+            figures_rows = (panel_pages or {}).get(panel.name)
+            start: Any = make
+            if figures_rows:
+                page = make()
+                page.heading(f"Panel {panel.name}")
+                _facts_block(page, panel)
+                page = _titled_rows(pages, make, page, "Figures, with all it feeds", figures_rows)
+                if panel.spaces > SUMMARY_WITH_DIRECTORY_SPACES:
+                    pages.append(page)  # a long directory starts on a page of its own
+                else:
+                    start = _handing_over(page, make)
+            _directory_pages(pages, start, panel)
+            work_rows_of = work.get(panel.name, ())
+            if work_rows_of:
+                given = (cautions or {}).get(panel.name, CAUTIONS)
+                _work_pages(pages, make, panel.name, work_rows_of, given)
         return _numbered(pages)
 
     def write(tmp: Path) -> None:
@@ -928,3 +1016,99 @@ def write_building_pdf(
                 pdf.savefig(fig)
 
     return atomic(path, write)
+
+
+SUMMARY_WITH_DIRECTORY_SPACES = 42  # up to this many spaces the directory fits under the summary
+
+
+def _handing_over(page: _Page, make: Any) -> Any:
+    """A page maker that hands out ``page`` (already begun) once, then new pages."""
+    given = [page]
+
+    def next_page() -> _Page:
+        if given:
+            begun = given.pop()
+            begun.y_in += 0.15
+            return begun
+        return make()
+
+    return next_page
+
+
+def _titled_rows(
+    pages: list[_Page], make: Any, page: _Page, title: str, rows: Sequence[Sequence[Any]]
+) -> _Page:
+    """A small titled table on ``page`` (the first row its header), columns as wide as their
+    cells and every cell wrapped within its column, never cut; a new page (added to ``pages``)
+    when it would not fit. Returns the page drawn on."""
+    size = 7.5
+    usable = page.width_in - 2 * MARGIN_IN
+    widths = _natural_widths(rows, usable, size)
+    figures = re.compile(r"^[\d.,/ →%+−-]*$")
+    align = [
+        "right" if c and all(figures.match(_fmt(r[c])) for r in rows[1:] if c < len(r)) else "left"
+        for c in range(len(widths))
+    ]
+    wrapped = [
+        [_wrap_cell(_fmt(v), w - 0.1, size) for v, w in zip(r, widths, strict=False)] for r in rows
+    ]
+    step = size / _POINTS * 1.3
+    height = sum(step * max(len(c) for c in r) + 0.06 for r in wrapped)
+    if page.y_in + height + 0.4 > page.height_in - MARGIN_IN - 0.5:
+        pages.append(page)
+        page = make()
+    page.heading(title, size=11)
+    for index, cells in enumerate(wrapped):
+        tall = step * max(len(c) for c in cells) + 0.06
+        if index == 0:
+            page.rect(MARGIN_IN, page.y_in - 0.03, sum(widths), tall, _HEAD)
+        x = MARGIN_IN
+        for lines, w, how in zip(cells, widths, align, strict=False):
+            look: dict[str, Any] = {"color": "white", "weight": "bold"} if index == 0 else {}
+            for k, line in enumerate(lines):
+                y = page.y_in + k * step
+                if how == "right" and index:
+                    page.text(x + w - 0.05, y, line, size=size, ha="right", **look)
+                else:
+                    page.text(x + 0.05, y, line, size=size, **look)
+            x += w
+        page.y_in += tall
+        if index:
+            page.line(MARGIN_IN, MARGIN_IN + sum(widths), page.y_in - 0.05)
+    page.y_in += 0.12
+    return page
+
+
+def _natural_widths(rows: Sequence[Sequence[Any]], usable_in: float, size: float) -> list[float]:
+    """Each column as wide as its widest data cell and its header's longest word; the room left
+    shared out, or the widest columns capped until the table fits ``usable_in``."""
+    count = max(len(r) for r in rows)
+    natural = [0.4] * count
+    for index, values in enumerate(rows):
+        for c, value in enumerate(values):
+            text = _fmt(value)
+            if index == 0:  # a header wraps between words
+                longest = max(text.split(" "), key=lambda w: text_width_in(w, size), default="")
+                natural[c] = max(natural[c], text_width_in(longest, size) * 1.15 + 0.15)
+            else:
+                natural[c] = max(natural[c], text_width_in(text, size) * 1.03 + 0.15)
+    total = sum(natural)
+    if total <= usable_in:
+        return [w + (usable_in - total) / count for w in natural]
+    low, high = 0.0, max(natural)
+    for _ in range(40):
+        cap = (low + high) / 2
+        low, high = (cap, high) if sum(min(w, cap) for w in natural) < usable_in else (low, cap)
+    return [min(w, low) for w in natural]
+
+
+def _wrap_cell(text: str, width_in: float, size: float) -> list[str]:
+    """``text`` in lines no wider than ``width_in`` (measured), broken between words; a word
+    wider than the column keeps a line of its own."""
+    lines: list[str] = []
+    for word in text.split(" "):
+        if lines and text_width_in(f"{lines[-1]} {word}", size) * 1.03 <= width_in:
+            lines[-1] = f"{lines[-1]} {word}"
+        else:
+            lines.append(word)
+    return lines or [""]

@@ -86,7 +86,7 @@ CONTROL_CHARACTERS = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ufffe\ufff
 _TOTAL = re.compile(r"\b(sub-?)?totals?\b", re.IGNORECASE)
 _SPARE = re.compile(r"^\s*spare\b", re.IGNORECASE)
 _SPACE = re.compile(r"^\s*(space|spc|blank|provision|future space)\s*$", re.IGNORECASE)
-_TRUE = {"yes", "y", "true", "1", "x", "locked", "fixed", "keep", "continuous", "c"}
+_TRUE = {"yes", "y", "true", "1", "x", "locked", "fixed", "keep", "continuous", "c", "critical"}
 _FALSE = {"no", "n", "false", "0", "", "-"}
 _NUMBER = re.compile(
     r"^\s*(?P<num>[-+]?(\d{1,3}(,\d{3})+|\d+)(\.\d+)?|[-+]?\.\d+)\s*(?P<unit>[a-z%]*)\s*$",
@@ -774,7 +774,7 @@ def _circuit(
     if spaces is None:
         return None
     pf = _power_factor(cells)
-    flags = {key: _yes_no(cells, key) for key in ("locked", "continuous")}
+    flags = {key: _yes_no(cells, key) for key in ("locked", "continuous", "critical")}
     load = _counted_load(cells, load, description, is_spare, notices)
     return Circuit(
         id=str(spaces[0]) if spaces else f"R{item.row + 1}",
@@ -791,6 +791,7 @@ def _circuit(
         notes=cells.text("notes"),
         voltage_v=cells.number("voltage_v", "voltage"),
         continuous=flags["continuous"],
+        critical=flags["critical"],
         neutral_va=cells.number("neutral_va", "neutral share"),
         yokes=cells.number("yokes", "receptacle count"),
         source_row=item.row + 1,

@@ -26,6 +26,7 @@ from balancer.domain.systems import Line
 from balancer.io.files import refuse_input_path, save_workbook
 from balancer.physics.analysis import Loads, share_by_line
 from balancer.report.safety import CAUTIONS
+from balancer.report.states import states
 
 if TYPE_CHECKING:
     from balancer.code.demand import DemandResult
@@ -69,6 +70,7 @@ _CIRCUIT_VALUES: tuple[tuple[str, Callable[[Circuit], Any], str], ...] = (
     ("balance_va", lambda c: c.balance_va, "#,##0"),
     ("voltage_v", lambda c: c.voltage_v, "0"),
     ("continuous", lambda c: _flag_text(c.continuous), "@"),
+    ("critical", lambda c: _flag_text(c.critical), "@"),
     ("neutral_va", lambda c: c.neutral_va, "#,##0"),
     ("yokes", lambda c: getattr(c, "yokes", None), "0"),
     ("harmonic_profile", lambda c: c.harmonic_profile, "@"),
@@ -122,6 +124,7 @@ class _Table:
     header_row: int
     first_row: int
     last_row: int
+    after_col: int = 3  # the per-line table's "after" column; 4 when a with-additions one is
 
 
 # --- cell helpers -----------------------------------------------------------------------------
@@ -426,7 +429,7 @@ def _summary(ws: Worksheet, result: BalanceResult) -> _Table:
     row = _totals_block(ws, result, row + 2)
     row = _result_block(ws, result, row + 2)
     _cautions_block(ws, row + 2)
-    _widths(ws, [36, 16, 16, 13, 14, 14])
+    _widths(ws, [36, 16, 16, 13, 14, 14, 14, 14])
     print_setup(ws, landscape=False, title_rows=None)
     return table
 
@@ -453,32 +456,37 @@ def _facts_block(ws: Worksheet, panel: Panel, row: int) -> int:
 
 
 def _line_block(ws: Worksheet, result: BalanceResult, row: int) -> _Table:
-    """The per-line figures before and after, titled at ``row``."""
+    """The per-line figures of each state (before and after; as it stands, with the additions
+    and after when there are new circuits), titled at ``row``."""
     panel = result.after_panel
+    shown = states(result)
     _section(ws, row, "Per-line figures")
     row += 1
     header_row = row
-    _header(ws, row, ["Line", "Before VA", "After VA", "Average VA", "Before A RMS", "After A RMS"])
+    titles = [f"{s.title} VA" for s in shown] + ["Average VA"]
+    _header(ws, row, ["Line", *titles, *[f"{s.title} A RMS" for s in shown]])
+    if len(shown) > 2:  # "With additions A RMS" wraps: room for two lines
+        ws.row_dimensions[row].height = 30
     average = result.after.total_va / len(panel.lines)
     first_row = row + 1
     for line in panel.lines:
         row += 1
         _put(ws, row, 1, line)
         ws.cell(row=row, column=1).alignment = _CENTRE
-        _put(ws, row, 2, result.before.phase_va[line], VA)
-        _put(ws, row, 3, result.after.phase_va[line], VA)
-        _put(ws, row, 4, average, VA)
-        _put(ws, row, 5, result.before.line_amps[line], AMPS)
-        _put(ws, row, 6, result.after.line_amps[line], AMPS)
-    return _Table(header_row, first_row, row)
+        for col, state in enumerate(shown, start=2):
+            _put(ws, row, col, state.loads.phase_va[line], VA)
+            _put(ws, row, col + len(shown) + 1, state.loads.line_amps[line], AMPS)
+        _put(ws, row, 2 + len(shown), average, VA)
+    return _Table(header_row, first_row, row, 1 + len(shown))
 
 
 def _totals_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
     """The whole panel's figures before and after, titled at ``row``; returns the last row."""
     neutral = result.after_panel.system.neutral
+    shown = states(result)
     _section(ws, row, "Totals")
     row += 1
-    _header(ws, row, ["Figure", "Before", "After"])
+    _header(ws, row, ["Figure", *[s.title for s in shown]])
     figures: list[tuple[str, Callable[[Loads], Any], str]] = [
         ("Total VA", lambda x: x.total_va, VA),
         ("Spread VA (heaviest - lightest)", lambda x: x.spread_va, VA),
@@ -498,8 +506,15 @@ def _totals_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
     for label, get, fmt in figures:
         row += 1
         _put(ws, row, 1, label)
-        _put(ws, row, 2, get(result.before), fmt)
-        _put(ws, row, 3, get(result.after), fmt)
+        for col, state in enumerate(shown, start=2):
+            _put(ws, row, col, get(state.loads), fmt)
+    if result.new_circuits:  # what each state is: the with-additions column is the 0-move row
+        for state in shown:
+            row += 1
+            label = ws.cell(row=row, column=1, value=state.title)
+            label.font = Font(bold=True)
+            label.alignment = Alignment(vertical="top")
+            _long_text(ws, row, 2, state.detail, last_col=6, chars_per_line=60)
     return row
 
 
@@ -786,6 +801,11 @@ def _tradeoff(ws: Worksheet, result: BalanceResult) -> None:
         _put(ws, row, 3, entry.imbalance_pct, "0.0")
         _put(ws, row, 4, entry.neutral_a, AMPS)
         _put(ws, row, 5, entry.status.value)
+    if result.new_circuits:
+        from balancer.field.tradeoff import NEW_ROW_NOTE
+
+        note = NEW_ROW_NOTE.format(count=len(result.new_circuits))
+        _long_text(ws, row + 2, 1, f"Note: {note}", last_col=5, chars_per_line=55)
     _widths(ws, [14, 12, 12, 11, 11])
     chart = tradeoff_chart(
         ws, header_row=2, first_row=3, last_row=row, moves_col=1, imbalance_col=3
@@ -1034,8 +1054,9 @@ def _summary_chart(summary: Worksheet, table: _Table) -> None:
         last_row=table.last_row,
         line_col=1,
         before_col=2,
-        after_col=3,
-        average_col=4,
+        after_col=table.after_col,
+        average_col=table.after_col + 1,
+        middle_col=3 if table.after_col == 4 else None,
     )
     summary.add_chart(chart, f"A{table.last_row + 2}")
 

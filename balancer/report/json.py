@@ -17,12 +17,14 @@ from typing import TYPE_CHECKING, Any
 
 from balancer.code.demand import demand_to_dict
 from balancer.report.safety import CAUTION
+from balancer.report.states import states
 from balancer.report.text import circuits_to_list, clean, panel_to_dict
 
 if TYPE_CHECKING:
     from balancer.api import BalanceReport, BuildingReport, CheckReport
     from balancer.batch import Row
     from balancer.building.tree import FeederFigures, PanelFigures
+    from balancer.domain.result import BalanceResult
     from balancer.errors import BalancerError
     from balancer.physics.analysis import Loads
 
@@ -144,6 +146,12 @@ def balance_json(report: BalanceReport) -> dict[str, Any]:
         **proof_json(result),
         "before": loads_json(result.before),
         "after": loads_json(result.after),
+        # the panel as it stands plus its new circuits landed with no move (the 0-move row)
+        "with_additions": (
+            loads_json(result.with_additions) if result.with_additions is not None else None
+        ),
+        "states": [{"key": s.key, "title": s.title, "detail": s.detail} for s in states(result)],
+        "new_circuits": [_new_breaker(result, cid) for cid in result.new_circuits],
         "moves": [
             {
                 "id": m.circuit_id,
@@ -348,6 +356,19 @@ def error_json(exc: BalancerError) -> dict[str, Any]:
     located problem."""
     problems = [{"where": p.where, "what": p.what} for p in getattr(exc, "problems", ())]
     return {"error": str(exc), "exit_status": exc.exit_status, "problems": problems}
+
+
+def _new_breaker(result: BalanceResult, circuit_id: str) -> dict[str, Any]:
+    """A new circuit and where its breaker goes."""
+    circuit = result.after_panel.circuit(circuit_id)
+    return {
+        "id": circuit.id,
+        "description": circuit.description,
+        "poles": circuit.poles,
+        "trip_a": circuit.trip_a,
+        "to_spaces": list(circuit.spaces),
+        "to_lines": list(result.after_panel.lines_of(circuit)),
+    }
 
 
 def _path(path: Path | None) -> str | None:

@@ -37,3 +37,15 @@ CAUTIONS: tuple[str, ...] = (
     "The adopted electrical code, its local amendments, the authority having jurisdiction and "
     "licensed professional practice govern over anything this tool reports.",
 )
+
+# For a circuit whose load must not lose power (balancer.field.critical): its work-order step,
+# and the caution line a work order carries when it has one. Never a plain "de-energise".
+MUST_STAY_ON_STEP = (
+    "MUST NOT LOSE POWER ({why}): arrange temporary power for this load, or schedule the outage "
+    "with its owner, before the circuit is switched off; only then de-energise, lock out and "
+    "verify with a meter."
+)
+MUST_STAY_ON_CAUTION = (
+    "Loads that must not lose power are moved here ({circuits}): arrange temporary power or "
+    "an outage scheduled with their owner before their steps; never simply switch them off."
+)

@@ -12,6 +12,7 @@ from balancer.domain.panel import Panel
 from balancer.optimize.goals import goal_for
 from balancer.physics.analysis import Loads
 from balancer.report.safety import CAUTION
+from balancer.report.states import states
 
 IMBALANCE_DEFINITION = (
     "imbalance: NEMA MG 1 definition applied to phase loads, "
@@ -338,15 +339,19 @@ def balance_text(
     color: bool = False,
     verbose: bool = False,
 ) -> str:
-    """The ``balance`` summary: bars, before and after, proof, moves, extra sections, notes,
-    the schedule's warnings (marked, and coloured when ``color``), files; within
-    :data:`WIDTH` columns."""
-    before, after = result.before, result.after
+    """The ``balance`` summary: bars, the states (as it stands, with any additions, after),
+    proof, moves, new breakers, extra sections, notes, the schedule's warnings (marked, and
+    coloured when ``color``), files; within :data:`WIDTH` columns."""
+    after = result.after
     lines = [panel_heading(result.before_panel)]
     if bars:
         lines += ["", *bars]
-    lines += ["", *loads_table(before, title="Before", color=color)]
-    lines += ["", *loads_table(after, title="After", color=color)]
+    for state in states(result):
+        lines += ["", *loads_table(state.loads, title=state.title, color=color)]
+        if state.title not in ("Before", "After") or result.new_circuits:
+            lines += textwrap.wrap(
+                f"({state.detail})", WIDTH - 2, initial_indent="  ", subsequent_indent="   "
+            )
     lines += ["", *result_lines(result, verbose)]
     if result.after_panel.system.high_leg and result.first_goal == "spread":
         lines += wrap(

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from typing import TextIO
 
 from balancer.domain.systems import Line
@@ -139,3 +139,28 @@ def before_after_bars(
         "",
         *phase_bars(after, title="After", **common),  # type: ignore[arg-type]
     ]
+
+
+def state_bars(
+    series: Sequence[tuple[str, Loads]],
+    *,
+    width: int = 40,
+    color: bool = False,
+    show_neutral: bool = True,
+) -> list[str]:
+    """Bars for each (title, figures) state, all on one scale so lengths compare (the panel as
+    it stands, with its additions, after)."""
+    top = max([v for _, loads in series for v in loads.phase_va.values()] + [0.0])
+    out: list[str] = []
+    for index, (title, loads) in enumerate(series):
+        if index:
+            out.append("")
+        out += phase_bars(
+            loads,
+            title=title,
+            width=width,
+            color=color,
+            scale_max_va=top,
+            show_neutral=show_neutral,
+        )
+    return out

@@ -13,6 +13,7 @@ from balancer.field.workorder import ACTION_TEXT
 from balancer.optimize.goals import goal_for
 from balancer.report.json import balance_json, check_json
 from balancer.report.safety import CAUTIONS
+from balancer.report.states import states
 from balancer.web import svg
 
 
@@ -129,6 +130,11 @@ def table_view(report: BalanceReport, selected: int | None) -> dict[str, Any]:
     }
 
 
+def _bar_label(key: str, title: str) -> str:
+    """The page's words for a state: "as it stands", "with additions", "arranged"."""
+    return {"as_it_stands": "as it stands", "after": "arranged"}.get(key, title.lower())
+
+
 def arrangement_view(
     original: BalanceReport, report: BalanceReport, name: str, row: int | None
 ) -> dict[str, Any]:
@@ -149,7 +155,7 @@ def arrangement_view(
         "facts": facts,
         "layout": layout(result.after_panel, result.before_panel),
         "bars": svg.line_bars(
-            [("as it stands", result.before.phase_va), ("arranged", result.after.phase_va)],
+            [(_bar_label(s.key, s.title), s.loads.phase_va) for s in states(result)],
             result.after_panel.lines,
             facts["high_leg"],
         ),

@@ -524,21 +524,25 @@ function showArrangement(view, key) {
   $("row-title").textContent = key === "recommended" ? `Recommended arrangement: ${moves} move(s)` : `Arrangement for at most ${view.table.rows[Number(key)].moves} move(s), using ${moves}`;
   $("row-status").textContent = `Status: ${view.status_text}. Goal: ${view.goal_phrase}; engine ${data.engine}, ${data.solve_seconds.toFixed(1)} s.`;
   const figures = clear($("row-figures"));
+  // with new circuits, a middle state: the panel with them landed and nothing moved (the 0-move row)
+  const middle = data.with_additions;
+  const mid = (get) => (middle ? [el("td", {}, get(middle))] : []);
   figures.append(
     el(
       "table",
       { class: "figures" },
-      el("thead", {}, el("tr", {}, el("th", {}, ""), el("th", {}, "As it stands"), el("th", {}, "Arranged"))),
+      el("thead", {}, el("tr", {}, el("th", {}, ""), el("th", {}, "As it stands"), middle ? el("th", {}, "With additions") : null, el("th", {}, "Arranged"))),
       el(
         "tbody",
         {},
-        facts.lines.map((line) => el("tr", {}, el("td", {}, lineTag(line, facts), " load"), el("td", {}, va(data.before.phase_va[line])), el("td", { data: { figure: `after-va-${line}` } }, va(data.after.phase_va[line])))),
-        facts.lines.map((line) => el("tr", {}, el("td", {}, lineTag(line, facts), " current"), el("td", {}, amps(data.before.line_rms_a[line])), el("td", {}, amps(data.after.line_rms_a[line])))),
-        facts.neutral ? el("tr", {}, el("td", {}, "Neutral (RMS)"), el("td", {}, amps(data.before.neutral_rms_a)), el("td", {}, amps(data.after.neutral_rms_a))) : null,
-        el("tr", {}, el("td", {}, "Spread"), el("td", {}, va(data.before.spread_va)), el("td", {}, va(data.after.spread_va))),
-        el("tr", {}, el("td", {}, "Imbalance"), el("td", {}, pct(data.before.imbalance_pct)), el("td", { class: "big", data: { figure: "after-imbalance" } }, pct(data.after.imbalance_pct)))
+        facts.lines.map((line) => el("tr", {}, el("td", {}, lineTag(line, facts), " load"), el("td", {}, va(data.before.phase_va[line])), ...mid((d) => va(d.phase_va[line])), el("td", { data: { figure: `after-va-${line}` } }, va(data.after.phase_va[line])))),
+        facts.lines.map((line) => el("tr", {}, el("td", {}, lineTag(line, facts), " current"), el("td", {}, amps(data.before.line_rms_a[line])), ...mid((d) => amps(d.line_rms_a[line])), el("td", {}, amps(data.after.line_rms_a[line])))),
+        facts.neutral ? el("tr", {}, el("td", {}, "Neutral (RMS)"), el("td", {}, amps(data.before.neutral_rms_a)), ...mid((d) => amps(d.neutral_rms_a)), el("td", {}, amps(data.after.neutral_rms_a))) : null,
+        el("tr", {}, el("td", {}, "Spread"), el("td", {}, va(data.before.spread_va)), ...mid((d) => va(d.spread_va)), el("td", {}, va(data.after.spread_va))),
+        el("tr", {}, el("td", {}, "Imbalance"), el("td", {}, pct(data.before.imbalance_pct)), ...mid((d) => pct(d.imbalance_pct)), el("td", { class: "big", data: { figure: "after-imbalance" } }, pct(data.after.imbalance_pct)))
       )
-    )
+    ),
+    ...(middle ? data.states.map((s) => el("p", { class: "state-note" }, `${s.title}: ${s.detail}.`)) : [])
   );
   setSvg($("row-bars"), view.bars);
   const notes = clear($("row-notes"));
@@ -577,9 +581,11 @@ function showArrangement(view, key) {
             "li",
             {},
             el("div", { class: "action" }, `Step ${step.step}: ${view.actions[step.action] || step.action}`, step.group ? ` (multiwire group ${step.group})` : ""),
-            step.circuits.map((c) =>
-              el("div", { class: "item" }, `Circuit ${c.id} ${c.description}: `, c.from_spaces.length ? `${spacesWord(c.from_spaces)} (${c.from_lines.join("")})` : "not in the panel", " → ", c.to_spaces.length ? `${spacesWord(c.to_spaces)} (${c.to_lines.join("")})` : "set aside", c.notes ? ` — ${c.notes}` : "")
-            ),
+            step.circuits.flatMap((c) => [
+              el("div", { class: "item" }, `Circuit ${c.id} ${c.description}: `, c.from_spaces.length ? `${spacesWord(c.from_spaces)} (${c.from_lines.join("")})` : "not in the panel", " → ", c.to_spaces.length ? `${spacesWord(c.to_spaces)} (${c.to_lines.join("")})` : "set aside", c.notes ? ` — ${c.notes}` : ""),
+              // a new breaker's rating and wire; a load that must not lose power, in strong type
+              ...(c.details || []).map((d) => el("div", { class: d.startsWith("MUST NOT LOSE POWER") ? "item must-stay-on" : "item hint" }, d))
+            ]),
             step.remark ? el("div", { class: "item hint" }, step.remark) : null
           )
         )
