@@ -10,10 +10,11 @@ from typing import Literal
 
 from balancer.domain.panel import Panel
 from balancer.domain.systems import Line
+from balancer.intervals.series import LoadSeries
 from balancer.physics.analysis import Loads
 
 Engine = Literal["highs", "cbc"]
-Objective = Literal["spread", "line", "neutral", "transformer"]
+Objective = Literal["spread", "line", "neutral", "transformer", "peak"]
 
 
 class SolveStatus(enum.Enum):
@@ -49,6 +50,9 @@ class BalanceOptions:
     ``(m, va)`` says no arrangement moving at most ``m`` circuits has a spread below ``va``
     (the trade-off table passes its earlier rows). Where the spread kept is below such a floor,
     the move count is proven without another solve.
+
+    ``intervals`` are the loads per time interval (logger readings or typical load shapes);
+    with them, objective ``"peak"`` keeps the worst interval's phase spread lowest.
     """
 
     fresh: bool = False
@@ -61,6 +65,7 @@ class BalanceOptions:
     objective: Objective = "spread"
     transformer_terms: tuple[CurrentTerm, ...] = ()
     spread_floors: tuple[tuple[int, float], ...] = ()
+    intervals: LoadSeries | None = None
 
 
 @dataclass(frozen=True, slots=True)

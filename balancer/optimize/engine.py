@@ -21,19 +21,21 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 
 from balancer.domain.panel import Panel
-from balancer.domain.result import BalanceOptions, BalanceResult, Move, SolveStatus
+from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.errors import InfeasibleError, SolverError
 from balancer.optimize.goals import GOALS, MOVES_GAP, goal_for
 from balancer.optimize.model import (
     Layout,
     Model,
-    Option,
     build_layout,
     build_model,
     placed_circuits,
+    placement_start,
     realise,
     spread_lower_bound,
+    to_mixed,
 )
+from balancer.optimize.peak import balance_peak
 from balancer.optimize.search.baselines import greedy_lines, karmarkar_karp_lines
 from balancer.optimize.search.fewest import fewest_changes_lines
 from balancer.optimize.search.lines import pattern_spread_va
@@ -45,7 +47,7 @@ from balancer.optimize.search.local import (
 )
 from balancer.optimize.search.split import split_search_lines
 from balancer.optimize.solve import StageResult, cap, evaluate, solve_goal
-from balancer.optimize.verify import verify
+from balancer.optimize.verify import moves_between, verify
 from balancer.physics.analysis import Loads, analyze
 
 __all__ = ["balance"]
@@ -94,6 +96,8 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         When the engine fails or its answer does not pass the independent check.
     """
     options = options or BalanceOptions()
+    if options.objective == "peak":
+        return balance_peak(panel, options)
     begin = time.perf_counter()
     deadline = begin + options.time_limit_s
     layout = build_layout(panel, options)
@@ -332,13 +336,11 @@ def _exact_start(
     for the rest), which is within any move budget; None when neither applies."""
     if spaces.placed is not None:
         placement = spaces.placement
-        return _to_mixed(
-            exact, [placement.options[u][k] for u, k in enumerate(spaces.placed.picks)]
-        )
+        return to_mixed(exact, [placement.options[u][k] for u, k in enumerate(spaces.placed.picks)])
     every = [unit.placements for unit in layout.units]
-    stay = _placement_start(every)
+    stay = placement_start(every)
     if stay is not None and target is None:
-        return _to_mixed(exact, [every[u][k] for u, k in enumerate(stay)])
+        return to_mixed(exact, [every[u][k] for u, k in enumerate(stay)])
     return None
 
 
@@ -398,7 +400,7 @@ def _result(
         engine=options.engine,
         tolerance_va=options.tolerance_va,
         lower_bound_spread_va=spread_bound,
-        moves=_moves(panel, after.panel),
+        moves=moves_between(panel, after.panel),
         solve_seconds=time.perf_counter() - begin,
         notes=tuple(notes),
         first_goal=first_goal,
@@ -409,22 +411,6 @@ def _result(
 
 
 # What the stages share.
-
-
-def _moves(before: Panel, after: Panel) -> tuple[Move, ...]:
-    """Every placed circuit whose spaces changed, with its spaces and lines before and after."""
-    return tuple(
-        Move(
-            old.id,
-            old.description,
-            old.spaces,
-            new.spaces,
-            before.lines_of(old),
-            after.lines_of(new),
-        )
-        for old, new in zip(before.circuits, after.circuits, strict=True)
-        if old.placed and old.spaces != new.spaces
-    )
 
 
 def _primary(options: BalanceOptions) -> str:
@@ -696,29 +682,11 @@ def _place(
             options.engine,
             max(PLACEMENT_MIN_S, deadline - time.perf_counter()),
             MOVES_GAP,
-            _placement_start(placement.options),
+            placement_start(placement.options),
         )
     except (InfeasibleError, SolverError):
         placed = None
     return placement, placed
-
-
-def _placement_start(options: Sequence[Sequence[Option]]) -> list[int] | None:
-    """First fit into spaces, staying put where possible (a start for a placement model)."""
-    used: set[int] = set()
-    picks = [-1] * len(options)
-    order = sorted(range(len(options)), key=lambda u: -sum(len(x) for x in options[u][0].spans))
-    for u in order:
-        ranked = sorted(range(len(options[u])), key=lambda k: options[u][k].moves)
-        for k in ranked:
-            spaces = {s for span in options[u][k].spans for s in span}
-            if not spaces & used:
-                used |= spaces
-                picks[u] = k
-                break
-        else:
-            return None
-    return picks
 
 
 def _moves_at(exact: Model, picks: Sequence[int]) -> float:
@@ -726,20 +694,6 @@ def _moves_at(exact: Model, picks: Sequence[int]) -> float:
     for (u, k), var in exact.choice.items():
         var.varValue = 1.0 if picks[u] == k else 0.0
     return evaluate(exact.goals["moves"])
-
-
-def _to_mixed(exact: Model, chosen: Sequence[Option]) -> list[int]:
-    """Option indices of the mixed model for placements chosen elsewhere."""
-    out = []
-    for u, option in enumerate(chosen):
-        opts = exact.options[u]
-        if option in opts:
-            out.append(opts.index(option))
-        else:  # a 1-pole breaker counted by line in the mixed model
-            out.append(
-                next(j for j, o in enumerate(opts) if not o.spans and o.lines == option.lines)
-            )
-    return out
 
 
 def _last_picks(

@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, CurrentTerm, Objective
 from balancer.domain.systems import Line
+from balancer.intervals.figures import peak_spread_va
 from balancer.physics.analysis import Loads
 from balancer.physics.harmonics import circuit_currents_by_order
 
@@ -60,7 +61,7 @@ class Goal:
 
     def gap(self, options: BalanceOptions) -> float:
         """The absolute gap the engine is asked to close on this goal."""
-        return options.tolerance_va if self.name == "spread" else CURRENT_GAP
+        return options.tolerance_va if self.name in ("spread", "peak") else CURRENT_GAP
 
     def tolerance(self, value: float, options: BalanceOptions) -> float:
         """How far two figures of this goal may differ and still count as the same optimum:
@@ -77,6 +78,9 @@ class Goal:
             return loads.neutral_a
         if self.name == "line":
             return max(loads.line_a.values(), default=0.0)
+        if self.name == "peak":
+            series = options.intervals
+            return math.nan if series is None else peak_spread_va(panel, series)
         currents = fundamental_currents(panel)
         terms = options.transformer_terms
         return max((abs(term.value(currents)) for term in terms), default=math.nan)
@@ -152,6 +156,9 @@ GOALS: dict[str, Goal] = {
             True,
             variable="z_t",
             currents=_winding_currents,
+        ),
+        Goal(
+            "peak", "Peak-interval spread", "the phase spread at the worst interval", "VA", 0, False
         ),
     )
 }

@@ -660,3 +660,35 @@ def spread_lower_bound(layout: Layout) -> float:
             bound = max(bound, g / 6)
     bound = max(bound, _step_bound(panel, layout, fixed.phase_va))
     return bound if bound > 1e-9 * max(1.0, total) else 0.0  # float noise is not a bound
+
+
+def placement_start(options: Sequence[Sequence[Option]]) -> list[int] | None:
+    """First fit into spaces, staying put where possible (a start for a placement model)."""
+    used: set[int] = set()
+    picks = [-1] * len(options)
+    order = sorted(range(len(options)), key=lambda u: -sum(len(x) for x in options[u][0].spans))
+    for u in order:
+        ranked = sorted(range(len(options[u])), key=lambda k: options[u][k].moves)
+        for k in ranked:
+            spaces = {s for span in options[u][k].spans for s in span}
+            if not spaces & used:
+                used |= spaces
+                picks[u] = k
+                break
+        else:
+            return None
+    return picks
+
+
+def to_mixed(exact: Model, chosen: Sequence[Option]) -> list[int]:
+    """Option indices of the mixed model for placements chosen elsewhere."""
+    out = []
+    for u, option in enumerate(chosen):
+        opts = exact.options[u]
+        if option in opts:
+            out.append(opts.index(option))
+        else:  # a 1-pole breaker counted by line in the mixed model
+            out.append(
+                next(j for j, o in enumerate(opts) if not o.spans and o.lines == option.lines)
+            )
+    return out

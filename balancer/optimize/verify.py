@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 
 from balancer.domain.panel import Circuit, Panel
-from balancer.domain.result import BalanceOptions
+from balancer.domain.result import BalanceOptions, Move
 from balancer.domain.systems import Line
 from balancer.errors import SolverError
 from balancer.physics.analysis import Loads, analyze
@@ -96,3 +96,19 @@ def verify(
     if found:
         raise SolverError("the optimiser's arrangement failed its check: " + "; ".join(found))
     return loads
+
+
+def moves_between(before: Panel, after: Panel) -> tuple[Move, ...]:
+    """Every placed circuit whose spaces changed, with its spaces and lines before and after."""
+    return tuple(
+        Move(
+            old.id,
+            old.description,
+            old.spaces,
+            new.spaces,
+            before.lines_of(old),
+            after.lines_of(new),
+        )
+        for old, new in zip(before.circuits, after.circuits, strict=True)
+        if old.placed and old.spaces != new.spaces
+    )

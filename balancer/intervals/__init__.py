@@ -1,0 +1,1 @@
+"""Loads per time interval: logger files and typical load shapes."""
