@@ -11,7 +11,7 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, fields, replace
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 from balancer.code.demand import (
     DemandOptions,
@@ -32,12 +32,15 @@ from balancer.physics.analysis import Loads, analyze
 
 if TYPE_CHECKING:
     from balancer.building.tree import Building, BuildingResult, RollUp
+    from balancer.intervals.series import LoadSeries
+    from balancer.report.peak import PeakFigures
 
 __all__ = [
     "BalanceReport",
     "BuildingReport",
     "CheckReport",
     "FieldChoices",
+    "LoadOverTime",
     "Supply",
     "balance_panel",
     "balance_row",
@@ -70,6 +73,26 @@ class FieldChoices:
 
 
 @dataclass(frozen=True, slots=True)
+class LoadOverTime:
+    """Loads per time interval, for the peak goal (see docs/peak.md): a logger file of
+    interval readings, or load shapes per class (``"typical"``: the packaged, invented ones)."""
+
+    logger: Path | None = None
+    shapes: Literal["typical"] | Path | None = None
+    tz: str | None = None  # the logger's time zone, for naive time stamps across a clock change
+
+    def series(self, panel: Panel) -> LoadSeries:
+        """The loads of ``panel``'s circuits in every interval."""
+        if self.logger is not None:
+            from balancer.intervals.logger import read_logger
+
+            return read_logger(self.logger, panel, tz=self.tz)
+        from balancer.intervals.typical import typical_series
+
+        return typical_series(panel, None if self.shapes == "typical" else self.shapes)
+
+
+@dataclass(frozen=True, slots=True)
 class Supply:
     """The transformer that feeds the panel, for the transformer goal."""
 
@@ -86,6 +109,7 @@ class CheckReport:
     demand: DemandResult | None
     field: FieldRun  # the load basis, circuit by circuit
     warnings: tuple[str, ...] = ()
+    peak: PeakFigures | None = None  # the load over time, when a series was given
 
 
 @dataclass(frozen=True, slots=True)
@@ -98,6 +122,7 @@ class BalanceReport:
     demand: DemandResult | None
     warnings: tuple[str, ...] = ()
     written: tuple[Path, ...] = ()
+    peak: PeakFigures | None = None  # the load over time, when a series was given
 
 
 def run_check(
@@ -105,19 +130,29 @@ def run_check(
     overrides: PanelOverrides | None = None,
     basis: Basis = "nameplate",
     demand: DemandOptions | None = None,
+    over_time: LoadOverTime | None = None,
 ) -> CheckReport:
     """Read a schedule and report its figures."""
-    return check_panel(read_schedule(schedule, overrides or PanelOverrides()), basis, demand)
+    panel = read_schedule(schedule, overrides or PanelOverrides())
+    return check_panel(panel, basis, demand, over_time)
 
 
 def check_panel(
-    panel: Panel, basis: Basis = "nameplate", demand: DemandOptions | None = None
+    panel: Panel,
+    basis: Basis = "nameplate",
+    demand: DemandOptions | None = None,
+    over_time: LoadOverTime | None = None,
 ) -> CheckReport:
     """The figures of a panel already read."""
     run = FieldRun(basis=basis)
     prepared = run.prepare(panel)
     loads = analyze(prepared)
-    return CheckReport(prepared, loads, _demand(prepared, demand), run, tuple(panel.notices))
+    peak = None
+    if over_time is not None:
+        from balancer.report.peak import peak_figures
+
+        peak = peak_figures(over_time.series(prepared), prepared, None)
+    return CheckReport(prepared, loads, _demand(prepared, demand), run, tuple(panel.notices), peak)
 
 
 def run_balance(
@@ -127,10 +162,11 @@ def run_balance(
     choices: FieldChoices | None = None,
     demand: DemandOptions | None = None,
     supply: Supply | None = None,
+    over_time: LoadOverTime | None = None,
 ) -> BalanceReport:
     """Read a schedule and find its recommended arrangement (nothing is written)."""
     panel = read_schedule(schedule, overrides or PanelOverrides())
-    return balance_panel(panel, options, choices, demand, supply)
+    return balance_panel(panel, options, choices, demand, supply, over_time)
 
 
 def balance_panel(
@@ -139,8 +175,15 @@ def balance_panel(
     choices: FieldChoices | None = None,
     demand: DemandOptions | None = None,
     supply: Supply | None = None,
+    over_time: LoadOverTime | None = None,
 ) -> BalanceReport:
-    """Balance a panel already read: basis, solve, trade-off and recommended row, work order."""
+    """Balance a panel already read: basis, load over time, solve, trade-off and recommended
+    row, work order.
+
+    With ``over_time`` given per circuit, the goal is the worst interval's phase spread; per-line
+    data cannot say which circuit draws what, so the panel is then balanced on its connected
+    loads and the data gives the figures as it stands (and NEC 220.87).
+    """
     from balancer.optimize import balance
 
     options = options or BalanceOptions()
@@ -150,8 +193,27 @@ def balance_panel(
     run = (choices or FieldChoices()).field_run()
     prepared = run.prepare(panel)
     options = _with_supply(prepared, options, supply)
+    warnings = list(panel.notices)
+    series = over_time.series(prepared) if over_time is not None else None
+    if series is not None and series.circuit_ids:
+        if options.objective != "spread":
+            raise ScheduleError(
+                Problem("--objective", "the load over time sets the goal: the worst interval")
+            )
+        options = replace(options, objective="peak", intervals=series)
+    elif series is not None:
+        warnings.append(
+            "the logger file gives per-line readings: they show the panel as it stands but not "
+            "which circuit draws what, so the panel is balanced on its connected loads"
+        )
     result = run.finish(prepared, balance(prepared, options), options, balance)
-    return BalanceReport(result, run, _demand(result.after_panel, demand), tuple(panel.notices))
+    peak = None
+    if series is not None:
+        from balancer.report.peak import peak_figures
+
+        peak = peak_figures(series, prepared, result)
+    demand_result = _demand(result.after_panel, demand)
+    return BalanceReport(result, run, demand_result, tuple(warnings), peak=peak)
 
 
 def write_balance(
@@ -172,7 +234,12 @@ def write_balance(
     result = report.result
     written = [
         write_workbook(
-            result, workbook, input_path=schedule, demand=report.demand, order=report.field.order
+            result,
+            workbook,
+            input_path=schedule,
+            demand=report.demand,
+            order=report.field.order,
+            peak=report.peak,
         )
     ]
     if pdf is not None:
@@ -186,6 +253,7 @@ def write_balance(
                 demand=report.demand,
                 input_path=schedule,
                 order=report.field.order,
+                peak=report.peak,
             )
         )
     return replace(report, written=tuple(written))
@@ -199,7 +267,13 @@ def write_check_pdf(
 
     refuse_inputs([pdf], [schedule])
     return write_pdf(
-        pdf, report.panel, report.loads, paper=paper, demand=report.demand, input_path=schedule
+        pdf,
+        report.panel,
+        report.loads,
+        paper=paper,
+        demand=report.demand,
+        input_path=schedule,
+        peak=report.peak,
     )
 
 
@@ -379,6 +453,16 @@ def balance_row(
         with_additions=report.result.with_additions,
     )
     field = replace(report.field, order=work_order_for(result))
+    peak = report.peak
+    if peak is not None:
+        from balancer.report.peak import peak_figures
+
+        peak = peak_figures(peak.series, result.before_panel, result)
     return replace(
-        report, result=result, field=field, demand=_demand(result.after_panel, demand), written=()
+        report,
+        result=result,
+        field=field,
+        demand=_demand(result.after_panel, demand),
+        written=(),
+        peak=peak,
     )

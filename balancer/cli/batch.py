@@ -56,6 +56,7 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
     """The batch over every schedule named: run, print the summary, write the workbook."""
     if args.jobs is not None and args.jobs < 1:
         raise ScheduleError(Problem("--jobs", f"{args.jobs} must be 1 or more"))
+    options.over_time(args, batch=True)  # refused with a reason: a logger is one panel's
     paths = [args.schedule, *args.more]
     output_dir = args.output if mode == "balance" else None
     if mode == "balance":

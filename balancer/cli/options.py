@@ -9,7 +9,7 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from balancer.api import FieldChoices, Supply
+from balancer.api import FieldChoices, LoadOverTime, Supply
 from balancer.batch import SUMMARY_NAME
 from balancer.code.demand import DemandOptions, check_choices
 from balancer.domain.result import BalanceOptions
@@ -54,6 +54,49 @@ def add_basis(parser: argparse.ArgumentParser | Any) -> None:
         help="load of each circuit: schedule VA, clamp-meter reading where given, or the "
         "larger of the two (default: nameplate; see docs/field.md)",
     )
+
+
+def add_over_time(parser: argparse.ArgumentParser) -> None:
+    group = parser.add_argument_group("load over time (see docs/peak.md)")
+    group.add_argument(
+        "--profile",
+        type=Path,
+        metavar="CSV",
+        help="logger file of interval readings (a time column, then one column per circuit in "
+        "A, kW or kVA, or one per line): balance the worst interval, not the connected sums",
+    )
+    group.add_argument(
+        "--profiles",
+        metavar="typical|TOML",
+        help="no readings yet: give each load class a daily shape, 'typical' for the packaged "
+        "shapes (invented, typical of a small commercial building) or your own shapes file",
+    )
+    group.add_argument(
+        "--tz",
+        metavar="ZONE",
+        help="with --profile: the logger's time zone (e.g. America/Chicago), so a clock change "
+        "in naive time stamps is neither a gap nor a duplicate",
+    )
+
+
+def over_time(args: argparse.Namespace, batch: bool = False) -> LoadOverTime | None:
+    """The load over time asked for; one of --profile and --profiles, for one schedule."""
+    logger, shapes = getattr(args, "profile", None), getattr(args, "profiles", None)
+    if logger is None and shapes is None:
+        if getattr(args, "tz", None):
+            raise ScheduleError(Problem("--tz", "applies to a logger file (--profile)"))
+        return None
+    if logger is not None and shapes is not None:
+        raise ScheduleError(Problem("--profiles", "give either --profile or --profiles"))
+    if batch:
+        raise ScheduleError(
+            Problem("--profile", "load over time applies to one schedule at a time")
+        )
+    if shapes is not None and args.tz:
+        raise ScheduleError(Problem("--tz", "applies to a logger file (--profile)"))
+    if logger is not None:
+        return LoadOverTime(logger=logger, tz=args.tz)
+    return LoadOverTime(shapes="typical" if shapes == "typical" else Path(str(shapes)))
 
 
 def add_field(parser: argparse.ArgumentParser) -> None:

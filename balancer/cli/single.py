@@ -18,6 +18,7 @@ from balancer.errors import Problem, ScheduleError
 from balancer.physics.analysis import Loads
 from balancer.report import text
 from balancer.report.json import balance_json, check_json
+from balancer.report.peak import peak_lines
 from balancer.report.states import states
 from balancer.report.textbars import before_after_bars, phase_bars, state_bars, use_color
 
@@ -36,14 +37,21 @@ def _bars(args: argparse.Namespace, before: Loads, after: Loads | None, neutral:
 
 
 def run_check(args: argparse.Namespace) -> int:
-    report = api.run_check(args.schedule, options.overrides(args), args.basis, options.demand(args))
+    report = api.run_check(
+        args.schedule,
+        options.overrides(args),
+        args.basis,
+        options.demand(args),
+        options.over_time(args),
+    )
     if args.json:
         print_json(check_json(report))
     else:
         panel, loads = report.panel, report.loads
         bars = _bars(args, loads, None, panel.system.neutral)
         demand = loads_section_lines(report.demand) if report.demand else []
-        sections = [report.field.text_lines(), demand]
+        over_time = peak_lines(report.peak) if report.peak else []
+        sections = [report.field.text_lines(), over_time, demand]
         color = use_color(sys.stdout, args.no_color)
         print(
             text.check_text(
@@ -67,6 +75,7 @@ def run_balance(args: argparse.Namespace) -> int:
         options.field(args),
         options.demand(args),
         options.supply(args, batch=False),
+        options.over_time(args),
     )
     with progress(f"balancing {args.schedule.stem}", enabled=wanted(sys.stderr, args.json)):
         report = api.run_balance(args.schedule, *choices)
@@ -82,6 +91,7 @@ def run_balance(args: argparse.Namespace) -> int:
         show_neutral=result.after_panel.system.neutral,
     )
     sections = [
+        peak_lines(report.peak) if report.peak else [],
         report.field.text_lines(args.work_order),
         ["After balancing:", *loads_section_lines(report.demand)] if report.demand else [],
     ]

@@ -35,6 +35,7 @@ if TYPE_CHECKING:
 
     from balancer.code.demand import DemandResult
     from balancer.field.workorder import WorkOrder
+    from balancer.report.peak import PeakFigures
 
 Paper = Literal["letter", "a4"]
 PAPER_IN: dict[Paper, tuple[float, float]] = {"letter": (8.5, 11.0), "a4": (8.27, 11.69)}
@@ -838,9 +839,10 @@ def pdf_pages(
     sections: Sequence[ExtraSheet] = (),
     demand: DemandResult | None = None,
     order: WorkOrder | None = None,
+    peak: PeakFigures | None = None,
 ) -> list[Figure]:
     """The PDF's pages as figures: summary, directory, work order (when given, with steps),
-    demand and feeder check (when given), extra sections."""
+    load over time (when given), demand and feeder check (when given), extra sections."""
     pages: list[_Page] = []
 
     def make() -> _Page:
@@ -857,6 +859,12 @@ def pdf_pages(
     _directory_pages(pages, make, panel, frozenset(result.new_circuits) if result else frozenset())
     if order is not None and order.steps:
         _work_order_pages(pages, make, panel.name, order)
+    if peak is not None:
+        from balancer.io.overtime import over_time_page
+
+        page = make()
+        over_time_page(page, peak)
+        pages.append(page)
     extra = list(sections)
     if demand is not None:
         from balancer.code.demand import demand_sheet_rows
@@ -878,6 +886,7 @@ def write_pdf(
     input_path: Path | str | None = None,
     order: WorkOrder | None = None,
     balanced_on: str | None = None,
+    peak: PeakFigures | None = None,
 ) -> Path:
     """Write the panel's PDF to ``path`` (atomically) and return the path.
 
@@ -904,6 +913,8 @@ def write_pdf(
     balanced_on
         With ``result``: the date the revision is said to be balanced on (today when not
         given).
+    peak
+        The load over time (:func:`balancer.report.peak.peak_figures`): a page of its own.
     """
     from matplotlib import rc_context
     from matplotlib.backends.backend_pdf import PdfPages
@@ -928,6 +939,7 @@ def write_pdf(
                 sections=sections,
                 demand=demand,
                 order=order,
+                peak=peak,
             )
             with PdfPages(
                 tmp, metadata={"Title": f"Panel {panel.name}", "Creator": "balancer"}

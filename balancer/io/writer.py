@@ -31,6 +31,7 @@ from balancer.report.states import states
 if TYPE_CHECKING:
     from balancer.code.demand import DemandResult
     from balancer.field.workorder import WorkOrder
+    from balancer.report.peak import PeakFigures
 
 
 ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
@@ -979,6 +980,7 @@ def write_workbook(
     phasor_diagram: bool = True,
     harmonic_neutral_rms_a: Sequence[float | None] | None = None,
     balanced_on: str | None = None,
+    peak: PeakFigures | None = None,
 ) -> Path:
     """Write the revised schedule workbook for ``result`` to ``path`` and return the path.
 
@@ -1006,6 +1008,9 @@ def write_workbook(
     balanced_on
         The date written as the revised schedule's "Balanced" line (today when not given); the
         schedule's own revision is kept beside it.
+    peak
+        The load over time (:func:`balancer.report.peak.peak_figures`), as a "Load over time"
+        sheet and an "Intervals" sheet.
 
     Raises
     ------
@@ -1030,6 +1035,10 @@ def write_workbook(
         if harmonic_neutral_rms_a is None:
             harmonic_neutral_rms_a = harmonic_neutral(result.before, result.after)
         _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
+    if peak is not None:
+        from balancer.io.overtime import write_over_time_sheets
+
+        write_over_time_sheets(wb, peak)
     _added_sheets(wb, extra_sheets, demand, order)
     _notes(wb.create_sheet())
     if any(c.balance_va is not None for c in result.after_panel.circuits):
@@ -1037,7 +1046,8 @@ def write_workbook(
             sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
     for sheet in wb.worksheets:
         running_header(sheet, result.after_panel)
-        fit_columns(sheet)
+        if sheet.title != "Intervals":  # every interval of a year: its columns are set
+            fit_columns(sheet)
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
     return save_workbook(wb, path)

@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from balancer.code.demand import demand_to_dict
+from balancer.report.peak import peak_json
 from balancer.report.safety import CAUTION
 from balancer.report.states import states
 from balancer.report.text import circuits_to_list, clean, panel_to_dict
@@ -114,6 +115,7 @@ def check_json(report: CheckReport) -> dict[str, Any]:
         "demand": demand_to_dict(report.demand) if report.demand else None,
         "warnings": list(report.warnings),
         "basis": report.field.to_json()["basis"],
+        "load_over_time": peak_json(report.peak) if report.peak else None,
     }
     return _finish(data)
 
@@ -169,6 +171,7 @@ def balance_json(report: BalanceReport) -> dict[str, Any]:
         "output": _path(workbook),
         "pdf": _path(pdf),
         "demand": demand_to_dict(report.demand) if report.demand else None,
+        "load_over_time": peak_json(report.peak) if report.peak else None,
         **report.field.to_json(),
     }
     return _finish(data)

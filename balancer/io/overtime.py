@@ -1,0 +1,330 @@
+"""The load over time in the workbook and the PDF: the widest interval before and after, NEC
+220.87 from the data, mean loading by hour as a heat map, the spread per interval over the week
+around the widest interval as a chart, and every interval in a sheet of its own."""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+from openpyxl.cell import Cell
+from openpyxl.chart import LineChart, Reference
+from openpyxl.formatting.rule import ColorScaleRule
+from openpyxl.utils import get_column_letter
+from openpyxl.workbook import Workbook
+
+from balancer.report.peak import PeakFigures
+
+if TYPE_CHECKING:
+    from openpyxl.worksheet.worksheet import Worksheet
+
+    from balancer.io.pdf import _Page
+
+__all__ = ["over_time_page", "write_over_time_sheets"]
+
+WEEK_H = 7 * 24
+HEAT_LOW, HEAT_MID, HEAT_HIGH = "F7F4EC", "E9B872", "A4443B"  # cool paper to brick red
+
+
+def _window(figures: PeakFigures) -> slice:
+    """The week around the widest interval (after balancing when there is an after)."""
+    series = figures.series
+    per_hour = max(1, 60 // series.interval_min)
+    count = WEEK_H * per_hour
+    centre = figures.worst(after=figures.after_va is not None)
+    first = max(0, min(centre - count // 2, len(series.starts) - count))
+    return slice(first, min(len(series.starts), first + count))
+
+
+def _basis(figures: PeakFigures) -> str:
+    series = figures.series
+    if series.kind == "measured":
+        return f"measured: {series.source}, every {series.interval_min} min"
+    return f"typical load shapes (invented, replace with your own): {series.source}"
+
+
+def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
+    """A "Load over time" sheet (figures, heat map, chart) and an "Intervals" sheet."""
+    from balancer.io.writer import _header, _long_text, _put, _section, print_setup
+
+    ws = wb.create_sheet("Load over time")
+    ws["A1"] = "Load over time"
+    ws["A1"].font = ws["A1"].font.copy(bold=True, size=14)
+    _long_text(ws, 2, 1, f"Load basis: {_basis(figures)}", last_col=8, chars_per_line=90)
+    row = 3
+    for notice in figures.series.notices:
+        _long_text(ws, row, 1, f"Note: {notice}", last_col=8, chars_per_line=90)
+        row += 1
+    lines = figures.lines
+    row += 1
+    _section(ws, row, "Widest interval (largest phase spread)")
+    row += 1
+    _header(
+        ws, row, ["Arrangement", "Interval start", *[f"Line {x} VA" for x in lines], "Spread VA"]
+    )
+    shown: list[tuple[str, np.ndarray]] = [("As it stands", figures.before_va)]
+    if figures.after_va is not None:
+        shown.append(("After balancing", figures.after_va))
+    for title, va in shown:
+        row += 1
+        t = int(np.argmax(va.max(axis=1) - va.min(axis=1)))
+        _put(ws, row, 1, title)
+        _put(ws, row, 2, figures.stamp(t))
+        for j, value in enumerate(va[t]):
+            _put(ws, row, 3 + j, float(value), "#,##0")
+        _put(ws, row, 3 + len(lines), float(va[t].max() - va[t].min()), "#,##0")
+    existing = figures.existing
+    if existing is not None:
+        row += 2
+        _section(ws, row, "Existing load from the data (NEC 220.87)")
+        facts = [
+            ("Heaviest line", f"Line {existing.line}"),
+            (f"Maximum {existing.window_min}-minute demand", f"{existing.demand_a:,.1f} A"),
+            ("At 125 %", f"{existing.existing_a:,.1f} A"),
+            ("Data", existing.remark),
+        ]
+        for label, value in facts:
+            row += 1
+            _put(ws, row, 1, label)
+            _put(ws, row, 2, value)
+    row += 2
+    _section(ws, row, "Mean load per line by hour of day (VA)")
+    row += 1
+    heads = ["Hour"] + [f"As it stands {x}" for x in lines]
+    tables = [figures.by_hour(after=False)]
+    if figures.after_va is not None:
+        heads += [f"After {x}" for x in lines]
+        tables.append(figures.by_hour(after=True))
+    _header(ws, row, heads)
+    top = row + 1
+    for hour in range(24):
+        row += 1
+        _put(ws, row, 1, f"{hour:02d}:00")
+        values = np.concatenate([t[hour] for t in tables])
+        for j, value in enumerate(values):
+            _put(ws, row, 2 + j, None if np.isnan(value) else float(value), "#,##0")
+    span = f"B{top}:{ws.cell(row=row, column=len(heads)).coordinate}"
+    ws.conditional_formatting.add(
+        span,
+        ColorScaleRule(
+            start_type="min",
+            start_color=HEAT_LOW,
+            mid_type="percentile",
+            mid_value=50,
+            mid_color=HEAT_MID,
+            end_type="max",
+            end_color=HEAT_HIGH,
+        ),
+    )
+    _week_chart(ws, figures, row + 2)
+    print_setup(ws, landscape=True, title_rows=None)
+    _intervals_sheet(wb.create_sheet("Intervals"), figures)
+
+
+def _week_chart(ws: Worksheet, figures: PeakFigures, row: int) -> None:
+    """The spread per interval over the week around the widest one, before and after, with the
+    widest interval marked; its data in columns to the right."""
+    from balancer.io.writer import _header, _section
+
+    window = _window(figures)
+    _section(ws, row, "Phase spread per interval, the week around the widest interval")
+    col = 12
+    heads = ["Interval start", "As it stands VA"]
+    after = figures.after_spread_va
+    if after is not None:
+        heads.append("After balancing VA")
+    heads.append("Widest interval VA")
+    _header(ws, row + 1, heads, col=col)
+    widest = figures.worst(after=after is not None)
+    marked = after if after is not None else figures.before_spread_va
+    for k, t in enumerate(range(window.start, window.stop)):
+        r = row + 2 + k
+        ws.cell(row=r, column=col, value=figures.stamp(t))
+        ws.cell(
+            row=r, column=col + 1, value=float(figures.before_spread_va[t])
+        ).number_format = "#,##0"
+        if after is not None:
+            ws.cell(row=r, column=col + 2, value=float(after[t])).number_format = "#,##0"
+        if t == widest:
+            ws.cell(row=r, column=col + len(heads) - 1, value=float(marked[t]))
+    last = row + 1 + (window.stop - window.start)
+    chart = LineChart()
+    chart.title = "Phase spread per interval (VA)"
+    chart.y_axis.title = "Spread (VA)"
+    chart.x_axis.title = "Interval start"
+    chart.add_data(
+        Reference(ws, min_col=col + 1, max_col=col + len(heads) - 1, min_row=row + 1, max_row=last),
+        titles_from_data=True,
+    )
+    chart.set_categories(Reference(ws, min_col=col, min_row=row + 2, max_row=last))
+    for s in chart.series[:-1]:
+        s.smooth = False
+        s.marker.symbol = "none"
+    mark = chart.series[-1]
+    mark.marker.symbol = "diamond"
+    mark.marker.size = 9
+    mark.graphicalProperties.line.noFill = True
+    chart.x_axis.delete = False
+    chart.y_axis.delete = False
+    chart.x_axis.tickLblSkip = max(1, (window.stop - window.start) // 14)
+    chart.height = 8.0
+    chart.width = 24.0
+    ws.add_chart(chart, f"A{row + 1}")
+
+
+def _intervals_sheet(ws: Worksheet, figures: PeakFigures) -> None:
+    """Every interval: line VA and spread as it stands, and after balancing."""
+    from balancer.io.writer import _header, print_setup
+
+    lines = figures.lines
+    heads = ["Interval start", *[f"As it stands {x} VA" for x in lines], "As it stands spread VA"]
+    blocks = [figures.before_va]
+    if figures.after_va is not None:
+        heads += [*[f"After {x} VA" for x in lines], "After spread VA"]
+        blocks.append(figures.after_va)
+    _header(ws, 1, heads)
+    values = np.concatenate(
+        [np.column_stack([b, b.max(axis=1) - b.min(axis=1)]) for b in blocks], axis=1
+    )
+    stamps = np.datetime_as_string(figures.series.starts, unit="m")
+    for stamp, row in zip(stamps, values.round(0).astype(int).tolist(), strict=True):
+        cells = [Cell(ws, value=v) for v in row]
+        for cell in cells:
+            cell.number_format = "#,##0"
+        ws.append([str(stamp).replace("T", " "), *cells])
+    ws.freeze_panes = "B2"
+    ws.column_dimensions["A"].width = 17
+    for col in range(2, len(heads) + 1):
+        ws.column_dimensions[get_column_letter(col)].width = 13
+    ws.row_dimensions[1].height = 30
+    print_setup(ws, landscape=True, title_rows="1:1")
+
+
+def _over_time_rows(figures: PeakFigures) -> list[list[Any]]:
+    rows: list[list[Any]] = []
+    shown: list[tuple[str, np.ndarray]] = [("As it stands", figures.before_va)]
+    if figures.after_va is not None:
+        shown.append(("After balancing", figures.after_va))
+    for title, va in shown:
+        t = int(np.argmax(va.max(axis=1) - va.min(axis=1)))
+        rows.append(
+            [
+                title,
+                figures.stamp(t),
+                *[f"{v:,.0f}" for v in va[t]],
+                f"{va[t].max() - va[t].min():,.0f}",
+            ]
+        )
+    return rows
+
+
+def over_time_page(page: _Page, figures: PeakFigures) -> None:
+    """A PDF page: the load basis, the widest interval before and after, NEC 220.87 from the
+    data, the spread per interval over the week around the widest one (widest marked), and
+    the mean loading per line by hour as a heat map."""
+    page.heading("Load over time")
+    page.paragraph(f"Load basis: {_basis(figures)}.")
+    for notice in figures.series.notices:
+        page.paragraph(f"Note: {notice}", size=7.5)
+    lines = figures.lines
+    width = page.width_in - 2 * 0.6
+    first = [1.5, 1.5] + [0.9] * len(lines) + [1.0]
+    scale = min(1.0, width / sum(first))
+    page.table(
+        ["Widest interval", "Start", *[f"Line {x} VA" for x in lines], "Spread VA"],
+        _over_time_rows(figures),
+        [w * scale for w in first],
+        align=["left", "left"] + ["right"] * (len(lines) + 1),
+    )
+    existing = figures.existing
+    if existing is not None:
+        page.paragraph(
+            f"Existing load from the data (NEC 220.87): line {existing.line} peaks at "
+            f"{existing.demand_a:,.1f} A ({existing.window_min}-minute average); at 125 % "
+            f"{existing.existing_a:,.1f} A. {existing.remark[0].upper()}{existing.remark[1:]}."
+        )
+    page.y_in += 0.15
+    _spread_axes(page, figures, 2.6)
+    page.y_in += 0.35
+    _heat_axes(page, figures, 2.8)
+
+
+def _spread_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
+    from matplotlib.ticker import StrMethodFormatter
+
+    window = _window(figures)
+    ax = page.fig.add_axes(
+        (
+            1.2 / page.width_in,
+            1.0 - (page.y_in + height_in) / page.height_in,
+            (page.width_in - 1.8) / page.width_in,
+            (height_in - 0.35) / page.height_in,
+        )
+    )
+    x = figures.series.starts[window].astype("datetime64[m]").astype(object)
+    ax.plot(x, figures.before_spread_va[window], color="#9AA5B1", lw=0.8, label="as it stands")
+    after = figures.after_spread_va
+    if after is not None:
+        ax.plot(x, after[window], color="#33475B", lw=1.0, label="after balancing")
+    widest = figures.worst(after=after is not None)
+    marked = after if after is not None else figures.before_spread_va
+    if window.start <= widest < window.stop:
+        ax.plot(
+            [figures.series.starts[widest].astype("datetime64[m]").astype(object)],
+            [marked[widest]],
+            marker="D",
+            color="#A4443B",
+            ls="none",
+            label=f"widest: {figures.stamp(widest)}",
+        )
+    ax.set_ylabel("Spread (VA)", fontsize=8)
+    ax.yaxis.set_major_formatter(StrMethodFormatter("{x:,.0f}"))
+    ax.tick_params(labelsize=7)
+    ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=3, frameon=False)
+    page.fig.autofmt_xdate(rotation=0, ha="center")
+    page.text(
+        0.6,
+        page.y_in - 0.3,
+        "Phase spread per interval, the week around the widest interval (VA)",
+        size=9,
+        weight="bold",
+        color="#33475B",
+    )
+    page.y_in += height_in
+
+
+def _heat_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
+    from matplotlib.colors import LinearSegmentedColormap
+
+    tables = [("as it stands", figures.by_hour(after=False))]
+    if figures.after_va is not None:
+        tables.append(("after", figures.by_hour(after=True)))
+    columns = [f"{x}\n{name}" for name, _ in tables for x in figures.lines]
+    data = np.concatenate([t for _, t in tables], axis=1).T  # (columns, 24)
+    ax = page.fig.add_axes(
+        (
+            1.2 / page.width_in,
+            1.0 - (page.y_in + height_in) / page.height_in,
+            (page.width_in - 2.6) / page.width_in,
+            (height_in - 0.5) / page.height_in,
+        )
+    )
+    cmap = LinearSegmentedColormap.from_list(
+        "loading", [f"#{HEAT_LOW}", f"#{HEAT_MID}", f"#{HEAT_HIGH}"]
+    )
+    image = ax.imshow(np.ma.masked_invalid(data), aspect="auto", cmap=cmap)
+    ax.set_yticks(range(len(columns)), columns, fontsize=7)
+    ax.set_xticks(range(0, 24, 2), [f"{h:02d}" for h in range(0, 24, 2)], fontsize=7)
+    ax.set_xlabel("Hour of day", fontsize=8)
+    bar = page.fig.colorbar(image, ax=ax, fraction=0.04, pad=0.02)
+    bar.ax.tick_params(labelsize=7)
+    bar.set_label("Mean VA", fontsize=7)
+    page.text(
+        0.6,
+        page.y_in - 0.3,
+        "Mean load per line by hour of day (VA)",
+        size=9,
+        weight="bold",
+        color="#33475B",
+    )
+    page.y_in += height_in
