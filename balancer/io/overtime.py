@@ -9,6 +9,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from openpyxl.cell import Cell
 from openpyxl.chart import LineChart, Reference
+from openpyxl.chart.series import SeriesLabel
+from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.formatting.rule import ColorScaleRule
 from openpyxl.utils import get_column_letter
 from openpyxl.workbook import Workbook
@@ -86,7 +88,7 @@ def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
         for label, value in facts:
             row += 1
             _put(ws, row, 1, label)
-            _put(ws, row, 2, value)
+            _long_text(ws, row, 2, value, last_col=7, chars_per_line=80)
     row += 2
     _section(ws, row, "Mean load per line by hour of day (VA)")
     row += 1
@@ -116,64 +118,65 @@ def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
             end_color=HEAT_HIGH,
         ),
     )
-    _week_chart(ws, figures, row + 2)
+    data = wb.create_sheet("Intervals")
+    _intervals_sheet(data, figures)
+    end = _week_chart(ws, data, figures, row + 2)
+    ws.column_dimensions["A"].width = 24
+    ws.column_dimensions["B"].width = 18
+    for col in range(3, 3 + 2 * len(lines)):
+        ws.column_dimensions[get_column_letter(col)].width = 14
+    ws.print_area = f"A1:{get_column_letter(max(8, len(heads)))}{end}"
     print_setup(ws, landscape=True, title_rows=None)
-    _intervals_sheet(wb.create_sheet("Intervals"), figures)
 
 
-def _week_chart(ws: Worksheet, figures: PeakFigures, row: int) -> None:
+def _week_chart(ws: Worksheet, data: Worksheet, figures: PeakFigures, row: int) -> int:
     """The spread per interval over the week around the widest one, before and after, with the
-    widest interval marked; its data in columns to the right."""
-    from balancer.io.writer import _header, _section
+    widest interval marked, drawn from the "Intervals" sheet; returns the row under it."""
+    from balancer.io.writer import _section
 
     window = _window(figures)
     _section(ws, row, "Phase spread per interval, the week around the widest interval")
-    col = 12
-    heads = ["Interval start", "As it stands VA"]
-    after = figures.after_spread_va
-    if after is not None:
-        heads.append("After balancing VA")
-    heads.append("Widest interval VA")
-    _header(ws, row + 1, heads, col=col)
-    widest = figures.worst(after=after is not None)
-    marked = after if after is not None else figures.before_spread_va
-    for k, t in enumerate(range(window.start, window.stop)):
-        r = row + 2 + k
-        ws.cell(row=r, column=col, value=figures.stamp(t))
-        ws.cell(
-            row=r, column=col + 1, value=float(figures.before_spread_va[t])
-        ).number_format = "#,##0"
-        if after is not None:
-            ws.cell(row=r, column=col + 2, value=float(after[t])).number_format = "#,##0"
-        if t == widest:
-            ws.cell(row=r, column=col + len(heads) - 1, value=float(marked[t]))
-    last = row + 1 + (window.stop - window.start)
+    first, last = window.start + 2, window.stop + 1  # data rows on the Intervals sheet
+    spread_cols = _spread_columns(figures)
     chart = LineChart()
     chart.title = "Phase spread per interval (VA)"
     chart.y_axis.title = "Spread (VA)"
     chart.x_axis.title = "Interval start"
-    chart.add_data(
-        Reference(ws, min_col=col + 1, max_col=col + len(heads) - 1, min_row=row + 1, max_row=last),
-        titles_from_data=True,
-    )
-    chart.set_categories(Reference(ws, min_col=col, min_row=row + 2, max_row=last))
-    for s in chart.series[:-1]:
+    for col in spread_cols:
+        chart.add_data(Reference(data, min_col=col, min_row=first, max_row=last))
+    chart.set_categories(Reference(data, min_col=1, min_row=first, max_row=last))
+    names = [*["As it stands", "After balancing"][: len(spread_cols) - 1], "Widest interval"]
+    for s, name in zip(chart.series, names, strict=True):
+        s.tx = SeriesLabel(v=name)
         s.smooth = False
         s.marker.symbol = "none"
     mark = chart.series[-1]
     mark.marker.symbol = "diamond"
     mark.marker.size = 9
+    mark.marker.graphicalProperties = GraphicalProperties(solidFill=HEAT_HIGH)
+    mark.marker.graphicalProperties.line.solidFill = HEAT_HIGH
     mark.graphicalProperties.line.noFill = True
     chart.x_axis.delete = False
     chart.y_axis.delete = False
-    chart.x_axis.tickLblSkip = max(1, (window.stop - window.start) // 14)
+    chart.x_axis.tickLblSkip = max(1, (window.stop - window.start) // 4)
     chart.height = 8.0
     chart.width = 24.0
     ws.add_chart(chart, f"A{row + 1}")
+    return row + 18
+
+
+def _spread_columns(figures: PeakFigures) -> list[int]:
+    """Columns of the Intervals sheet the chart draws: each spread, then the widest mark."""
+    width = len(figures.lines) + 1
+    cols = [1 + width]
+    if figures.after_va is not None:
+        cols.append(1 + 2 * width)
+    return [*cols, cols[-1] + 1]
 
 
 def _intervals_sheet(ws: Worksheet, figures: PeakFigures) -> None:
-    """Every interval: line VA and spread as it stands, and after balancing."""
+    """Every interval: line VA and spread as it stands, and after balancing, and the widest
+    interval's spread in a column of its own (the chart marks it)."""
     from balancer.io.writer import _header, print_setup
 
     lines = figures.lines
@@ -182,13 +185,17 @@ def _intervals_sheet(ws: Worksheet, figures: PeakFigures) -> None:
     if figures.after_va is not None:
         heads += [*[f"After {x} VA" for x in lines], "After spread VA"]
         blocks.append(figures.after_va)
+    heads.append("Widest interval VA")
     _header(ws, 1, heads)
     values = np.concatenate(
         [np.column_stack([b, b.max(axis=1) - b.min(axis=1)]) for b in blocks], axis=1
     )
+    widest = figures.worst(after=figures.after_va is not None)
     stamps = np.datetime_as_string(figures.series.starts, unit="m")
-    for stamp, row in zip(stamps, values.round(0).astype(int).tolist(), strict=True):
-        cells = [Cell(ws, value=v) for v in row]
+    for t, (stamp, row) in enumerate(
+        zip(stamps, values.round(0).astype(int).tolist(), strict=True)
+    ):
+        cells = [Cell(ws, value=v) for v in [*row, row[-1] if t == widest else None]]
         for cell in cells:
             cell.number_format = "#,##0"
         ws.append([str(stamp).replace("T", " "), *cells])
@@ -243,9 +250,9 @@ def over_time_page(page: _Page, figures: PeakFigures) -> None:
             f"{existing.demand_a:,.1f} A ({existing.window_min}-minute average); at 125 % "
             f"{existing.existing_a:,.1f} A. {existing.remark[0].upper()}{existing.remark[1:]}."
         )
-    page.y_in += 0.15
+    page.y_in += 0.5  # room for the chart's title above its legend
     _spread_axes(page, figures, 2.6)
-    page.y_in += 0.35
+    page.y_in += 0.75  # the date labels hang below the axes
     _heat_axes(page, figures, 2.8)
 
 

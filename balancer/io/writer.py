@@ -1046,7 +1046,7 @@ def write_workbook(
             sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
     for sheet in wb.worksheets:
         running_header(sheet, result.after_panel)
-        if sheet.title != "Intervals":  # every interval of a year: its columns are set
+        if sheet.title not in ("Intervals", "Load over time"):  # these set their own widths
             fit_columns(sheet)
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"

@@ -58,7 +58,7 @@ SEARCH_INTERVALS = 512  # the local search stops adding intervals at this many
 SEARCH_S = 2.0  # the local search's safety net (it stops at a local optimum first)
 PEAK_SHARE = 0.6  # stage 1 may use this share of the time limit
 PLACE_MIN_S = 2.0  # stage 2 always gets at least this long
-TIEBREAK_S = 3.0  # the connected-VA tie-break on a fresh layout: a short, unproven stage
+MOVES_S = 10.0  # the fewest-moves stages together take at most this long
 SMOOTHING = 0.05  # weight of the mean spread in the local search's score
 ROUND_SHARE = 0.34  # one round of stage 1 may use this share of the time left to it
 MOVE_PENALTY_VA = 1e-3  # the local search prefers fewer changes among equal spreads
@@ -320,6 +320,42 @@ def _searched(
         have += new
 
 
+def _fewest_on_lines(
+    relaxed: Model,
+    horizon: _Horizon,
+    peak: _Settled,
+    cap_va: float,
+    options: BalanceOptions,
+    limit_s: float,
+) -> _Settled:
+    """The fewest changed units on the relaxation with every interval within ``cap_va``: its
+    proven bound is a floor under the moves any placement in spaces needs. Rows are added
+    until no interval of the horizon is over the cap; the peak's own answer comes back when the
+    time runs out first."""
+    z = next(iter(relaxed.goals["peak"].keys()))
+    relaxed.prob += (z <= cap_va, "peak_cap")
+    have = set(peak.intervals)
+    stop = time.perf_counter() + limit_s
+    bound = -math.inf
+    while True:
+        try:
+            stage = solve_goal(
+                relaxed, "moves", options.engine, stop - time.perf_counter(), MOVES_GAP, peak.picks
+            )
+        except SolverError:
+            return replace(peak, bound_va=bound, proven=False)
+        bound = max(bound, stage.bound)
+        spreads = horizon.spreads(stage.picks)
+        new = _violated(spreads, cap_va + BOUND_SLACK * max(1.0, cap_va), have)
+        if not new:
+            worst = float(spreads.max())
+            return _Settled(stage.picks, worst, bound, stage.proven, tuple(sorted(have)), stage)
+        if time.perf_counter() >= stop:
+            return replace(peak, bound_va=bound, proven=False)
+        _add_rows(relaxed, horizon, new, z)
+        have.update(new)
+
+
 def _within_cap(
     model: Model,
     horizon: _Horizon,
@@ -376,9 +412,9 @@ def _as_found(layout: Layout, unit_options: Sequence[Sequence[Option]]) -> list[
 
 def _place_lines(
     layout: Layout, options: BalanceOptions, relaxed: Model, picks: Sequence[int], exact: Model
-) -> list[int] | None:
-    """The stage-1 lines put into spaces with the fewest moves, as a start for the exact
-    model; None when they do not fit."""
+) -> tuple[list[int], float] | None:
+    """Lines chosen on the relaxation put into spaces with the fewest moves: the exact model's
+    option per unit and the move count; None when they do not fit."""
     allowed = {u: {relaxed.options[u][k].pattern} for u, k in enumerate(picks)}
     placement = build_model(layout, "space", options, allowed=allowed, include=())
     try:
@@ -392,7 +428,8 @@ def _place_lines(
         )
     except (InfeasibleError, SolverError):
         return None
-    return to_mixed(exact, [placement.options[u][k] for u, k in enumerate(placed.picks)])
+    chosen = [placement.options[u][k] for u, k in enumerate(placed.picks)]
+    return to_mixed(exact, chosen), placed.value
 
 
 def peak_tolerance_va(horizon_loads: np.ndarray, lines: int, options: BalanceOptions) -> float:
@@ -455,22 +492,37 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
         searched, first = _searched(on_lines, relaxed, first, seed, deadline)
     stage1_end = begin + PEAK_SHARE * options.time_limit_s
     peak = _minimise_peak(relaxed, on_lines, first, options, tolerance, searched, stage1_end)
-    goal = "moves" if layout.count_moves else "spread"
+    cap_va = max(peak.bound_va + tolerance, peak.worst_va) if peak.proven else peak.worst_va
+    moves_s = min(MOVES_S, max(PLACE_MIN_S, deadline - time.perf_counter()))
+    lines = peak
+    if layout.count_moves:
+        lines = _fewest_on_lines(relaxed, on_lines, peak, cap_va, options, moves_s / 2)
     exact = build_model(layout, "mixed", options, include=())
     in_spaces = _Horizon.of(layout, loads, exact.options)
-    start = _place_lines(layout, options, relaxed, peak.picks, exact)
+    start = _place_lines(layout, options, relaxed, lines.picks, exact)
+    if start is None and lines is not peak:
+        lines = peak
+        start = _place_lines(layout, options, relaxed, peak.picks, exact)
     if start is None:
         # the line-level answer does not fit the spaces: settle the peak on the exact model
         peak = _minimise_peak(
             exact, in_spaces, peak.intervals, options, tolerance, None, stage1_end
         )
-        start = list(peak.picks)
+        cap_va = max(peak.bound_va + tolerance, peak.worst_va) if peak.proven else peak.worst_va
+        start = (list(peak.picks), math.inf)
+        lines = peak
         exact = build_model(layout, "mixed", options, include=())
-    cap_va = max(peak.bound_va + tolerance, peak.worst_va) if peak.proven else peak.worst_va
-    limit = max(PLACE_MIN_S, deadline - time.perf_counter())
-    if not layout.count_moves:
-        limit = min(limit, TIEBREAK_S)
-    placed = _within_cap(exact, in_spaces, peak.intervals, cap_va, goal, options, start, limit)
+    floor = lines.bound_va if lines is not peak else -math.inf  # fewest moves on lines
+    picks, start_moves = start
+    if not layout.count_moves or start_moves <= floor + MOVES_GAP:
+        placed = _Settled(tuple(picks), lines.worst_va, floor, True, lines.intervals, None)
+    else:
+        limit = max(PLACE_MIN_S, min(moves_s, deadline - time.perf_counter()))
+        placed = _within_cap(
+            exact, in_spaces, lines.intervals, cap_va, "moves", options, picks, limit
+        )
+        if placed.stage is not None and placed.stage.value <= floor + MOVES_GAP:
+            placed = replace(placed, proven=True)
     chosen = realise(layout, [exact.options[u][k] for u, k in enumerate(placed.picks)])
     after_panel = panel.with_circuits(placed_circuits(layout, chosen))
     after = verify(panel, after_panel, options)

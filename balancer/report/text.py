@@ -287,7 +287,9 @@ def result_lines(result: Any, verbose: bool = False) -> list[str]:
         f"Result: {goal.phrase.removeprefix('the ')} {goal.text(result.goal_value)}, "
         f"{proof_text(result)}"
     )
-    if result.first_goal != "spread":
+    if result.first_goal == "peak":
+        line += f"; connected-VA spread {after.spread_va:,.0f} VA, not a goal here"
+    elif result.first_goal != "spread":
         line += f"; phase spread {after.spread_va:,.0f} VA, a tie-breaker here"
     if result.status is SolveStatus.FEASIBLE and result.goal_proven:
         line += "; the later goals are not all proven (see the notes)"
