@@ -2,7 +2,7 @@
 DEMO DATA: the workshop, its panel, every load and every reading are invented.
 
 Run ``python sample_schedules/make_logger_sample.py`` to regenerate
-``bike-workshop-cafe-208y120.xlsx`` and ``bike-workshop-cafe-logger.csv`` beside this script.
+``bike-workshop-cafe-208y120.xlsx`` beside this script and ``loggers/bike-workshop-cafe-logger.csv``.
 The readings are drawn from daily shapes of our own with a fixed random seed, so the files are
 the same on every run. The month runs across the end of daylight saving time (2026-11-01 in
 the United States), and the time stamps carry their UTC offset.
@@ -22,7 +22,7 @@ from openpyxl.styles import Font
 
 HERE = Path(__file__).resolve().parent
 SCHEDULE = "bike-workshop-cafe-208y120.xlsx"
-LOGGER = "bike-workshop-cafe-logger.csv"
+LOGGER = "loggers/bike-workshop-cafe-logger.csv"
 DEMO = "DEMO DATA - invented for balancer's samples; not a real building or real readings."
 TITLE = "Quayside Bike Workshop and Cafe - Panel LP-1 (demo data)"
 HEADER = ["Ckt", "Load Description", "Type", "Poles", "Trip (A)", "Load (VA)", "Wire", "Notes"]

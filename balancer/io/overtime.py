@@ -47,11 +47,11 @@ def _basis(figures: PeakFigures) -> str:
 
 def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
     """A "Load over time" sheet (figures, heat map, chart) and an "Intervals" sheet."""
-    from balancer.io.writer import _header, _long_text, _put, _section, print_setup
+    from balancer.io.writer import _TITLE_FONT, _header, _long_text, _put, _section, print_setup
 
     ws = wb.create_sheet("Load over time")
     ws["A1"] = "Load over time"
-    ws["A1"].font = ws["A1"].font.copy(bold=True, size=14)
+    ws["A1"].font = _TITLE_FONT
     _long_text(ws, 2, 1, f"Load basis: {_basis(figures)}", last_col=8, chars_per_line=90)
     row = 3
     for notice in figures.series.notices:

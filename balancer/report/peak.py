@@ -156,11 +156,8 @@ def peak_lines(figures: PeakFigures) -> list[str]:
     and NEC 220.87 from the data."""
     series = figures.series
     count = len(series.starts)
-    basis = "measured" if series.kind == "measured" else "typical load shapes (invented)"
-    out = [
-        f"Load over time: {count:,} intervals of {series.interval_min} min, {basis}, from "
-        f"{series.source}"
-    ]
+    basis = f"measured, from {series.source}" if series.kind == "measured" else series.source
+    out = [f"Load over time: {count:,} intervals of {series.interval_min} min, {basis}"]
     b = figures.worst(after=False)
     out.append(
         f"  widest interval as it stands: {figures.stamp(b)}, spread "
