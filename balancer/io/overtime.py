@@ -4,7 +4,7 @@ around the widest interval as a chart, and every interval in a sheet of its own.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 import numpy as np
 from openpyxl.cell import Cell
@@ -47,7 +47,7 @@ def _basis(figures: PeakFigures) -> str:
 
 def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
     """A "Load over time" sheet (figures, heat map, chart) and an "Intervals" sheet."""
-    from balancer.io.writer import _TITLE_FONT, _header, _long_text, _put, _section, print_setup
+    from balancer.io.writer import _TITLE_FONT, _long_text, print_setup
 
     ws = wb.create_sheet("Load over time")
     ws["A1"] = "Load over time"
@@ -57,45 +57,83 @@ def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
     for notice in figures.series.notices:
         _long_text(ws, row, 1, f"Note: {notice}", last_col=8, chars_per_line=90)
         row += 1
-    lines = figures.lines
-    row += 1
-    _section(ws, row, "Widest interval (largest phase spread)")
-    row += 1
-    _header(
-        ws, row, ["Arrangement", "Interval start", *[f"Line {x} VA" for x in lines], "Spread VA"]
-    )
+    row = _widest_block(ws, figures, row + 1)
+    row = _existing_block(ws, figures, row)
+    row, last_col = _hour_block(ws, figures, row + 2)
+    data = wb.create_sheet("Intervals")
+    _intervals_sheet(data, figures)
+    end = _week_chart(ws, data, figures, row + 2)
+    ws.column_dimensions["A"].width = 24
+    ws.column_dimensions["B"].width = 18
+    for col in range(3, last_col + 1):
+        ws.column_dimensions[get_column_letter(col)].width = 14
+    ws.print_area = f"A1:{get_column_letter(max(8, last_col))}{end}"
+    print_setup(ws, landscape=True, title_rows=None)
+
+
+def _widest(figures: PeakFigures) -> list[tuple[str, str, list[float], float]]:
+    """The widest interval as it stands and after: title, start, per-line VA, spread."""
     shown: list[tuple[str, np.ndarray]] = [("As it stands", figures.before_va)]
     if figures.after_va is not None:
         shown.append(("After balancing", figures.after_va))
+    out = []
     for title, va in shown:
-        row += 1
         t = int(np.argmax(va.max(axis=1) - va.min(axis=1)))
+        out.append((title, figures.stamp(t), [float(v) for v in va[t]], float(np.ptp(va[t]))))
+    return out
+
+
+def _widest_block(ws: Worksheet, figures: PeakFigures, row: int) -> int:
+    from balancer.io.writer import _header, _put, _section
+
+    _section(ws, row, "Widest interval (largest phase spread)")
+    row += 1
+    lines = figures.lines
+    _header(
+        ws, row, ["Arrangement", "Interval start", *[f"Line {x} VA" for x in lines], "Spread VA"]
+    )
+    for title, stamp, per_line, spread in _widest(figures):
+        row += 1
         _put(ws, row, 1, title)
-        _put(ws, row, 2, figures.stamp(t))
-        for j, value in enumerate(va[t]):
-            _put(ws, row, 3 + j, float(value), "#,##0")
-        _put(ws, row, 3 + len(lines), float(va[t].max() - va[t].min()), "#,##0")
+        _put(ws, row, 2, stamp)
+        for j, value in enumerate(per_line):
+            _put(ws, row, 3 + j, value, "#,##0")
+        _put(ws, row, 3 + len(lines), spread, "#,##0")
+    return row
+
+
+def _existing_block(ws: Worksheet, figures: PeakFigures, row: int) -> int:
+    from balancer.io.writer import _long_text, _put, _section
+
     existing = figures.existing
-    if existing is not None:
-        row += 2
-        _section(ws, row, "Existing load from the data (NEC 220.87)")
-        facts = [
-            ("Heaviest line", f"Line {existing.line}"),
-            (f"Maximum {existing.window_min}-minute demand", f"{existing.demand_a:,.1f} A"),
-            ("At 125 %", f"{existing.existing_a:,.1f} A"),
-            ("Data", existing.remark),
-        ]
-        for label, value in facts:
-            row += 1
-            _put(ws, row, 1, label)
-            _long_text(ws, row, 2, value, last_col=7, chars_per_line=80)
+    if existing is None:
+        return row
     row += 2
+    _section(ws, row, "Existing load from the data (NEC 220.87)")
+    facts = [
+        ("Heaviest line", f"Line {existing.line}"),
+        (f"Maximum {existing.window_min}-minute demand", f"{existing.demand_a:,.1f} A"),
+        ("At 125 %", f"{existing.existing_a:,.1f} A"),
+        ("Data", existing.remark),
+    ]
+    for label, value in facts:
+        row += 1
+        _put(ws, row, 1, label)
+        _long_text(ws, row, 2, value, last_col=7, chars_per_line=80)
+    return row
+
+
+def _hour_block(ws: Worksheet, figures: PeakFigures, row: int) -> tuple[int, int]:
+    """Mean VA per line by hour of day, coloured from light (low) to dark (high); returns the
+    last row and column."""
+    from balancer.io.writer import _header, _put, _section
+
     _section(ws, row, "Mean load per line by hour of day (VA)")
     row += 1
-    heads = ["Hour"] + [f"As it stands {x}" for x in lines]
+    heads = ["Hour"] + [f"As it stands {x}" for x in figures.lines]
     tables = [figures.by_hour(after=False)]
     if figures.after_va is not None:
-        heads += [f"After {x}" for x in lines]
+        heads += [f"After {x}" for x in figures.lines]
         tables.append(figures.by_hour(after=True))
     _header(ws, row, heads)
     top = row + 1
@@ -118,15 +156,7 @@ def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
             end_color=HEAT_HIGH,
         ),
     )
-    data = wb.create_sheet("Intervals")
-    _intervals_sheet(data, figures)
-    end = _week_chart(ws, data, figures, row + 2)
-    ws.column_dimensions["A"].width = 24
-    ws.column_dimensions["B"].width = 18
-    for col in range(3, 3 + 2 * len(lines)):
-        ws.column_dimensions[get_column_letter(col)].width = 14
-    ws.print_area = f"A1:{get_column_letter(max(8, len(heads)))}{end}"
-    print_setup(ws, landscape=True, title_rows=None)
+    return row, len(heads)
 
 
 def _week_chart(ws: Worksheet, data: Worksheet, figures: PeakFigures, row: int) -> int:
@@ -207,24 +237,6 @@ def _intervals_sheet(ws: Worksheet, figures: PeakFigures) -> None:
     print_setup(ws, landscape=True, title_rows="1:1")
 
 
-def _over_time_rows(figures: PeakFigures) -> list[list[Any]]:
-    rows: list[list[Any]] = []
-    shown: list[tuple[str, np.ndarray]] = [("As it stands", figures.before_va)]
-    if figures.after_va is not None:
-        shown.append(("After balancing", figures.after_va))
-    for title, va in shown:
-        t = int(np.argmax(va.max(axis=1) - va.min(axis=1)))
-        rows.append(
-            [
-                title,
-                figures.stamp(t),
-                *[f"{v:,.0f}" for v in va[t]],
-                f"{va[t].max() - va[t].min():,.0f}",
-            ]
-        )
-    return rows
-
-
 def over_time_page(page: _Page, figures: PeakFigures) -> None:
     """A PDF page: the load basis, the widest interval before and after, NEC 220.87 from the
     data, the spread per interval over the week around the widest one (widest marked), and
@@ -239,7 +251,10 @@ def over_time_page(page: _Page, figures: PeakFigures) -> None:
     scale = min(1.0, width / sum(first))
     page.table(
         ["Widest interval", "Start", *[f"Line {x} VA" for x in lines], "Spread VA"],
-        _over_time_rows(figures),
+        [
+            [title, stamp, *[f"{v:,.0f}" for v in per_line], f"{spread:,.0f}"]
+            for title, stamp, per_line, spread in _widest(figures)
+        ],
         [w * scale for w in first],
         align=["left", "left"] + ["right"] * (len(lines) + 1),
     )

@@ -1035,11 +1035,7 @@ def write_workbook(
         if harmonic_neutral_rms_a is None:
             harmonic_neutral_rms_a = harmonic_neutral(result.before, result.after)
         _phasors(wb.create_sheet(), result, harmonic_neutral_rms_a)
-    if peak is not None:
-        from balancer.io.overtime import write_over_time_sheets
-
-        write_over_time_sheets(wb, peak)
-    _added_sheets(wb, extra_sheets, demand, order)
+    _added_sheets(wb, extra_sheets, demand, order, peak)
     _notes(wb.create_sheet())
     if any(c.balance_va is not None for c in result.after_panel.circuits):
         for sheet in wb.worksheets:  # printed, every page says what the figures stand on
@@ -1076,9 +1072,14 @@ def _added_sheets(
     extra_sheets: Sequence[ExtraSheet],
     demand: DemandResult | None,
     order: WorkOrder | None,
+    peak: PeakFigures | None = None,
 ) -> None:
-    """The work order and demand sheets, when given, then the extra sheets; refused when a name
-    would repeat a sheet's."""
+    """The load over time, work order and demand sheets, when given, then the extra sheets;
+    refused when a name would repeat a sheet's."""
+    if peak is not None:
+        from balancer.io.overtime import write_over_time_sheets
+
+        write_over_time_sheets(wb, peak)
     sheets = list(extra_sheets)
     if demand is not None:
         from balancer.code.demand import demand_sheet_rows

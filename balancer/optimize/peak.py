@@ -28,6 +28,7 @@ from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.errors import InfeasibleError, SolverError
 from balancer.intervals.figures import circuit_loads, peak_spread_va, share_weights, spreads_va
+from balancer.intervals.series import LoadSeries
 from balancer.optimize.goals import MOVES_GAP
 from balancer.optimize.model import (
     Layout,
@@ -439,6 +440,25 @@ def peak_tolerance_va(horizon_loads: np.ndarray, lines: int, options: BalanceOpt
     return max(options.tolerance_va, PEAK_TOLERANCE_SHARE * heaviest / lines)
 
 
+@dataclass(frozen=True, slots=True)
+class _Run:
+    """What every stage of one peak balancing run shares."""
+
+    layout: Layout
+    options: BalanceOptions
+    loads: np.ndarray  # (intervals, circuits)
+    tolerance: float
+    stage1_end: float
+    deadline: float
+
+    def cap(self, peak: _Settled) -> float:
+        """The spread no interval may pass in the move stage: within the tolerance of the
+        proven bound when the peak is proven, else no worse than its answer."""
+        if peak.proven:
+            return max(peak.bound_va + self.tolerance, peak.worst_va)
+        return peak.worst_va
+
+
 def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
     """Rearrange the panel to keep its worst interval's phase spread lowest over the series in
     ``options.intervals``, then the fewest moves; prove how good the result is.
@@ -457,72 +477,23 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
     if len(series.starts) == 0:
         raise SolverError("the load series holds no intervals")
     begin = time.perf_counter()
-    deadline = begin + options.time_limit_s
     layout = build_layout(panel, options)
-    before = analyze(panel)
     loads = circuit_loads(panel, series)
     tolerance = peak_tolerance_va(loads, len(panel.lines), options)
     if not layout.units:
-        value = peak_spread_va(panel, series)
-        return BalanceResult(
-            panel,
-            panel,
-            before,
-            before,
-            SolveStatus.UNCHANGED,
-            options.engine,
-            tolerance,
-            before.spread_va,
-            (),
-            time.perf_counter() - begin,
-            ("every circuit keeps its spaces; nothing to rearrange",),
-            first_goal="peak",
-            goal_value=value,
-            goal_bound=value,
-            goal_proven=True,
-        )
+        return _unchanged(panel, series, options, tolerance, begin)
+    run = _Run(
+        layout,
+        options,
+        loads,
+        tolerance,
+        begin + PEAK_SHARE * options.time_limit_s,
+        begin + options.time_limit_s,
+    )
     relaxed = build_model(layout, "line", options, include=())
     on_lines = _Horizon.of(layout, loads, relaxed.options)
-    as_found = _as_found(layout, relaxed.options)
-    starts = [as_found] if as_found is not None else []
-    seed = as_found if as_found is not None else greedy_lines(layout)
-    first = _first_intervals(on_lines, [*starts, *([seed] if seed is not None else [])])
-    searched = None
-    if seed is not None:
-        searched, first = _searched(on_lines, relaxed, first, seed, deadline)
-    stage1_end = begin + PEAK_SHARE * options.time_limit_s
-    peak = _minimise_peak(relaxed, on_lines, first, options, tolerance, searched, stage1_end)
-    cap_va = max(peak.bound_va + tolerance, peak.worst_va) if peak.proven else peak.worst_va
-    moves_s = min(MOVES_S, max(PLACE_MIN_S, deadline - time.perf_counter()))
-    lines = peak
-    if layout.count_moves:
-        lines = _fewest_on_lines(relaxed, on_lines, peak, cap_va, options, moves_s / 2)
-    exact = build_model(layout, "mixed", options, include=())
-    in_spaces = _Horizon.of(layout, loads, exact.options)
-    start = _place_lines(layout, options, relaxed, lines.picks, exact)
-    if start is None and lines is not peak:
-        lines = peak
-        start = _place_lines(layout, options, relaxed, peak.picks, exact)
-    if start is None:
-        # the line-level answer does not fit the spaces: settle the peak on the exact model
-        peak = _minimise_peak(
-            exact, in_spaces, peak.intervals, options, tolerance, None, stage1_end
-        )
-        cap_va = max(peak.bound_va + tolerance, peak.worst_va) if peak.proven else peak.worst_va
-        start = (list(peak.picks), math.inf)
-        lines = peak
-        exact = build_model(layout, "mixed", options, include=())
-    floor = lines.bound_va if lines is not peak else -math.inf  # fewest moves on lines
-    picks, start_moves = start
-    if not layout.count_moves or start_moves <= floor + MOVES_GAP:
-        placed = _Settled(tuple(picks), lines.worst_va, floor, True, lines.intervals, None)
-    else:
-        limit = max(PLACE_MIN_S, min(moves_s, deadline - time.perf_counter()))
-        placed = _within_cap(
-            exact, in_spaces, lines.intervals, cap_va, "moves", options, picks, limit
-        )
-        if placed.stage is not None and placed.stage.value <= floor + MOVES_GAP:
-            placed = replace(placed, proven=True)
+    peak = _settle_peak(run, relaxed, on_lines)
+    peak, placed, exact = _fewest_moves(run, relaxed, on_lines, peak)
     chosen = realise(layout, [exact.options[u][k] for u, k in enumerate(placed.picks)])
     after_panel = panel.with_circuits(placed_circuits(layout, chosen))
     after = verify(panel, after_panel, options)
@@ -530,37 +501,131 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
     bound = min(peak.bound_va, worst)
     peak_proven = peak.proven and worst - bound <= tolerance + BOUND_SLACK * max(1.0, worst)
     moves_proven = placed.proven or not layout.count_moves
-    status = SolveStatus.OPTIMAL if peak_proven and moves_proven else SolveStatus.FEASIBLE
     moves = moves_between(panel, after_panel)
-    notes = [
-        f"peak-interval spread: {worst:,.0f} VA over {len(series.starts):,} intervals, "
-        + (
-            f"proven within {tolerance:,.0f} VA of the best possible"
-            if peak_proven
-            else f"not proven (no arrangement is below {bound:,.0f} VA)"
-        ),
-        f"the model held {len(placed.intervals):,} of the {len(series.starts):,} intervals"
-        + ("; every other interval was measured and cannot bind" if peak_proven else ""),
-    ]
-    if layout.count_moves:
-        notes.append(
-            f"moves: {len(moves)}" + (", proven fewest" if placed.proven else ", not proven fewest")
-        )
-    notes.append(f"connected-VA spread of this arrangement: {after.spread_va:,.0f} VA")
     return BalanceResult(
         before_panel=panel,
         after_panel=after_panel,
-        before=before,
+        before=analyze(panel),
         after=after,
-        status=status,
+        status=SolveStatus.OPTIMAL if peak_proven and moves_proven else SolveStatus.FEASIBLE,
         engine=options.engine,
         tolerance_va=tolerance,
         lower_bound_spread_va=min(spread_lower_bound(layout), after.spread_va),
         moves=moves,
         solve_seconds=time.perf_counter() - begin,
-        notes=tuple(notes),
+        notes=_notes(run, series, worst, bound, peak_proven, placed, len(moves), after.spread_va),
         first_goal="peak",
         goal_value=worst,
         goal_bound=bound,
         goal_proven=peak_proven,
     )
+
+
+def _unchanged(
+    panel: Panel, series: LoadSeries, options: BalanceOptions, tolerance: float, begin: float
+) -> BalanceResult:
+    """Every circuit keeps its spaces: the schedule as it stands is the only arrangement."""
+    before = analyze(panel)
+    value = peak_spread_va(panel, series)
+    return BalanceResult(
+        panel,
+        panel,
+        before,
+        before,
+        SolveStatus.UNCHANGED,
+        options.engine,
+        tolerance,
+        before.spread_va,
+        (),
+        time.perf_counter() - begin,
+        ("every circuit keeps its spaces; nothing to rearrange",),
+        first_goal="peak",
+        goal_value=value,
+        goal_bound=value,
+        goal_proven=True,
+    )
+
+
+def _settle_peak(run: _Run, relaxed: Model, on_lines: _Horizon) -> _Settled:
+    """Stage 1 on the line relaxation: the local search from the schedule as it stands (or the
+    connected-VA greedy answer), then the integer program over the intervals that can bind."""
+    layout = run.layout
+    as_found = _as_found(layout, relaxed.options)
+    seed = as_found if as_found is not None else greedy_lines(layout)
+    first = _first_intervals(on_lines, [p for p in (as_found, seed) if p is not None])
+    searched = None
+    if seed is not None:
+        searched, first = _searched(on_lines, relaxed, first, seed, run.deadline)
+    return _minimise_peak(
+        relaxed, on_lines, first, run.options, run.tolerance, searched, run.stage1_end
+    )
+
+
+def _fewest_moves(
+    run: _Run, relaxed: Model, on_lines: _Horizon, peak: _Settled
+) -> tuple[_Settled, _Settled, Model]:
+    """Stage 2: the fewest moves keeping every interval within the cap, on the relaxation (a
+    floor) and then in spaces; the peak settled again on the exact model when its lines do not
+    fit the spaces. Returns the peak, the placement and the exact model it indexes."""
+    layout, options = run.layout, run.options
+    cap_va = run.cap(peak)
+    moves_s = min(MOVES_S, max(PLACE_MIN_S, run.deadline - time.perf_counter()))
+    lines = peak
+    if layout.count_moves:
+        lines = _fewest_on_lines(relaxed, on_lines, peak, cap_va, options, moves_s / 2)
+    exact = build_model(layout, "mixed", options, include=())
+    in_spaces = _Horizon.of(layout, run.loads, exact.options)
+    start = _place_lines(layout, options, relaxed, lines.picks, exact)
+    if start is None and lines is not peak:
+        lines = peak
+        start = _place_lines(layout, options, relaxed, peak.picks, exact)
+    if start is None:
+        # the line-level answer does not fit the spaces: settle the peak on the exact model
+        end = max(run.stage1_end, time.perf_counter() + PLACE_MIN_S)
+        peak = _minimise_peak(exact, in_spaces, peak.intervals, options, run.tolerance, None, end)
+        cap_va = run.cap(peak)
+        start, lines = (list(peak.picks), math.inf), peak
+        exact = build_model(layout, "mixed", options, include=())
+    floor = lines.bound_va if lines is not peak else -math.inf  # fewest moves on lines
+    picks, start_moves = start
+    if not layout.count_moves or start_moves <= floor + MOVES_GAP:
+        return (
+            peak,
+            _Settled(tuple(picks), lines.worst_va, floor, True, lines.intervals, None),
+            exact,
+        )
+    limit = max(PLACE_MIN_S, min(moves_s, run.deadline - time.perf_counter()))
+    placed = _within_cap(exact, in_spaces, lines.intervals, cap_va, "moves", options, picks, limit)
+    if placed.stage is not None and placed.stage.value <= floor + MOVES_GAP:
+        placed = replace(placed, proven=True)
+    return peak, placed, exact
+
+
+def _notes(
+    run: _Run,
+    series: LoadSeries,
+    worst: float,
+    bound: float,
+    proven: bool,
+    placed: _Settled,
+    moves: int,
+    connected_spread_va: float,
+) -> tuple[str, ...]:
+    """One note per goal: the figure and how far it is proven."""
+    count = len(series.starts)
+    notes = [
+        f"peak-interval spread: {worst:,.0f} VA over {count:,} intervals, "
+        + (
+            f"proven within {run.tolerance:,.0f} VA of the best possible"
+            if proven
+            else f"not proven (no arrangement is below {bound:,.0f} VA)"
+        ),
+        f"the model held {len(placed.intervals):,} of the {count:,} intervals"
+        + ("; every other interval was measured and cannot bind" if proven else ""),
+    ]
+    if run.layout.count_moves:
+        notes.append(
+            f"moves: {moves}" + (", proven fewest" if placed.proven else ", not proven fewest")
+        )
+    notes.append(f"connected-VA spread of this arrangement: {connected_spread_va:,.0f} VA")
+    return tuple(notes)
