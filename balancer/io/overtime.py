@@ -25,14 +25,18 @@ if TYPE_CHECKING:
 __all__ = ["over_time_page", "write_over_time_sheets"]
 
 WEEK_H = 7 * 24
+# The Intervals sheet holds every interval up to this many (a year of hourly data; writing a
+# cell costs a spreadsheet library about 30 µs), else the four weeks around the widest one.
+SHEET_ROWS = 8_760
+SHEET_WEEKS = 4
 HEAT_LOW, HEAT_MID, HEAT_HIGH = "F7F4EC", "E9B872", "A4443B"  # cool paper to brick red
 
 
-def _window(figures: PeakFigures) -> slice:
-    """The week around the widest interval (after balancing when there is an after)."""
+def _window(figures: PeakFigures, weeks: int = 1) -> slice:
+    """The weeks around the widest interval (after balancing when there is an after)."""
     series = figures.series
     per_hour = max(1, 60 // series.interval_min)
-    count = WEEK_H * per_hour
+    count = weeks * WEEK_H * per_hour
     centre = figures.worst(after=figures.after_va is not None)
     first = max(0, min(centre - count // 2, len(series.starts) - count))
     return slice(first, min(len(series.starts), first + count))
@@ -54,8 +58,15 @@ def write_over_time_sheets(wb: Workbook, figures: PeakFigures) -> None:
     ws["A1"].font = _TITLE_FONT
     _long_text(ws, 2, 1, f"Load basis: {_basis(figures)}", last_col=8, chars_per_line=90)
     row = 3
-    for notice in figures.series.notices:
-        _long_text(ws, row, 1, f"Note: {notice}", last_col=8, chars_per_line=90)
+    notes = [f"Note: {n}" for n in figures.series.notices]
+    shown, count = _sheet_rows(figures), len(figures.series.starts)
+    if shown.stop - shown.start < count:
+        notes.append(
+            f"The Intervals sheet shows {shown.stop - shown.start:,} of the {count:,} intervals, "
+            f"the {SHEET_WEEKS} weeks around the widest; every interval was balanced on."
+        )
+    for note in notes:
+        _long_text(ws, row, 1, note, last_col=8, chars_per_line=90)
         row += 1
     row = _widest_block(ws, figures, row + 1)
     row = _existing_block(ws, figures, row)
@@ -166,7 +177,9 @@ def _week_chart(ws: Worksheet, data: Worksheet, figures: PeakFigures, row: int) 
 
     window = _window(figures)
     _section(ws, row, "Phase spread per interval, the week around the widest interval")
-    first, last = window.start + 2, window.stop + 1  # data rows on the Intervals sheet
+    shown = _sheet_rows(figures)
+    first = window.start - shown.start + 2  # data rows on the Intervals sheet
+    last = window.stop - shown.start + 1
     spread_cols = _spread_columns(figures)
     chart = LineChart()
     chart.title = "Phase spread per interval (VA)"
@@ -204,9 +217,17 @@ def _spread_columns(figures: PeakFigures) -> list[int]:
     return [*cols, cols[-1] + 1]
 
 
+def _sheet_rows(figures: PeakFigures) -> slice:
+    """The intervals the Intervals sheet holds: all, or the weeks around the widest."""
+    if len(figures.series.starts) <= SHEET_ROWS:
+        return slice(0, len(figures.series.starts))
+    return _window(figures, SHEET_WEEKS)
+
+
 def _intervals_sheet(ws: Worksheet, figures: PeakFigures) -> None:
-    """Every interval: line VA and spread as it stands, and after balancing, and the widest
-    interval's spread in a column of its own (the chart marks it)."""
+    """Each interval (all of them, or the weeks around the widest when the horizon is long):
+    line VA and spread as it stands, and after balancing, and the widest interval's spread in a
+    column of its own (the chart marks it)."""
     from balancer.io.writer import _header, print_setup
 
     lines = figures.lines
@@ -221,10 +242,10 @@ def _intervals_sheet(ws: Worksheet, figures: PeakFigures) -> None:
         [np.column_stack([b, b.max(axis=1) - b.min(axis=1)]) for b in blocks], axis=1
     )
     widest = figures.worst(after=figures.after_va is not None)
-    stamps = np.datetime_as_string(figures.series.starts, unit="m")
-    for t, (stamp, row) in enumerate(
-        zip(stamps, values.round(0).astype(int).tolist(), strict=True)
-    ):
+    shown = _sheet_rows(figures)
+    stamps = np.datetime_as_string(figures.series.starts[shown], unit="m")
+    rows = values[shown].round(0).astype(int).tolist()
+    for t, (stamp, row) in enumerate(zip(stamps, rows, strict=True), start=shown.start):
         cells = [Cell(ws, value=v) for v in [*row, row[-1] if t == widest else None]]
         for cell in cells:
             cell.number_format = "#,##0"
