@@ -131,7 +131,9 @@ def run_demo(args: argparse.Namespace, parser: argparse.ArgumentParser) -> int:
         f"Open {workbook} (the revised schedule, its Work order sheet and the trade-off table) "
         f"or {pdf} (the printout). Try next: balancer check YOUR-SCHEDULE.xlsx; balancer "
         f"balance {schedule.parent / 'clinic-after-additions-208y120.xlsx'} --basis measured; "
-        "or balancer serve --open for the same in a browser."
+        f"balancer balance {schedule.parent / 'bike-workshop-cafe-208y120.xlsx'} --profile "
+        f"{schedule.parent / 'loggers' / 'bike-workshop-cafe-logger.csv'} for the peak that "
+        "really happens; or balancer serve --open for the same in a browser."
     )
     print("\n" + "\n".join(text.wrap(closing)))
     return status

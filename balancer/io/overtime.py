@@ -4,7 +4,7 @@ around the widest interval as a chart, and every interval in a sheet of its own.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from openpyxl.cell import Cell
@@ -292,18 +292,29 @@ def over_time_page(page: _Page, figures: PeakFigures) -> None:
     _heat_axes(page, figures, 2.8)
 
 
-def _spread_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
-    from matplotlib.ticker import StrMethodFormatter
-
-    window = _window(figures)
+def _titled_axes(
+    page: _Page, title: str, height_in: float, right_in: float, bottom_in: float
+) -> Any:
+    """Axes under a bold title at the page's current height; the page moves below them."""
     ax = page.fig.add_axes(
         (
             1.2 / page.width_in,
             1.0 - (page.y_in + height_in) / page.height_in,
-            (page.width_in - 1.8) / page.width_in,
-            (height_in - 0.35) / page.height_in,
+            (page.width_in - 1.2 - right_in) / page.width_in,
+            (height_in - bottom_in) / page.height_in,
         )
     )
+    page.text(0.6, page.y_in - 0.3, title, size=9, weight="bold", color="#33475B")
+    page.y_in += height_in
+    return ax
+
+
+def _spread_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
+    from matplotlib.ticker import StrMethodFormatter
+
+    window = _window(figures)
+    title = "Phase spread per interval, the week around the widest interval (VA)"
+    ax = _titled_axes(page, title, height_in, right_in=0.6, bottom_in=0.35)
     x = figures.series.starts[window].astype("datetime64[m]").astype(object)
     ax.plot(x, figures.before_spread_va[window], color="#9AA5B1", lw=0.8, label="as it stands")
     after = figures.after_spread_va
@@ -325,15 +336,6 @@ def _spread_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
     ax.tick_params(labelsize=7)
     ax.legend(fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 1.0), ncols=3, frameon=False)
     page.fig.autofmt_xdate(rotation=0, ha="center")
-    page.text(
-        0.6,
-        page.y_in - 0.3,
-        "Phase spread per interval, the week around the widest interval (VA)",
-        size=9,
-        weight="bold",
-        color="#33475B",
-    )
-    page.y_in += height_in
 
 
 def _heat_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
@@ -344,14 +346,8 @@ def _heat_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
         tables.append(("after", figures.by_hour(after=True)))
     columns = [f"{x}\n{name}" for name, _ in tables for x in figures.lines]
     data = np.concatenate([t for _, t in tables], axis=1).T  # (columns, 24)
-    ax = page.fig.add_axes(
-        (
-            1.2 / page.width_in,
-            1.0 - (page.y_in + height_in) / page.height_in,
-            (page.width_in - 2.6) / page.width_in,
-            (height_in - 0.5) / page.height_in,
-        )
-    )
+    title = "Mean load per line by hour of day (VA)"
+    ax = _titled_axes(page, title, height_in, right_in=1.4, bottom_in=0.5)
     cmap = LinearSegmentedColormap.from_list(
         "loading", [f"#{HEAT_LOW}", f"#{HEAT_MID}", f"#{HEAT_HIGH}"]
     )
@@ -362,12 +358,3 @@ def _heat_axes(page: _Page, figures: PeakFigures, height_in: float) -> None:
     bar = page.fig.colorbar(image, ax=ax, fraction=0.04, pad=0.02)
     bar.ax.tick_params(labelsize=7)
     bar.set_label("Mean VA", fontsize=7)
-    page.text(
-        0.6,
-        page.y_in - 0.3,
-        "Mean load per line by hour of day (VA)",
-        size=9,
-        weight="bold",
-        color="#33475B",
-    )
-    page.y_in += height_in
