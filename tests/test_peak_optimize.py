@@ -183,3 +183,23 @@ def test_per_line_series_cannot_choose() -> None:
     series = LoadSeries("lines", "measured", starts, 15, (), np.zeros((1, 0)), np.ones((1, 3)))
     with pytest.raises(SolverError, match="per-line readings"):
         balance(panel, _peak_options(series))
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_move_budget_is_kept(seed: int) -> None:
+    """With at most one move (a trade-off row), the least peak spread among the layouts that
+    move at most one breaker (exhaustive), and never more moves than that."""
+    rng = random.Random(200 + seed)
+    panel = random_panel(rng, spaces=8, count=5)
+    series = _random_series(panel, rng)
+    options = BalanceOptions(objective="peak", intervals=series, max_moves=1, time_limit_s=30.0)
+    result = balance(panel, options)
+    assert len(result.moves) <= 1
+    best = min(
+        peak_spread_va(_moved(panel, layout), series)
+        for layout in all_layouts(panel)
+        if sum(1 for c in panel.circuits if c.placed and c.spaces != layout[c.id]) <= 1
+    )
+    assert result.goal_value >= best - ATOL_VA
+    assert result.goal_value <= best + result.tolerance_va + ATOL_VA
+    assert result.goal_proven

@@ -225,9 +225,11 @@ def _search(
     start: Sequence[int],
     intervals: Sequence[int],
     budget_s: float,
+    max_moves: float = math.inf,
 ) -> list[int]:
     """Single and paired changes of option that lower the worst spread over ``intervals`` (and,
-    among equal spreads, the changes), within each line's room, to a local optimum."""
+    among equal spreads, the changes), within each line's room and the move budget, to a local
+    optimum."""
     panel = horizon.layout.panel
     picks = list(start)
     sub = horizon.loads[list(intervals)]
@@ -254,6 +256,7 @@ def _search(
         d_moves = moves[change] - moves[np.array(now)[owner[change]]]
         single = total + d_va
         fits = ((used + d_use) <= room + 1e-9).all(axis=1)
+        fits &= moves[now].sum() + d_moves <= max_moves
         single_score = _score(single) + MOVE_PENALTY_VA * (moves[now].sum() + d_moves)
         single_score[~fits] = np.inf
         best_single = int(np.argmin(single_score)) if len(change) else -1
@@ -267,6 +270,7 @@ def _search(
         for lo in range(0, len(i), 4096):
             a, b = i[lo : lo + 4096], j[lo : lo + 4096]
             pair_fits = ((used + d_use[a] + d_use[b]) <= room + 1e-9).all(axis=1)
+            pair_fits &= moves[now].sum() + d_moves[a] + d_moves[b] <= max_moves
             pair_score = _score(total + d_va[a] + d_va[b]) + MOVE_PENALTY_VA * (
                 moves[now].sum() + d_moves[a] + d_moves[b]
             )
@@ -297,9 +301,10 @@ def _searched(
     intervals: Sequence[int],
     start: Sequence[int],
     deadline: float,
+    budget: float,
 ) -> tuple[list[int], list[int]]:
     """The local search, repeated with the intervals its answers spread widest added, until
-    its answer's worst interval is among those it searched on."""
+    its answer's worst interval is among those it searched on; never past ``budget`` moves."""
     layout = horizon.layout
     geometry = layout.panel.geometry
     room = np.array(
@@ -313,7 +318,8 @@ def _searched(
     picks = list(start)
     stop = min(deadline, time.perf_counter() + SEARCH_S)
     while True:
-        picks = _search(horizon, model.options, room, picks, have, stop - time.perf_counter())
+        left = stop - time.perf_counter()
+        picks = _search(horizon, model.options, room, picks, have, left, budget)
         spreads = horizon.spreads(picks)
         new = _violated(spreads, float(spreads[have].max()) + 1e-9, set(have))
         if not new or time.perf_counter() >= stop or len(have) >= SEARCH_INTERVALS:
@@ -553,9 +559,12 @@ def _settle_peak(run: _Run, relaxed: Model, on_lines: _Horizon) -> _Settled:
     as_found = _as_found(layout, relaxed.options)
     seed = as_found if as_found is not None else greedy_lines(layout)
     first = _first_intervals(on_lines, [p for p in (as_found, seed) if p is not None])
+    budget = math.inf
+    if layout.count_moves and run.options.max_moves is not None:
+        budget = run.options.max_moves
     searched = None
-    if seed is not None:
-        searched, first = _searched(on_lines, relaxed, first, seed, run.deadline)
+    if seed is not None and sum(relaxed.options[u][k].moves for u, k in enumerate(seed)) <= budget:
+        searched, first = _searched(on_lines, relaxed, first, seed, run.deadline, budget)
     return _minimise_peak(
         relaxed, on_lines, first, run.options, run.tolerance, searched, run.stage1_end
     )
