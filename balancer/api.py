@@ -21,7 +21,7 @@ from balancer.code.demand import (
     compute_demand,
 )
 from balancer.domain.panel import Panel
-from balancer.domain.result import BalanceOptions, BalanceResult
+from balancer.domain.result import BalanceOptions, BalanceResult, Objective
 from balancer.errors import BalancerError, OutputError, Problem, ScheduleError
 from balancer.field.basis import Basis
 from balancer.field.run import FieldRun
@@ -70,6 +70,10 @@ class FieldChoices:
     def field_run(self) -> FieldRun:
         """A fresh record for one run with these choices (it collects what the run finds)."""
         return FieldRun(**{f.name: getattr(self, f.name) for f in fields(self)})
+
+
+# With a load series, the goal the user chose becomes its worst-interval form.
+PEAK_GOALS: dict[str, Objective] = {"spread": "peak", "line": "peak-line"}
 
 
 @dataclass(frozen=True, slots=True)
@@ -196,11 +200,15 @@ def balance_panel(
     warnings = list(panel.notices)
     series = over_time.series(prepared) if over_time is not None else None
     if series is not None and series.circuit_ids:
-        if options.objective != "spread":
+        if options.objective not in PEAK_GOALS:
             raise ScheduleError(
-                Problem("--objective", "the load over time sets the goal: the worst interval")
+                Problem(
+                    "--objective",
+                    "with the load over time the goal is the worst interval's phase spread "
+                    "(spread) or its heaviest line (line)",
+                )
             )
-        options = replace(options, objective="peak", intervals=series)
+        options = replace(options, objective=PEAK_GOALS[options.objective], intervals=series)
     elif series is not None:
         warnings.append(
             "the logger file gives per-line readings: they show the panel as it stands but not "

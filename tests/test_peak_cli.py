@@ -132,7 +132,7 @@ def test_typical_shapes_say_they_are_invented(tmp_path: Path) -> None:
     [
         (["--tz", "America/Chicago"], "--tz"),
         (["--profile", str(LOGGER), "--profiles", "typical"], "--profiles"),
-        (["--profile", str(LOGGER), "--objective", "line"], "--objective"),
+        (["--profile", str(LOGGER), "--objective", "neutral"], "--objective"),
     ],
 )
 def test_refused_with_a_reason(extra: list[str], where: str, tmp_path: Path) -> None:
@@ -146,3 +146,19 @@ def test_many_schedules_refuse_a_logger(tmp_path: Path) -> None:
     status, out = _run(["check", str(SCHEDULE), str(SCHEDULE), "--profile", str(LOGGER), "--json"])
     assert status == 2
     assert "one schedule at a time" in out
+
+
+def test_heaviest_line_goal_from_the_command_line(tmp_path: Path) -> None:
+    """``--objective line`` with a logger: the heaviest line at its worst interval, proven, and
+    the JSON's heaviest interval after balancing carries that figure."""
+    argv = ["balance", str(SCHEDULE), "--profile", str(LOGGER), "--objective", "line", "--json"]
+    status, out = _run([*argv, "--no-tradeoff", "-o", str(tmp_path / "line.xlsx")])
+    assert status == 0, out
+    data = json.loads(out)
+    _validator("balance").validate(data)
+    assert data["first_goal"] == "peak-line"
+    assert data["status"] == "optimal"
+    block = data["load_over_time"]
+    heaviest = max(block["heaviest_after"]["line_va"].values())
+    assert heaviest == pytest.approx(data["goal_value"], abs=0.5)
+    assert heaviest < max(block["heaviest_before"]["line_va"].values())

@@ -16,7 +16,7 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.domain.result import BalanceOptions, SolveStatus
 from balancer.domain.systems import get_system
 from balancer.errors import SolverError
-from balancer.intervals.figures import line_loads, peak_spread_va, spreads_va
+from balancer.intervals.figures import line_loads, peak_spread_va, peak_va, spreads_va
 from balancer.intervals.series import LoadSeries
 from balancer.optimize.engine import balance
 
@@ -203,3 +203,25 @@ def test_move_budget_is_kept(seed: int) -> None:
     assert result.goal_value >= best - ATOL_VA
     assert result.goal_value <= best + result.tolerance_va + ATOL_VA
     assert result.goal_proven
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_heaviest_line_goal_matches_every_layout(seed: int) -> None:
+    """Objective ``peak-line``: the least load on the heaviest line at its worst interval, then
+    the fewest moves, against every legal layout."""
+    rng = random.Random(300 + seed)
+    panel = random_panel(rng, spaces=8, count=5, multiwire=seed % 3 == 0)
+    series = _random_series(panel, rng)
+    options = BalanceOptions(objective="peak-line", intervals=series, time_limit_s=30.0)
+    result = balance(panel, options)
+    figures = []
+    for layout in all_layouts(panel):
+        moves = sum(1 for c in panel.circuits if c.placed and c.spaces != layout[c.id])
+        figures.append((peak_va(_moved(panel, layout), series, "line"), moves))
+    best = min(v for v, _ in figures)
+    assert result.first_goal == "peak-line"
+    assert result.status is SolveStatus.OPTIMAL
+    assert best - ATOL_VA <= result.goal_value <= best + result.tolerance_va + ATOL_VA
+    assert result.goal_value == pytest.approx(peak_va(result.after_panel, series, "line"))
+    fewest = min(m for v, m in figures if v <= result.goal_value + ATOL_VA)
+    assert len(result.moves) == fewest

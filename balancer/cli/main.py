@@ -102,7 +102,7 @@ def _balance_parser(commands: argparse._SubParsersAction[argparse.ArgumentParser
         default="spread",
         help="first goal: phase VA spread (default), worst line current, neutral current, or "
         "the heaviest winding of the supply transformer (needs --bank-kva); the others break "
-        "ties",
+        "ties. With --profile/--profiles: spread or line at the worst interval",
     )
     balance.add_argument(
         "--bank-kva",

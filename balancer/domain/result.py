@@ -14,7 +14,7 @@ from balancer.intervals.series import LoadSeries
 from balancer.physics.analysis import Loads
 
 Engine = Literal["highs", "cbc"]
-Objective = Literal["spread", "line", "neutral", "transformer", "peak"]
+Objective = Literal["spread", "line", "neutral", "transformer", "peak", "peak-line"]
 
 
 class SolveStatus(enum.Enum):
@@ -52,7 +52,8 @@ class BalanceOptions:
     the move count is proven without another solve.
 
     ``intervals`` are the loads per time interval (logger readings or typical load shapes);
-    with them, objective ``"peak"`` keeps the worst interval's phase spread lowest.
+    with them, objective ``"peak"`` keeps the worst interval's phase spread lowest, and
+    ``"peak-line"`` the heaviest line's load at its worst interval.
     """
 
     fresh: bool = False

@@ -74,7 +74,7 @@ class FieldRun:
         placed = any(c.placed for c in panel.circuits)
         within = self.margin(panel, options)
         # with a load series each row is a solve over the whole horizon: asked for, not default
-        default = placed and not options.fresh and options.objective != "peak"
+        default = placed and not options.fresh and options.intervals is None
         wanted = self.tradeoff if self.tradeoff is not None else default
         needs_table = wanted or self.target_imbalance_pct is not None or within is not None
         if needs_table and not options.fresh and placed:

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from typing import Literal
 
 import numpy as np
 
@@ -12,7 +13,20 @@ from balancer.domain.panel import Circuit, Panel
 from balancer.errors import SolverError
 from balancer.intervals.series import LoadSeries, column_of
 
-__all__ = ["circuit_loads", "line_loads", "peak_spread_va", "share_weights", "spreads_va"]
+__all__ = [
+    "PeakMeasure",
+    "circuit_loads",
+    "interval_figures",
+    "line_loads",
+    "peak_spread_va",
+    "peak_va",
+    "share_weights",
+    "spreads_va",
+]
+
+# What the peak goal keeps low at the worst interval: the phase spread (heaviest minus lightest
+# line) or the heaviest line's load.
+PeakMeasure = Literal["spread", "line"]
 
 
 def circuit_loads(panel: Panel, series: LoadSeries) -> np.ndarray:
@@ -67,8 +81,20 @@ def spreads_va(per_line_va: np.ndarray) -> np.ndarray:
     return result
 
 
-def peak_spread_va(panel: Panel, series: LoadSeries) -> float:
-    """The widest phase spread over the horizon for the panel as placed."""
+def interval_figures(per_line_va: np.ndarray, measure: PeakMeasure) -> np.ndarray:
+    """Each interval's figure (the last axis is the lines): its spread or its heaviest line."""
+    high = per_line_va.max(axis=-1)
+    result: np.ndarray = high - per_line_va.min(axis=-1) if measure == "spread" else high
+    return result
+
+
+def peak_va(panel: Panel, series: LoadSeries, measure: PeakMeasure = "spread") -> float:
+    """The worst interval's figure over the horizon for the panel as placed."""
     if len(series.starts) == 0:
         return math.nan
-    return float(spreads_va(line_loads(panel, series)).max())
+    return float(interval_figures(line_loads(panel, series), measure).max())
+
+
+def peak_spread_va(panel: Panel, series: LoadSeries) -> float:
+    """The widest phase spread over the horizon for the panel as placed."""
+    return peak_va(panel, series, "spread")

@@ -96,7 +96,7 @@ def balance(panel: Panel, options: BalanceOptions | None = None) -> BalanceResul
         When the engine fails or its answer does not pass the independent check.
     """
     options = options or BalanceOptions()
-    if options.objective == "peak":
+    if options.objective in ("peak", "peak-line"):
         return balance_peak(panel, options)
     begin = time.perf_counter()
     deadline = begin + options.time_limit_s

@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, CurrentTerm, Objective
 from balancer.domain.systems import Line
-from balancer.intervals.figures import peak_spread_va
+from balancer.intervals.figures import peak_va
 from balancer.physics.analysis import Loads
 from balancer.physics.harmonics import circuit_currents_by_order
 
@@ -61,7 +61,7 @@ class Goal:
 
     def gap(self, options: BalanceOptions) -> float:
         """The absolute gap the engine is asked to close on this goal."""
-        return options.tolerance_va if self.name in ("spread", "peak") else CURRENT_GAP
+        return options.tolerance_va if self.name in ("spread", "peak", "peak-line") else CURRENT_GAP
 
     def tolerance(self, value: float, options: BalanceOptions) -> float:
         """How far two figures of this goal may differ and still count as the same optimum:
@@ -78,9 +78,11 @@ class Goal:
             return loads.neutral_a
         if self.name == "line":
             return max(loads.line_a.values(), default=0.0)
-        if self.name == "peak":
+        if self.name in ("peak", "peak-line"):
             series = options.intervals
-            return math.nan if series is None else peak_spread_va(panel, series)
+            if series is None:
+                return math.nan
+            return peak_va(panel, series, "line" if self.name == "peak-line" else "spread")
         currents = fundamental_currents(panel)
         terms = options.transformer_terms
         return max((abs(term.value(currents)) for term in terms), default=math.nan)
@@ -159,6 +161,14 @@ GOALS: dict[str, Goal] = {
         ),
         Goal(
             "peak", "Peak-interval spread", "the phase spread at the worst interval", "VA", 0, False
+        ),
+        Goal(
+            "peak-line",
+            "Heaviest line at its worst interval",
+            "the heaviest line's load at its worst interval",
+            "VA",
+            0,
+            False,
         ),
     )
 }

@@ -27,7 +27,13 @@ import pulp
 from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceOptions, BalanceResult, SolveStatus
 from balancer.errors import InfeasibleError, SolverError
-from balancer.intervals.figures import circuit_loads, peak_spread_va, share_weights, spreads_va
+from balancer.intervals.figures import (
+    PeakMeasure,
+    circuit_loads,
+    interval_figures,
+    peak_va,
+    share_weights,
+)
 from balancer.intervals.series import LoadSeries
 from balancer.optimize.goals import MOVES_GAP
 from balancer.optimize.model import (
@@ -73,10 +79,15 @@ class _Horizon:
     loads: np.ndarray  # (intervals, circuits)
     fixed: np.ndarray  # (circuits, lines) shares of what stays put
     shares: list[list[np.ndarray]]  # per unit and option, (circuits, lines)
+    measure: PeakMeasure
 
     @classmethod
     def of(
-        cls, layout: Layout, loads: np.ndarray, unit_options: Sequence[Sequence[Option]]
+        cls,
+        layout: Layout,
+        loads: np.ndarray,
+        unit_options: Sequence[Sequence[Option]],
+        measure: PeakMeasure,
     ) -> _Horizon:
         panel = layout.panel
         fixed = np.zeros((len(panel.circuits), len(panel.lines)))
@@ -91,7 +102,7 @@ class _Horizon:
                     m[i] = share_weights(panel, panel.circuits[i], member_lines)
                 per_option.append(m)
             shares.append(per_option)
-        return cls(layout, loads, fixed, shares)
+        return cls(layout, loads, fixed, shares, measure)
 
     def per_line(self, picks: Sequence[int]) -> np.ndarray:
         """Line VA in every interval for one option per unit."""
@@ -102,15 +113,19 @@ class _Horizon:
         return result
 
     def spreads(self, picks: Sequence[int]) -> np.ndarray:
-        return spreads_va(self.per_line(picks))
+        """Each interval's figure (spread, or heaviest line) for one option per unit."""
+        return interval_figures(self.per_line(picks), self.measure)
 
 
 def _add_rows(
     model: Model, horizon: _Horizon, intervals: Sequence[int], above: pulp.LpVariable | float
 ) -> None:
-    """``above`` ≥ (line a − line b) at each interval, for every ordered pair of lines."""
+    """``above`` ≥ (line a − line b) at each interval, for every ordered pair of lines; for the
+    heaviest-line measure ``above`` ≥ line a (``b`` is then none)."""
     lines = range(len(horizon.layout.panel.lines))
-    pairs = [(a, b) for a in lines for b in lines if a != b]
+    pairs: list[tuple[int, int | None]] = [(a, b) for a in lines for b in lines if a != b]
+    if horizon.measure == "line":
+        pairs = [(a, None) for a in lines]
     sub = horizon.loads[list(intervals)]  # (k, circuits)
     fixed = sub @ horizon.fixed  # (k, lines)
     option_va = [[sub @ m for m in per_option] for per_option in horizon.shares]
@@ -119,10 +134,11 @@ def _add_rows(
             terms = []
             for u, per_option in enumerate(option_va):
                 for k, va in enumerate(per_option):
-                    coefficient = float(va[row, a] - va[row, b])
+                    coefficient = float(va[row, a] - (va[row, b] if b is not None else 0.0))
                     if coefficient:
                         terms.append((model.choice[u, k], coefficient))
-            expr = pulp.LpAffineExpression(terms, constant=float(fixed[row, a] - fixed[row, b]))
+            constant = float(fixed[row, a] - (fixed[row, b] if b is not None else 0.0))
+            expr = pulp.LpAffineExpression(terms, constant=constant)
             model.prob += (above >= expr, f"peak_{t}_{a}_{b}")
 
 
@@ -248,7 +264,7 @@ def _search(
         now = [at(u) for u in range(len(picks))]
         total = sub @ horizon.fixed + va[now].sum(axis=0)
         used = use[now].sum(axis=0)
-        score = float(_score(total[None])[0]) + MOVE_PENALTY_VA * moves[now].sum()
+        score = float(_score(total[None], horizon.measure)[0]) + MOVE_PENALTY_VA * moves[now].sum()
         change = np.arange(len(index))
         change = change[change != np.array(now)[owner]]  # every other option of each unit
         d_va = va[change] - va[np.array(now)[owner[change]]]
@@ -257,7 +273,9 @@ def _search(
         single = total + d_va
         fits = ((used + d_use) <= room + 1e-9).all(axis=1)
         fits &= moves[now].sum() + d_moves <= max_moves
-        single_score = _score(single) + MOVE_PENALTY_VA * (moves[now].sum() + d_moves)
+        single_score = _score(single, horizon.measure) + MOVE_PENALTY_VA * (
+            moves[now].sum() + d_moves
+        )
         single_score[~fits] = np.inf
         best_single = int(np.argmin(single_score)) if len(change) else -1
         best: tuple[float, tuple[int, ...]] = (score, ())
@@ -271,7 +289,7 @@ def _search(
             a, b = i[lo : lo + 4096], j[lo : lo + 4096]
             pair_fits = ((used + d_use[a] + d_use[b]) <= room + 1e-9).all(axis=1)
             pair_fits &= moves[now].sum() + d_moves[a] + d_moves[b] <= max_moves
-            pair_score = _score(total + d_va[a] + d_va[b]) + MOVE_PENALTY_VA * (
+            pair_score = _score(total + d_va[a] + d_va[b], horizon.measure) + MOVE_PENALTY_VA * (
                 moves[now].sum() + d_moves[a] + d_moves[b]
             )
             pair_score[~pair_fits] = np.inf
@@ -286,11 +304,11 @@ def _search(
     return picks
 
 
-def _score(per_line_va: np.ndarray) -> np.ndarray:
+def _score(per_line_va: np.ndarray, measure: PeakMeasure) -> np.ndarray:
     """What the local search lowers for each candidate (shape: candidates, intervals, lines):
     the worst interval's spread, plus a little of the mean spread so that changes which leave
     the worst interval alone but ease the others are taken (a pure maximum has plateaus)."""
-    spreads = per_line_va.max(axis=2) - per_line_va.min(axis=2)
+    spreads = interval_figures(per_line_va, measure)
     result: np.ndarray = spreads.max(axis=1) + SMOOTHING * spreads.mean(axis=1)
     return result
 
@@ -456,6 +474,7 @@ class _Run:
     tolerance: float
     stage1_end: float
     deadline: float
+    measure: PeakMeasure
 
     def cap(self, peak: _Settled) -> float:
         """The spread no interval may pass in the move stage: within the tolerance of the
@@ -486,8 +505,9 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
     layout = build_layout(panel, options)
     loads = circuit_loads(panel, series)
     tolerance = peak_tolerance_va(loads, len(panel.lines), options)
+    measure: PeakMeasure = "line" if options.objective == "peak-line" else "spread"
     if not layout.units:
-        return _unchanged(panel, series, options, tolerance, begin)
+        return _unchanged(panel, series, options, tolerance, begin, measure)
     run = _Run(
         layout,
         options,
@@ -495,15 +515,16 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
         tolerance,
         begin + PEAK_SHARE * options.time_limit_s,
         begin + options.time_limit_s,
+        measure,
     )
     relaxed = build_model(layout, "line", options, include=())
-    on_lines = _Horizon.of(layout, loads, relaxed.options)
+    on_lines = _Horizon.of(layout, loads, relaxed.options, measure)
     peak = _settle_peak(run, relaxed, on_lines)
     peak, placed, exact = _fewest_moves(run, relaxed, on_lines, peak)
     chosen = realise(layout, [exact.options[u][k] for u, k in enumerate(placed.picks)])
     after_panel = panel.with_circuits(placed_circuits(layout, chosen))
     after = verify(panel, after_panel, options)
-    worst = peak_spread_va(after_panel, series)
+    worst = peak_va(after_panel, series, measure)
     bound = min(peak.bound_va, worst)
     peak_proven = peak.proven and worst - bound <= tolerance + BOUND_SLACK * max(1.0, worst)
     moves_proven = placed.proven or not layout.count_moves
@@ -520,7 +541,7 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
         moves=moves,
         solve_seconds=time.perf_counter() - begin,
         notes=_notes(run, series, worst, bound, peak_proven, placed, len(moves), after.spread_va),
-        first_goal="peak",
+        first_goal=options.objective,
         goal_value=worst,
         goal_bound=bound,
         goal_proven=peak_proven,
@@ -528,11 +549,16 @@ def balance_peak(panel: Panel, options: BalanceOptions) -> BalanceResult:
 
 
 def _unchanged(
-    panel: Panel, series: LoadSeries, options: BalanceOptions, tolerance: float, begin: float
+    panel: Panel,
+    series: LoadSeries,
+    options: BalanceOptions,
+    tolerance: float,
+    begin: float,
+    measure: PeakMeasure,
 ) -> BalanceResult:
     """Every circuit keeps its spaces: the schedule as it stands is the only arrangement."""
     before = analyze(panel)
-    value = peak_spread_va(panel, series)
+    value = peak_va(panel, series, measure)
     return BalanceResult(
         panel,
         panel,
@@ -545,7 +571,7 @@ def _unchanged(
         (),
         time.perf_counter() - begin,
         ("every circuit keeps its spaces; nothing to rearrange",),
-        first_goal="peak",
+        first_goal=options.objective,
         goal_value=value,
         goal_bound=value,
         goal_proven=True,
@@ -583,7 +609,7 @@ def _fewest_moves(
     if layout.count_moves:
         lines = _fewest_on_lines(relaxed, on_lines, peak, cap_va, options, moves_s / 2)
     exact = build_model(layout, "mixed", options, include=())
-    in_spaces = _Horizon.of(layout, run.loads, exact.options)
+    in_spaces = _Horizon.of(layout, run.loads, exact.options, run.measure)
     start = _place_lines(layout, options, relaxed, lines.picks, exact)
     if start is None and lines is not peak:
         lines = peak
@@ -622,8 +648,11 @@ def _notes(
 ) -> tuple[str, ...]:
     """One note per goal: the figure and how far it is proven."""
     count = len(series.starts)
+    what = (
+        "peak-interval spread" if run.measure == "spread" else "heaviest line at its worst interval"
+    )
     notes = [
-        f"peak-interval spread: {worst:,.0f} VA over {count:,} intervals, "
+        f"{what}: {worst:,.0f} VA over {count:,} intervals, "
         + (
             f"proven within {run.tolerance:,.0f} VA of the best possible"
             if proven

@@ -71,6 +71,12 @@ class PeakFigures:
         assert spread is not None
         return int(np.argmax(spread))
 
+    def heaviest(self, after: bool) -> int:
+        """The interval whose heaviest line carries the most (the first of equals)."""
+        va = self.after_va if after else self.before_va
+        assert va is not None
+        return int(np.argmax(va.max(axis=1)))
+
     def stamp(self, index: int) -> str:
         return str(self.series.starts[index]).replace("T", " ")[:16]
 
@@ -171,6 +177,15 @@ def peak_lines(figures: PeakFigures) -> list[str]:
             f"  widest interval after balancing: {figures.stamp(a)}, spread {spread[a]:,.0f} VA "
             f"({_line_text(figures.lines, figures.after_va[a])})"
         )
+    for after, va in ((False, figures.before_va), (True, figures.after_va)):
+        if va is None:
+            continue
+        t = figures.heaviest(after)
+        j = int(np.argmax(va[t]))
+        out.append(
+            f"  heaviest line {'after balancing' if after else 'as it stands'}: "
+            f"{figures.stamp(t)}, line {figures.lines[j]} {va[t, j]:,.0f} VA"
+        )
     existing = figures.existing
     if existing is not None:
         out.append(
@@ -209,12 +224,15 @@ def peak_json(figures: PeakFigures) -> dict[str, Any]:
         "notices": list(series.notices),
         "widest_before": interval(figures.worst(after=False), figures.before_va),
         "widest_after": None,
+        "heaviest_before": interval(figures.heaviest(after=False), figures.before_va),
+        "heaviest_after": None,
         "by_hour_before_va": _hours(figures.by_hour(after=False)),
         "by_hour_after_va": None,
         "existing_load": None,
     }
     if figures.after_va is not None:
         data["widest_after"] = interval(figures.worst(after=True), figures.after_va)
+        data["heaviest_after"] = interval(figures.heaviest(after=True), figures.after_va)
         data["by_hour_after_va"] = _hours(figures.by_hour(after=True))
     existing = figures.existing
     if existing is not None:

@@ -287,7 +287,7 @@ def result_lines(result: Any, verbose: bool = False) -> list[str]:
         f"Result: {goal.phrase.removeprefix('the ')} {goal.text(result.goal_value)}, "
         f"{proof_text(result)}"
     )
-    if result.first_goal == "peak":
+    if result.first_goal in ("peak", "peak-line"):
         line += f"; connected-VA spread {after.spread_va:,.0f} VA, not a goal here"
     elif result.first_goal != "spread":
         line += f"; phase spread {after.spread_va:,.0f} VA, a tie-breaker here"
