@@ -9,7 +9,7 @@ import sys
 from pathlib import Path
 from typing import TextIO
 
-from balancer.api import FieldChoices, refuse_inputs
+from balancer.api import FieldChoices, refuse_outputs
 from balancer.batch import (
     SUMMARY_NAME,
     Mode,
@@ -21,7 +21,7 @@ from balancer.batch import (
 )
 from balancer.cli import options
 from balancer.domain.result import BalanceOptions
-from balancer.errors import Problem, ScheduleError
+from balancer.errors import OutputError, Problem, ScheduleError
 from balancer.report.json import batch_json
 
 
@@ -66,7 +66,11 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
         balance_options, choices = BalanceOptions(), FieldChoices(basis=args.basis)
     demand = options.demand(args)
     if output_dir is not None:
-        output_dir.mkdir(parents=True, exist_ok=True)
+        try:
+            output_dir.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            reason = (exc.strerror or str(exc)).lower()
+            raise OutputError(f"{output_dir}: cannot make the output folder: {reason}") from exc
     tasks = make_tasks(
         paths, mode, balance_options, options.overrides(args), output_dir, demand, choices
     )
@@ -78,7 +82,9 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
     summary = args.summary
     if summary is None and mode == "balance":
         summary = Path.cwd() / SUMMARY_NAME
-    refuse_inputs([summary], [t.path for t in tasks])
+    # the summary, and the one folder every revised workbook goes to, checked before the runs
+    first_output = tasks[0].output if output_dir is not None else None
+    refuse_outputs([summary, first_output], [t.path for t in tasks])
     rows = run_batch(tasks, args.jobs, Progress(len(tasks)).step)
     written = write_summary(summary, rows, mode) if summary is not None else None
     if args.json:
