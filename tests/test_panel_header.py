@@ -6,6 +6,8 @@ from __future__ import annotations
 
 import dataclasses
 import datetime
+import re
+import zipfile
 from pathlib import Path
 
 import pytest
@@ -120,6 +122,27 @@ def test_revised_workbook_reads_back_with_title_block_and_design_loads(tmp_path:
     header = book["Layout"].oddHeader
     assert "Demo job && sons" in header.left.text  # printed as one '&'
     assert "Revision: 4, balanced 2026-12-02" in header.right.text
+
+
+def test_page_header_line_breaks_are_written_as_line_breaks(tmp_path: Path) -> None:
+    """Two lines a side in every sheet's page header, the break written as a newline in the
+    file: openpyxl's own escape (_x000a_) is printed as it stands by LibreOffice."""
+    source = write_schedule(tmp_path / "p.xlsx", ROWS, panel=TITLE_BLOCK)
+    out = write_workbook(balance(read_schedule(source)), tmp_path / "out.xlsx")
+    with zipfile.ZipFile(out) as book:
+        sheets = [n for n in book.namelist() if n.startswith("xl/worksheets/sheet")]
+        assert len(sheets) >= 5
+        for name in sheets:
+            xml = book.read(name).decode("utf-8")
+            header = re.search(r"<oddHeader>(.*?)</oddHeader>", xml, re.DOTALL)
+            assert header is not None, name
+            assert "_x00" not in xml, name
+            assert header.group(1).count("\n") == 2, name  # one break on each side
+    for ws in load_workbook(out).worksheets:
+        left, right = ws.oddHeader.left.text, ws.oddHeader.right.text
+        lines = [line.strip() for line in left.split("\n")]
+        assert lines == ["Project: Demo job && sons", "Panel LP-9: 208Y/120 V, 3-phase 4-wire"]
+        assert right.split("\n")[0].startswith("Date: ")
 
 
 def test_pdf_shows_the_title_block_and_cuts_nothing(tmp_path: Path) -> None:

@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING, Any
 from openpyxl import Workbook
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.header_footer import HeaderFooterItem
 from openpyxl.worksheet.worksheet import Worksheet
 
 from balancer.domain.panel import Circuit, Panel, PanelHeader
@@ -181,19 +182,44 @@ def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> No
 
 
 def _header_text(text: str) -> str:
-    return text.replace("&", "&&")  # '&' starts a header code in a spreadsheet's page header
+    # '&' starts a header code in a spreadsheet's page header; a schedule's own line break
+    # would add a line the header's margin has no room for
+    return " ".join(text.replace("&", "&&").split())
+
+
+class PageHeaderLines(HeaderFooterItem):
+    """A page header or footer whose line breaks reach the file as line breaks. openpyxl writes
+    a line break in header text as the escape ``_x000a_``, which is for cell text only: a
+    spreadsheet program prints it as it stands (LibreOffice does). Excel and LibreOffice both
+    write a header's line break as a plain newline in the XML, so that is what goes out."""
+
+    def to_tree(self, tagname: str) -> Any:
+        element = super().to_tree(tagname)
+        if element.text:
+            element.text = element.text.replace("_x000a_", "\n")
+        return element
 
 
 def running_header(ws: Worksheet, panel: Panel) -> None:
-    """Every printed page's header: the project, the panel and its system (the high leg named
-    on a high-leg delta panel), the date and revision."""
-    project, issue = title_block(panel.header)
-    # one line each: a line break in a page header is not read alike by every spreadsheet
-    ws.oddHeader.left.text = _header_text(project)
-    ws.oddHeader.center.text = _header_text(f"Panel {panel.name}: {panel.system.label()}")
-    ws.oddHeader.right.text = _header_text(issue)
-    for part in (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right):
+    """Every printed page's header, two short lines a side: the project over the panel and its
+    system (the high leg named on a high-leg delta panel) on the left, the date over the
+    revision on the right."""
+    project, _ = title_block(panel.header)
+    header = PageHeaderLines()
+    # the size code is followed by a space that prints: the second line starts with one too
+    header.left.text = "\n ".join(
+        _header_text(line) for line in (project, f"Panel {panel.name}: {panel.system.label()}")
+    )
+    header.right.text = "\n".join(
+        _header_text(line)
+        for line in (
+            f"Date: {panel.header.date or 'not given'}",
+            f"Revision: {panel.header.revision_text()}",
+        )
+    )
+    for part in (header.left, header.right):
         part.size = 7
+    ws.HeaderFooter.oddHeader = header
     ws.page_margins.top = max(ws.page_margins.top, 0.9)
     ws.page_margins.header = 0.3
 
