@@ -197,7 +197,7 @@ def summary_lines(
         )
         out.append(
             f"{proven} of {len(result.outcomes)} panels proven best on every goal, "
-            f"{goal_proven} on their first goal within its tolerance; "
+            f"{goal_proven} on their first goal; "
             f"{moves} breaker moves, {relands} feeders re-landed"
         )
         for name, outcome in result.outcomes.items():

@@ -18,7 +18,6 @@ from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceResult
 from balancer.io.files import atomic, refuse_input_path
 from balancer.io.writer import (
-    STATUS_TEXT,
     ExtraSheet,
     header_facts,
     revised_header,
@@ -425,13 +424,10 @@ def _panel_figures(
     if result is None:
         figures = [(label, value) for label, value, _ in _whole_panel(panel, loads)]
     if result is not None:
+        from balancer.report.text import proof_sentence
+
         figures += [
-            ("Result", STATUS_TEXT[result.status]),
-            (
-                "Lower bound on spread",
-                f"{result.lower_bound_spread_va:,.0f} VA "
-                f"(gap {result.gap_va:,.0f} VA, tolerance {result.tolerance_va:g} VA)",
-            ),
+            ("Result", proof_sentence(result)),
             ("Breakers to move", str(len(result.moves))),
         ]
     return figures
@@ -473,11 +469,14 @@ def _before_after_figures(page: _Page, panel: Panel, loads: Loads, result: Balan
 
 
 def _figure_lines(page: _Page, figures: list[tuple[str, str]]) -> None:
-    """Label and value pairs, one a line."""
+    """Label and value pairs, one a line; a long value wraps under itself, never past the
+    margin."""
+    room = page.width_in - 2 * MARGIN_IN - 2.8
     for label, value in figures:
         page.text(MARGIN_IN, page.y_in, label, size=9)
-        page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
-        page.y_in += 0.19
+        for n, part in enumerate(wrap_to_width(value, 9, room) or [""]):
+            page.text(MARGIN_IN + 2.8, page.y_in + n * 0.15, part, size=9)
+        page.y_in += 0.19 + 0.15 * (max(1, len(wrap_to_width(value, 9, room))) - 1)
 
 
 def _bar_chart(

@@ -39,8 +39,8 @@ ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
 
 
 STATUS_TEXT = {
-    SolveStatus.OPTIMAL: "optimal: proven best within the stated tolerance",
-    SolveStatus.FEASIBLE: "feasible: checked arrangement, not proven best (see gap)",
+    SolveStatus.OPTIMAL: "optimal (proven)",
+    SolveStatus.FEASIBLE: "checked, not proven the best",
     SolveStatus.UNCHANGED: "unchanged: nothing could be improved or moved",
 }
 
@@ -547,25 +547,27 @@ def _totals_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
 def _result_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
     """How the balancing ended, its notes and what was not placed, titled at ``row``; returns
     the last row."""
+    from balancer.optimize.goals import goal_for
+    from balancer.report.text import plain_notes, proof_sentence
+
     _section(ws, row, "Result")
     facts: list[tuple[str, Any, str | None]] = [
         ("Status", STATUS_TEXT[result.status], None),
-        ("First goal", result.first_goal, None),
-        ("Engine", result.engine, None),
-        ("Lower bound on spread VA", result.lower_bound_spread_va, VA),
-        ("Gap to lower bound VA", result.gap_va, VA),
-        ("Tolerance VA", result.tolerance_va, VA),
+        ("How good", proof_sentence(result), None),
+        ("Balanced for", goal_for(result.first_goal).label.lower(), None),
         ("Moves", len(result.moves), "0"),
+        ("Engine", result.engine, None),
         ("Solve time s", result.solve_seconds, "0.00"),
     ]
     for label, value, fmt in facts:
         row += 1
         _put(ws, row, 1, label)
+        ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
         if isinstance(value, str) and len(value) > 16:
             _long_text(ws, row, 2, value, last_col=6, chars_per_line=60)
         else:
             _put(ws, row, 2, value, fmt)
-    for note in result.notes:
+    for note in plain_notes(list(result.notes), verbose=False):
         row += 1
         _put(ws, row, 1, "Note")
         ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
@@ -890,8 +892,9 @@ def _notes(ws: Worksheet) -> None:
         "(the NEMA MG 1 definition, applied to loads).",
         "Currents are phasor sums at the fundamental frequency from the schedule's VA and power "
         "factors; the neutral carries the sum of the 1-pole circuit currents.",
-        "A result is called optimal only when the solver proved it within the tolerance; "
-        "otherwise the gap to the lower bound is stated.",
+        "A result is called optimal (proven) only when no arrangement can beat it by more than "
+        "the margin stated beside it (1 VA of phase spread unless asked otherwise); otherwise "
+        "the Summary says how much better another arrangement might still be.",
         "The 'Circuits' sheet can be read back by balancer; edit it there and run again.",
     ]
     for row, text in enumerate(lines, start=3):

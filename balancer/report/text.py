@@ -277,6 +277,50 @@ def proof_text(result: Any) -> str:
     return "not proven: the time limit ended the search before any limit was found"
 
 
+def proof_sentence(result: Any) -> str:
+    """How good the arrangement is, as a designer reads it on a printout or the Summary sheet:
+    how low no arrangement can go, what this one reaches, and whether that is proven. No solver
+    terms; the exact figures are in the JSON and ``--verbose``."""
+    from balancer.domain.result import BalanceOptions, SolveStatus
+
+    if result.status is SolveStatus.UNCHANGED:
+        return "Nothing to rearrange: every circuit keeps its spaces."
+    goal = goal_for(result.first_goal)
+    what = goal.phrase
+    value, floor = result.goal_value, result.goal_bound
+    if result.first_goal == "spread":  # both are proven floors; the higher says more
+        value, floor = result.after.spread_va, max(floor, result.lower_bound_spread_va)
+    # an optimal status proves every key goal, the first among them
+    proven = result.goal_proven or result.status is SolveStatus.OPTIMAL
+    budget = result.move_budget
+    scope = "" if budget is None else f" moving at most {budget} breaker{'s' * (budget != 1)}"
+    this = goal.text(value)
+    floor_known = math.isfinite(floor)
+    shown = 0.5 * 10.0 ** (-goal.digits)
+    if proven and floor_known and value - floor < shown:
+        text = f"Proven the best possible: no arrangement{scope} brings {what} below {this}."
+    elif proven:
+        margin = goal.tolerance(value, BalanceOptions(tolerance_va=result.tolerance_va))
+        text = f"Within {goal.text(margin)} of the best possible (proven)"
+        if floor_known:
+            text += f": no arrangement{scope} brings {what} below {goal.text(floor)}"
+        text += f"; this one has {this}."
+    elif floor_known:
+        text = (
+            f"Not proven the best: no arrangement{scope} brings {what} below "
+            f"{goal.text(floor)}; this one has {this}, so up to "
+            f"{goal.text(max(0.0, value - floor))} might still be gained."
+        )
+    else:
+        text = (
+            f"Not proven the best: this one has {this}; the time limit ended the search "
+            "before it could say how much lower another arrangement could go."
+        )
+    if result.status is SolveStatus.FEASIBLE and result.goal_proven:
+        text += " The later aims (fewest moves, then the neutral current) are not all proven."
+    return text
+
+
 def result_lines(result: Any, verbose: bool = False) -> list[str]:
     """The ``Result:`` line, and with ``verbose`` the solver's own figures."""
     from balancer.domain.result import SolveStatus
