@@ -624,6 +624,8 @@ def _directory_pages(
             "VA is the circuit's share on that row's line. Keep a legible copy at the panel "
             "(NEC 408.4)."
         )
+        if panel.system.high_leg:
+            page.paragraph(panel.system.high_leg_note(), size=8.5)
         page.y_in += 0.05
         page.table(header, chunk, widths, size=size, align=align)
         pages.append(page)

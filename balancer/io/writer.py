@@ -107,6 +107,7 @@ _HEAD_FONT = Font(bold=True, color="FFFFFF")
 _BAND_FILL = PatternFill("solid", fgColor="EEF2F5")
 _MOVED_FILL = PatternFill("solid", fgColor="FFF1C7")
 _LINE_FILL = PatternFill("solid", fgColor="D5DDE4")
+_HIGH_LEG_FILL = PatternFill("solid", fgColor="F6B26B")  # orange, as the high leg is marked
 _TITLE_FONT = Font(bold=True, size=14)
 _SECTION_FONT = Font(bold=True, size=11, color="33475B")
 _THIN = Side(style="thin", color="9AA5B1")
@@ -610,15 +611,19 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
     # Readings replaced some loads (--basis measured or larger): a "Balanced VA" column beside
     # each "Load VA" (the design load) gives the figure the balance was made on.
     k = 1 if any(c.balance_va is not None for c in panel.circuits) else 0
-    ws["A2"] = (
-        f"{panel.system.label()}. Load VA is each circuit's share on that row's line"
-        + (" (schedule VA); Balanced VA the share it was balanced on" if k else "")
-        + ". 'Was' gives the old spaces of a moved breaker."
-    )
     side = ["Trip A", "Poles", "Space"]
     load = ["Load VA", "Balanced VA"][: 1 + k]
     titles = ["Was", "Description", *load, *side, "Line", *side[::-1], *load[::-1], "Description"]
     titles.append("Was")
+    high_leg = panel.system.high_leg_note()
+    note = (
+        f"{panel.system.label()}. Load VA is each circuit's share on that row's line"
+        + (" (schedule VA); Balanced VA the share it was balanced on" if k else "")
+        + ". 'Was' gives the old spaces of a moved breaker."
+        + (f" {high_leg} Its Line cells are orange." if high_leg else "")
+    )
+    # across the table, wrapped: a note wider than the table would shrink the printed page
+    _long_text(ws, 2, 1, note, last_col=len(titles), chars_per_line=150)
     _header(ws, 3, titles)
     before_spaces = {c.id: c.spaces for c in result.before_panel.circuits}
     totals = dict.fromkeys(panel.lines, 0.0)
@@ -681,7 +686,7 @@ def _layout_row(
     centre = ws.cell(row=row, column=line_col)
     centre.alignment = _CENTRE
     centre.font = Font(bold=True)
-    centre.fill = _LINE_FILL
+    centre.fill = _HIGH_LEG_FILL if line == panel.system.high_leg else _LINE_FILL
 
 
 def _line_totals(
@@ -761,9 +766,15 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
 
 def _circuits(ws: Worksheet, panel: Panel) -> None:
     ws.title = CIRCUITS_SHEET
-    write_circuit_table(ws, panel, 1)
-    ws.freeze_panes = "C2"
-    print_setup(ws, landscape=True, title_rows="1:1")
+    # a high-leg delta's list says which line is the high leg above its header (the reader
+    # takes the header wherever it is)
+    header_row = 1
+    if panel.system.high_leg:
+        ws.cell(row=1, column=1, value=panel.system.high_leg_note()).font = Font(bold=True)
+        header_row = 2
+    write_circuit_table(ws, panel, header_row)
+    ws.freeze_panes = f"C{header_row + 1}"
+    print_setup(ws, landscape=True, title_rows=f"{header_row}:{header_row}")
 
 
 NOTE_WRAP_CHARS = 30
