@@ -7,22 +7,13 @@ import argparse
 import json
 import sys
 from pathlib import Path
-from typing import TextIO
+from typing import TYPE_CHECKING, TextIO
 
-from balancer.api import FieldChoices, refuse_outputs
-from balancer.batch import (
-    SUMMARY_NAME,
-    Mode,
-    exit_status,
-    make_tasks,
-    run_batch,
-    summary_text,
-    write_summary,
-)
 from balancer.cli import options
-from balancer.domain.result import BalanceOptions
 from balancer.errors import OutputError, Problem, ScheduleError
-from balancer.report.json import batch_json
+
+if TYPE_CHECKING:
+    from balancer.batch import Mode
 
 
 class Progress:
@@ -54,6 +45,19 @@ def wanted(args: argparse.Namespace) -> bool:
 
 def run(args: argparse.Namespace, mode: Mode) -> int:
     """The batch over every schedule named: run, print the summary, write the workbook."""
+    # loaded here, not at start-up: a single schedule (the usual run) needs none of it
+    from balancer.api import FieldChoices, refuse_outputs
+    from balancer.batch import (
+        SUMMARY_NAME,
+        exit_status,
+        make_tasks,
+        run_batch,
+        summary_text,
+        write_summary,
+    )
+    from balancer.domain.result import BalanceOptions
+    from balancer.report.json import batch_json
+
     if args.jobs is not None and args.jobs < 1:
         raise ScheduleError(Problem("--jobs", f"{args.jobs} must be 1 or more"))
     paths = [args.schedule, *args.more]

@@ -46,6 +46,18 @@ _RULE = "#9AA5B1"
 _HEAD = "#33475B"
 
 
+@cache
+def _plain_glyphs() -> dict[str, Any]:
+    """One glyph per character (no ligatures) where matplotlib shapes text (3.11 and later): a
+    ligature's glyph goes into a second embedded copy of the font, and each copy costs a tenth
+    of a second or more to subset when the PDF is written. Copied text reads the same."""
+    from matplotlib.text import Text
+
+    if hasattr(Text, "set_fontfeatures"):
+        return {"fontfeatures": ("-liga", "-clig")}
+    return {}  # pragma: no cover - matplotlib before 3.11 draws no ligatures
+
+
 @dataclass
 class _Page:
     """A page being laid out from the top down, in inches."""
@@ -60,7 +72,8 @@ class _Page:
 
     def text(self, x_in: float, y_in: float, text: str, size: float = 9, **kw: Any) -> None:
         # schedule text is shown as given: '$5 or $6' is money, not math for mathtext to parse
-        self.fig.text(*self._xy(x_in, y_in), text, fontsize=size, va="top", parse_math=False, **kw)
+        look = {"fontsize": size, "va": "top", "parse_math": False, **_plain_glyphs(), **kw}
+        self.fig.text(*self._xy(x_in, y_in), text, **look)
 
     def line(
         self, x0_in: float, x1_in: float, y_in: float, colour: str = _RULE, lw: float = 0.6
@@ -170,25 +183,23 @@ def wrap_to_width(text: str, size: float, room_in: float) -> list[str]:
     Nothing is dropped."""
     if not text:
         return []
-    if text_width_in(text, size) <= room_in:
+    if not wider_than(text, size, room_in):
         return [text]
-    import re
-
     lines: list[str] = []
     current = ""
     for word in re.findall(r"\S+\s*", text):
         pieces = [word]
-        if text_width_in(word.rstrip(), size) > room_in:  # break at , - / first, then anywhere
+        if wider_than(word.rstrip(), size, room_in):  # break at , - / first, then anywhere
             pieces = [p for p in re.split(r"(?<=[,/-])", word) if p]
         for piece in pieces:
             trial = current + piece
-            if current and text_width_in(trial.rstrip(), size) > room_in:
+            if current and wider_than(trial.rstrip(), size, room_in):
                 lines.append(current.rstrip())
                 current = ""
                 trial = piece
-            while text_width_in(trial.rstrip(), size) > room_in and len(trial) > 1:
+            while wider_than(trial.rstrip(), size, room_in) and len(trial) > 1:
                 cut = len(trial) - 1
-                while cut > 1 and text_width_in(trial[:cut], size) > room_in:
+                while cut > 1 and wider_than(trial[:cut], size, room_in):
                     cut -= 1
                 lines.append(trial[:cut])
                 trial = trial[cut:]
@@ -196,6 +207,59 @@ def wrap_to_width(text: str, size: float, room_in: float) -> list[str]:
     if current.strip():
         lines.append(current.rstrip())
     return lines
+
+
+# How far a sum of glyph advances can be from the measured width of a line of DejaVu Sans: the
+# ink of the first and last glyph and the kerning between pairs move it by a fraction of an em
+# per line, far inside these margins. Only a line this close to the room is measured.
+ESTIMATE_SLACK = 0.1  # of the estimate
+ESTIMATE_EMS = 0.5  # and half an em
+
+
+def wider_than(text: str, size: float, room_in: float) -> bool:
+    """Whether ``text`` at ``size`` points is wider than ``room_in``: decided from the glyphs'
+    advances when that is clear by a wide margin, else measured (:func:`text_width_in`), so the
+    answer is always the measured one while most of the layout's many trial lines cost a sum."""
+    estimate = advance_width_in(text, size)
+    margin = estimate * ESTIMATE_SLACK + ESTIMATE_EMS * size / _POINTS
+    if estimate + margin <= room_in:
+        return False
+    if estimate - margin > room_in:
+        return True
+    return text_width_in(text, size) > room_in
+
+
+def advance_width_in(text: str, size: float) -> float:
+    """The sum of the glyphs' advances in DejaVu Sans at ``size`` points, in inches."""
+    return sum(_advance_pt(char) for char in text) * size / _ADVANCE_PT / _POINTS
+
+
+_ADVANCE_PT = 100.0  # advances are read at this size; without hinting they scale linearly
+
+
+@cache
+def _advance_pt(char: str) -> float:
+    font = _dejavu()
+    font.set_size(_ADVANCE_PT, _POINTS)
+    glyph = font.load_char(ord(char), flags=_no_hinting())
+    return float(glyph.linearHoriAdvance) / 65536.0
+
+
+def _no_hinting() -> Any:
+    try:
+        from matplotlib.ft2font import LoadFlags  # matplotlib 3.10 and later
+    except ImportError:  # pragma: no cover - older matplotlib
+        from matplotlib import ft2font
+
+        return getattr(ft2font, "LOAD_NO_HINTING")  # noqa: B009 (not in newer stubs)
+    return LoadFlags.NO_HINTING
+
+
+@cache
+def _dejavu() -> Any:
+    from matplotlib.font_manager import FontProperties, findfont, get_font
+
+    return get_font(findfont(FontProperties(family="DejaVu Sans")))
 
 
 def _line2d(xs: list[float], ys: list[float], colour: str, lw: float) -> Any:
@@ -437,7 +501,7 @@ def _whole_panel(panel: Panel, loads: Loads) -> list[tuple[str, str, str]]:
     """(figure, value with its unit, key) for the whole panel."""
     figures = [
         ("Total load", f"{loads.total_va:,.0f} VA", "total"),
-        ("Spread (heaviest − lightest line)", f"{loads.spread_va:,.0f} VA", "spread"),
+        ("Spread (heaviest - lightest line)", f"{loads.spread_va:,.0f} VA", "spread"),
         ("Imbalance (NEMA MG 1 definition)", f"{loads.imbalance_pct:.1f} %", "imbalance"),
     ]
     if loads.unbalance_factor_pct is not None:
@@ -539,10 +603,22 @@ def _cautions(page: _Page) -> None:
     page.paragraph(CAUTION)
 
 
+BULLET_IN = 0.14  # a caution's text starts this far right of its bullet
+
+
 def _full_cautions(page: _Page, cautions: Sequence[str] = CAUTIONS) -> None:
+    """The cautions as a bulleted list, each wrapped under its own first word. The bullet is
+    drawn, not typed: a character outside Latin-1 makes the PDF embed the font once more, which
+    costs a tenth of a second or more to write."""
+    from matplotlib.lines import Line2D
+
     page.heading("Before any work at the panel", size=11)
+    size = 8.0
     for note in cautions:
-        page.paragraph(f"• {note}", size=8)
+        x, y = page._xy(MARGIN_IN + 0.05, page.y_in + size / _POINTS * 0.5)
+        dot = Line2D([x], [y], marker="o", markersize=size * 0.3, color="black", linestyle="")
+        page.fig.add_artist(dot)
+        page.paragraph(note, size=size, indent_in=BULLET_IN)
         page.y_in += 0.02
 
 
@@ -1108,7 +1184,7 @@ def _wrap_cell(text: str, width_in: float, size: float) -> list[str]:
     wider than the column keeps a line of its own."""
     lines: list[str] = []
     for word in text.split(" "):
-        if lines and text_width_in(f"{lines[-1]} {word}", size) * 1.03 <= width_in:
+        if lines and not wider_than(f"{lines[-1]} {word}", size, width_in / 1.03):
             lines[-1] = f"{lines[-1]} {word}"
         else:
             lines.append(word)
