@@ -132,8 +132,12 @@ class _Page:
     ) -> None:
         step = size / _POINTS * 1.55
         x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
-        cells = [
-            wrap_to_width(title, size * 1.05, w - 0.1) or [""]  # bold is a little wider
+        cells = [  # a line break in a title is kept; bold is a little wider
+            [
+                line
+                for part in title.split("\n")
+                for line in (wrap_to_width(part, size * 1.05, w - 0.1) or [""])
+            ]
             for title, w in zip(header, widths_in, strict=False)
         ]
         lines = max((len(c) for c in cells), default=1)
@@ -288,6 +292,11 @@ def _amps(value: float | None) -> str:
     return "" if value is None else f"{value:,.1f}"
 
 
+def _signed_pct(value: float) -> str:
+    """``+3.1 %``, ``-2.0 %``; a deviation that rounds to zero is ``+0.0 %``, never ``-0.0 %``."""
+    return f"{round(value, 1) + 0.0:+.1f} %"
+
+
 def _fmt(value: Any) -> str:
     if value is None:
         return ""
@@ -439,8 +448,10 @@ def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: Balance
     additions and after when there are new circuits), and the neutral's: one row a line."""
     shown = states(result)
     header = ["Line"]
+    # three states' titles do not fit beside each other: each unit on a line of its own
+    unit = "\n" if len(shown) > 2 else " "
     for state in shown:
-        header += [f"{state.title} (VA)", f"{state.title} (A)"]
+        header += [f"{state.title}{unit}(VA)", f"{state.title}{unit}(A)"]
     rows: list[list[Any]] = []
     for line in panel.lines:
         row: list[Any] = [line]
@@ -452,8 +463,10 @@ def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: Balance
         for state in shown:
             neutral += [None, _amps(state.loads.neutral_amps)]
         rows.append(neutral)
-    column = 1.15 if len(shown) == 2 else 1.05
-    widths = [0.8, *[column] * (2 * len(shown))]
+    # three states take the page's width, so neighbouring titles keep apart
+    usable = page.width_in - 2 * MARGIN_IN
+    column = 1.15 if len(shown) == 2 else (usable - 0.7) / (2 * len(shown))
+    widths = [0.8 if len(shown) == 2 else 0.7, *[column] * (2 * len(shown))]
     page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
     if result.new_circuits:  # say what each state holds, so none is read as another
         for state in shown:
@@ -470,7 +483,7 @@ def _line_table(page: _Page, panel: Panel, loads: Loads) -> None:
             line,
             _va(loads.phase_va[line]),
             _amps(loads.line_amps[line]),
-            f"{(loads.phase_va[line] - average) / average * 100 if average else 0.0:+.1f} %",
+            _signed_pct((loads.phase_va[line] - average) / average * 100 if average else 0.0),
         ]
         for line in panel.lines
     ]
@@ -679,7 +692,11 @@ def _directory_pages(
         "Description",
     ]
     width = pages[0].width_in - 2 * MARGIN_IN
-    fixed = [0.58, 0.5, 0.48, 0.4, 0.48, 0.5, 0.58]
+    # the breaker columns as wide as their widest rating ("3P 100 A" on one line)
+    breaker_in = max(
+        [0.58, *(text_width_in(str(r[i]), 8.0) + 0.14 for r in rows for i in (1, 7) if r[i])]
+    )
+    fixed = [breaker_in, 0.5, 0.48, 0.4, 0.48, 0.5, breaker_in]
     description_in = (width - sum(fixed)) / 2
     widths = [description_in, *fixed[:3], fixed[3], *fixed[4:], description_in]
     # The directory must stay legible (NEC 408.4): a smaller type before any description is cut.

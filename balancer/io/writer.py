@@ -243,6 +243,23 @@ def _shown_width(cell: Any) -> float:
     return len(text) * bold
 
 
+def pad_text(ws: Worksheet) -> None:
+    """Text right after a number is set in by one indent: the number is flush right in its
+    column, so without it the two read as one ("1,080Reception receptacles")."""
+    for row in ws.iter_rows(min_col=2):
+        for cell in row:
+            if not isinstance(cell.value, str) or cell.fill == _HEAD_FILL:
+                continue
+            align = cell.alignment
+            if align.wrap_text or align.horizontal not in (None, "general", "left"):
+                continue
+            left = ws.cell(row=cell.row, column=cell.column - 1).value
+            if isinstance(left, (int, float)) and not isinstance(left, bool):
+                cell.alignment = Alignment(
+                    horizontal=align.horizontal, vertical=align.vertical, indent=1
+                )
+
+
 def fit_columns(ws: Worksheet) -> None:
     """Widen each column to its widest cell (a header to its longest word, since headers
     wrap) so no text runs into the next column; wrapped and merged cells, and a sheet's
@@ -273,7 +290,7 @@ def fit_columns(ws: Worksheet) -> None:
                 else:
                     continue
             else:
-                width = _shown_width(cell) + 2
+                width = _shown_width(cell) + 2 + 2 * (cell.alignment.indent or 0)
             need[cell.column] = max(need.get(cell.column, 0.0), min(width, WIDTH_MAX))
     for column, width in need.items():
         dimension = ws.column_dimensions[get_column_letter(column)]
@@ -817,11 +834,16 @@ def write_circuit_table(
                 lines = math.ceil(len(value) / (NOTE_WRAP_CHARS - 4))
                 height = ws.row_dimensions[row].height or 15
                 ws.row_dimensions[row].height = max(height, 15 * lines + 2)
+                for other in range(1, len(columns) + len(extra_headers) + 1):
+                    cell = ws.cell(row=row, column=other)
+                    if not cell.alignment.wrap_text:  # the row reads from its top line
+                        cell.alignment = Alignment(vertical="top")
         if circuit.id in shaded:
             for col in range(1, len(columns) + len(extra_headers) + 1):
                 ws.cell(row=row, column=col).fill = _MOVED_FILL
     width = {"Description": 32, "Notes": 32}
     _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
+    pad_text(ws)
     return row
 
 
@@ -992,6 +1014,7 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
                 ws.row_dimensions[r].height = max(height, 15 * lines + 2)
             widths[c - 1] = max(widths[c - 1], min(COLUMN_CHARS_MAX, len(str(value)) + 2))
     _widths(ws, widths)
+    pad_text(ws)
     print_setup(ws, landscape=True, title_rows=None)
 
 
@@ -1077,6 +1100,7 @@ def write_workbook(
             sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
     for sheet in wb.worksheets:
         running_header(sheet, result.after_panel)
+        pad_text(sheet)
         fit_columns(sheet)
     wb.properties.title = f"{result.after_panel.name} revised schedule"
     wb.properties.creator = "balancer"
