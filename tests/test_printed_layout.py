@@ -103,3 +103,23 @@ def test_a_table_too_wide_for_the_terminal_goes_on_below_it() -> None:
         ends = [line for line in second.splitlines() if line.startswith(f"P{k} ")]
         assert ends
         assert ends[0].endswith(f"{k}.5")
+
+
+def test_a_column_of_figures_keeps_one_decimal_throughout() -> None:
+    from openpyxl import Workbook
+
+    from balancer.io.writer import write_rows_sheet
+
+    rows = [
+        ["Expected after the work", "Current (A, true RMS)"],
+        ["Line A", 113.4],
+        ["Line B", 138.0],  # a whole number among tenths: shown 138.0, not 138
+        [],
+        ["Spaces", 42.0],  # another run, all whole: no decimal
+    ]
+    ws = Workbook().active
+    assert ws is not None
+    write_rows_sheet(ws, "Work order", rows)
+    assert ws["B2"].number_format == "#,##0.0"
+    assert ws["B3"].number_format == "#,##0.0"
+    assert ws["B5"].number_format == "#,##0"

@@ -966,10 +966,38 @@ LONG_TEXT_CHARS = 40
 COLUMN_CHARS_MAX = 40
 
 
+def tenths_columns(rows: Sequence[Sequence[Any]]) -> list[set[int]]:
+    """For each row, the columns whose figures show one decimal: those where some row of the
+    same run of data rows has a fraction, so a column reads "113.4 … 138.0", not "… 138"."""
+    out: list[set[int]] = []
+    run: list[int] = []
+
+    def close() -> None:
+        columns = {
+            c
+            for i in run
+            for c, v in enumerate(rows[i])
+            if isinstance(v, float) and not v.is_integer()
+        }
+        for i in run:
+            out[i] = columns
+        run.clear()
+
+    for index, values in enumerate(rows):
+        out.append(set())
+        if row_role(values) == "data":
+            run.append(index)
+        else:
+            close()
+    close()
+    return out
+
+
 def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
     ws.title = title[:31]
     span = max([len(v) for v in rows if row_role(v) == "header"] + [4])
     widths: list[float] = [10.0] * span
+    decimals = tenths_columns(rows)
     for r, values in enumerate(rows, start=1):
         role = row_role(values)
         if role == "header":
@@ -992,7 +1020,7 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
         for c, value in enumerate(values, start=1):
             cell = ws.cell(row=r, column=c, value=value)
             if isinstance(value, float):
-                cell.number_format = "#,##0.0" if tenths else VA
+                cell.number_format = "#,##0.0" if tenths or c - 1 in decimals[r - 1] else VA
             elif isinstance(value, int) and not isinstance(value, bool):
                 cell.number_format = VA
             if c == 1 and isinstance(value, str):
