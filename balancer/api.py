@@ -25,7 +25,7 @@ from balancer.domain.result import BalanceOptions, BalanceResult, Objective
 from balancer.errors import BalancerError, OutputError, Problem, ScheduleError
 from balancer.field.basis import Basis
 from balancer.field.run import FieldRun
-from balancer.io.files import same_file
+from balancer.io.files import check_writable, same_file
 from balancer.io.pdf import Paper
 from balancer.io.reader import PanelOverrides, read_schedule
 from balancer.physics.analysis import Loads, analyze
@@ -48,6 +48,7 @@ __all__ = [
     "default_output",
     "lock_circuits",
     "refuse_inputs",
+    "refuse_outputs",
     "run_balance",
     "run_building",
     "run_check",
@@ -300,6 +301,15 @@ def refuse_inputs(outputs: Sequence[Path | None], inputs: Sequence[Path | str | 
                 )
 
 
+def refuse_outputs(outputs: Sequence[Path | None], inputs: Sequence[Path | str | None]) -> None:
+    """Raise OutputError, before any reading or solving, when an output is one of the inputs
+    or cannot be written where it is asked for (no such folder, not a folder, no permission)."""
+    refuse_inputs(outputs, inputs)
+    for output in outputs:
+        if output is not None:
+            check_writable(output)
+
+
 def _demand(panel: Panel, options: DemandOptions | None) -> DemandResult | None:
     if options is None:
         return None
@@ -345,6 +355,9 @@ def run_building(
 
     if demand is not None and not isinstance(demand.rules, RuleSet):
         check_choices(demand.rules, demand.occupancy)
+    for output in outputs:  # an output that cannot be written fails before the long work
+        if output is not None:
+            check_writable(output)
     building = read_building(index)
     sources = {Path(p.source).resolve() for p in building.panels if p.source}
     sources.add(index_file(index).resolve())

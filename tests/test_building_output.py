@@ -164,7 +164,7 @@ def test_revised_demo_building_reads_back_with_the_balanced_figures(tmp_path: Pa
             circuit = result.after.panel(name).circuit(circuit_id)
             assert spaces[circuit.description] == circuit.spaces
     # the high-leg panel's sheet says which line is the high leg
-    notes = [str(r[0]) for r in load_workbook(out)["W1"].iter_rows(max_row=8, values_only=True)]
+    notes = [str(r[0]) for r in load_workbook(out)["W1"].iter_rows(max_row=25, values_only=True)]
     assert any(n.startswith("High leg: line B, 208 V to neutral") for n in notes)
     # shaded rows are the breakers that move
     sheet = load_workbook(out)["MDP"]

@@ -117,3 +117,22 @@ def test_spare_capacity_against_what_limits_the_panel(
     header = tables["Panels"][0]
     assert header[:5] == ["Panel", "System", "Fed from", "Connected kVA", "Demand kVA"]
     assert len(tables["Panels"]) == 1 + len(building.panels)
+
+
+def test_demo_panels_carry_their_title_blocks_to_the_printout(
+    balanced: tuple[api.BuildingReport, Path, Path],
+) -> None:
+    """Every demo panel's schedule has a title block (demo data) and its page of the printout
+    shows it, with the project, date and revision at the head of the page."""
+    report, _, pdf = balanced
+    pages = _pdf_text(pdf)
+    for panel in report.building.panels:
+        header = panel.header
+        assert all((header.location, header.fed_from, header.feeder, header.enclosure))
+        assert header.sccr_ka is not None
+        assert all((header.project, header.date, header.revision))
+        page = next(p for p in pages if f"Circuit directory, panel {panel.name}" in p)
+        for shown in (header.location, header.fed_from, f"{header.sccr_ka:g} kA"):
+            assert shown in page, (panel.name, shown)
+        assert f"Project: {header.project}" in page
+        assert f"Revision: {header.revision}" in page

@@ -6,6 +6,8 @@ from __future__ import annotations
 
 import dataclasses
 import datetime
+import re
+import zipfile
 from pathlib import Path
 
 import pytest
@@ -122,6 +124,27 @@ def test_revised_workbook_reads_back_with_title_block_and_design_loads(tmp_path:
     assert "Revision: 4, balanced 2026-12-02" in header.right.text
 
 
+def test_page_header_line_breaks_are_written_as_line_breaks(tmp_path: Path) -> None:
+    """Two lines a side in every sheet's page header, the break written as a newline in the
+    file: openpyxl's own escape (_x000a_) is printed as it stands by LibreOffice."""
+    source = write_schedule(tmp_path / "p.xlsx", ROWS, panel=TITLE_BLOCK)
+    out = write_workbook(balance(read_schedule(source)), tmp_path / "out.xlsx")
+    with zipfile.ZipFile(out) as book:
+        sheets = [n for n in book.namelist() if n.startswith("xl/worksheets/sheet")]
+        assert len(sheets) >= 5
+        for name in sheets:
+            xml = book.read(name).decode("utf-8")
+            header = re.search(r"<oddHeader>(.*?)</oddHeader>", xml, re.DOTALL)
+            assert header is not None, name
+            assert "_x00" not in xml, name
+            assert header.group(1).count("\n") == 2, name  # one break on each side
+    for ws in load_workbook(out).worksheets:
+        left, right = ws.oddHeader.left.text, ws.oddHeader.right.text
+        lines = [line.strip() for line in left.split("\n")]
+        assert lines == ["Project: Demo job && sons", "Panel LP-9: 208Y/120 V, 3-phase 4-wire"]
+        assert right.split("\n")[0].startswith("Date: ")
+
+
 def test_pdf_shows_the_title_block_and_cuts_nothing(tmp_path: Path) -> None:
     panel = read_schedule(write_schedule(tmp_path / "p.xlsx", ROWS, panel=TITLE_BLOCK))
     result = balance(panel)
@@ -167,3 +190,53 @@ def test_crowded_summary_keeps_the_caution_and_moves_the_chart(tmp_path: Path) -
     assert "authority having jurisdiction" in first
     assert "Load per line before and after balancing (VA)" in second
     assert "(continued)" in second
+
+
+def test_terminal_shows_the_title_block_under_the_heading(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """check and balance print the title block as a compact block under the panel's heading,
+    only the fields given, within 100 columns."""
+    from balancer.cli.main import main
+
+    source = write_schedule(tmp_path / "p.xlsx", ROWS, panel=TITLE_BLOCK)
+    for argv in (
+        ["check", str(source), "--no-color"],
+        ["balance", str(source), "-o", str(tmp_path / "o.xlsx"), "--no-tradeoff", "--no-color"],
+    ):
+        assert main(argv) == 0
+        lines = capsys.readouterr().out.splitlines()
+        assert lines[0].startswith("Panel LP-9 | 208Y/120 V")
+        block = lines[1 : next(i for i, line in enumerate(lines) if not line.strip())]
+        if argv[0] == "check":
+            block = block[:-1]  # the "read from" line
+        assert 1 <= len(block) <= 3, block
+        text = " | ".join(line.strip() for line in block)
+        for shown in (
+            "Location: Electrical room 2.04",
+            "fed from MDP, circuit 9",
+            "feeder 4 #1/0 AWG Cu + #6 AWG Cu ground",
+            "Surface, NEMA 3R",
+            "SCCR 22 kA",
+            "neutral bus 200 %",
+            "ground bus yes, with isolated ground bar",
+            "Project: Demo job & sons",
+            "dated 2026-11-20",
+            "revision 4",
+        ):
+            assert shown in text, shown
+        assert all(len(line) <= 100 for line in lines)
+
+
+def test_terminal_leaves_out_what_the_schedule_does_not_give(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    from balancer.cli.main import main
+
+    panel = {"Name": "LP-9", "System": "208Y/120", "Spaces": 24, "Project": "Demo job"}
+    source = write_schedule(tmp_path / "p.xlsx", ROWS, panel=panel)
+    assert main(["check", str(source), "--no-color"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[1] == "  Project: Demo job"
+    assert lines[2].startswith("  read from ")
+    assert "not given" not in "\n".join(lines[:3])

@@ -6,6 +6,7 @@ carry the same running header."""
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -58,6 +59,7 @@ def test_pdf_pages_carry_the_title_block(
         if sample.stem.startswith("clinic"):
             assert BASIS in text, f"page {number} does not state the load basis"
     _no_text_runs_over(book)
+    _no_solver_words(pages, book)
     # the printed workbook: every sheet's page header carries the same
     for ws in load_workbook(book).worksheets:
         parts = (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right)
@@ -81,6 +83,21 @@ def test_samples_carry_their_title_blocks() -> None:
         assert header.sccr_ka is not None, sample.name
         assert header.enclosure.startswith("NEMA "), sample.name
         assert header.mounting in ("surface", "flush"), sample.name
+
+
+SOLVER_WORDS = re.compile(r"\b(bounds?|gap|tolerance|polygon|relaxation|incumbent)\b", re.I)
+
+
+def _no_solver_words(pages: list[str], book: Path) -> None:
+    """What a designer signs speaks plainly: no solver terms on any page or sheet (the exact
+    figures are in --verbose and the JSON)."""
+    for number, text in enumerate(pages, start=1):
+        assert not SOLVER_WORDS.search(text), f"page {number}: {SOLVER_WORDS.search(text)}"
+    for ws in load_workbook(book).worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if isinstance(cell.value, str) and SOLVER_WORDS.search(cell.value):
+                    raise AssertionError(f"{ws.title}!{cell.coordinate}: {cell.value!r}")
 
 
 def _no_text_runs_over(book: Path) -> None:

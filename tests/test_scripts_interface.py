@@ -184,6 +184,26 @@ def test_error_json_matches_its_schema(argv: list[str], tmp_path: Path) -> None:
     assert data["exit_status"] == 2
 
 
+def test_json_panel_carries_the_title_block() -> None:
+    """The schedule's title block in the ``panel`` object (sample values: demo data); null
+    where the schedule says nothing (the bare CSV)."""
+    shop = _json(["check", "--json", str(SAMPLES / "machine-shop-240-120-high-leg.xlsx")])
+    block = shop["panel"]["title_block"]
+    assert block["location"] == "Machine shop, north wall"
+    assert block["fed_from"] == "Utility service, 240/120 V delta bank"
+    assert block["sccr_ka"] == 22.0
+    assert block["neutral_pct"] == 100.0
+    assert block["mounting"] == "surface"
+    assert block["isolated_ground"] is False
+    assert (block["project"], block["date"], block["revision"]) == (
+        "Old Mill machine shop survey (demo)",
+        "2026-11-02",
+        "0",
+    )
+    bare = _json(["check", "--json", str(SAMPLES / "salon-208y120.csv")])
+    assert set(bare["panel"]["title_block"].values()) == {None}
+
+
 def test_schemas_refuse_what_they_should() -> None:
     """The schemas are strict: a missing key, a stray key and a wrong type each fail."""
     data = _json(["check", "--json", str(SAMPLES / "salon-208y120.csv")])
@@ -194,6 +214,10 @@ def test_schemas_refuse_what_they_should() -> None:
         lambda d: d["loads"].__setitem__("spread_va", "1,250"),
         lambda d: d["loads"]["phase_va"].__setitem__("N", 1.0),
         lambda d: d.__setitem__("extra", True),
+        lambda d: d["panel"].pop("title_block"),
+        lambda d: d["panel"]["title_block"].pop("project"),
+        lambda d: d["panel"]["title_block"].__setitem__("sccr_ka", "22 kA"),
+        lambda d: d["panel"]["title_block"].__setitem__("colour", "grey"),
     ):
         broken = json.loads(json.dumps(data))
         change(broken)

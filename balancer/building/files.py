@@ -392,15 +392,8 @@ def write_building_sheets(
         feed = building.feed_of(panel.name)
         if feed is not None:
             ws.append([f"Fed from {building.feeder_text(feed, was=was)}"])
-        leg = panel.system.high_leg
-        if leg:
-            to_neutral_v = abs(panel.system.voltage_phasor(leg))
-            ws.append(
-                [
-                    f"High leg: line {leg}, {to_neutral_v:.0f} V to neutral; no line-to-neutral "
-                    "loads on it; marked orange or by other effective means (NEC 110.15)."
-                ]
-            )
+        if panel.system.high_leg:
+            ws.append([panel.system.high_leg_note()])
         marked = shaded.get(panel.name, frozenset())
         if marked:
             ws.append(["Shaded rows: breakers that move (see the Work order sheet)."])

@@ -197,7 +197,7 @@ def summary_lines(
         )
         out.append(
             f"{proven} of {len(result.outcomes)} panels proven best on every goal, "
-            f"{goal_proven} on their first goal within its tolerance; "
+            f"{goal_proven} on their first goal; "
             f"{moves} breaker moves, {relands} feeders re-landed"
         )
         for name, outcome in result.outcomes.items():
@@ -393,7 +393,13 @@ def _root_of(building: Building, name: str) -> str:
     return name
 
 
+TABLE_WIDTH = 100  # the terminal's columns (balancer.report.text.WIDTH)
+
+
 def _table(rows: list[dict[str, object]], columns: Sequence[tuple[str, str]]) -> list[str]:
+    """Rows as aligned text columns within :data:`TABLE_WIDTH`; a table too wide goes on in a
+    second one under it, which repeats the first column (the panel) so each row reads alone."""
+
     def text(value: object) -> str:
         if value is None:
             return "-"
@@ -403,6 +409,12 @@ def _table(rows: list[dict[str, object]], columns: Sequence[tuple[str, str]]) ->
 
     cells = [[title for _, title in columns]] + [[text(r.get(k)) for k, _ in columns] for r in rows]
     widths = [max(len(row[i]) for row in cells) for i in range(len(columns))]
+    used = widths[0]
+    for count in range(1, len(columns)):
+        used += 2 + widths[count]
+        if used > TABLE_WIDTH:
+            first = [columns[0], *columns[count:]]
+            return [*_table(rows, columns[:count]), "", *_table(rows, first)]
     return [
         "  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip() for row in cells
     ]

@@ -7,22 +7,13 @@ import argparse
 import json
 import sys
 from pathlib import Path
-from typing import TextIO
+from typing import TYPE_CHECKING, TextIO
 
-from balancer.api import FieldChoices, refuse_inputs
-from balancer.batch import (
-    SUMMARY_NAME,
-    Mode,
-    exit_status,
-    make_tasks,
-    run_batch,
-    summary_text,
-    write_summary,
-)
 from balancer.cli import options
-from balancer.domain.result import BalanceOptions
-from balancer.errors import Problem, ScheduleError
-from balancer.report.json import batch_json
+from balancer.errors import OutputError, Problem, ScheduleError
+
+if TYPE_CHECKING:
+    from balancer.batch import Mode
 
 
 class Progress:
@@ -54,6 +45,19 @@ def wanted(args: argparse.Namespace) -> bool:
 
 def run(args: argparse.Namespace, mode: Mode) -> int:
     """The batch over every schedule named: run, print the summary, write the workbook."""
+    # loaded here, not at start-up: a single schedule (the usual run) needs none of it
+    from balancer.api import FieldChoices, refuse_outputs
+    from balancer.batch import (
+        SUMMARY_NAME,
+        exit_status,
+        make_tasks,
+        run_batch,
+        summary_text,
+        write_summary,
+    )
+    from balancer.domain.result import BalanceOptions
+    from balancer.report.json import batch_json
+
     if args.jobs is not None and args.jobs < 1:
         raise ScheduleError(Problem("--jobs", f"{args.jobs} must be 1 or more"))
     options.over_time(args, batch=True)  # refused with a reason: a logger is one panel's
@@ -67,7 +71,11 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
         balance_options, choices = BalanceOptions(), FieldChoices(basis=args.basis)
     demand = options.demand(args)
     if output_dir is not None:
-        output_dir.mkdir(parents=True, exist_ok=True)
+        try:
+            output_dir.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            reason = (exc.strerror or str(exc)).lower()
+            raise OutputError(f"{output_dir}: cannot make the output folder: {reason}") from exc
     tasks = make_tasks(
         paths, mode, balance_options, options.overrides(args), output_dir, demand, choices
     )
@@ -79,7 +87,9 @@ def run(args: argparse.Namespace, mode: Mode) -> int:
     summary = args.summary
     if summary is None and mode == "balance":
         summary = Path.cwd() / SUMMARY_NAME
-    refuse_inputs([summary], [t.path for t in tasks])
+    # the summary, and the one folder every revised workbook goes to, checked before the runs
+    first_output = tasks[0].output if output_dir is not None else None
+    refuse_outputs([summary, first_output], [t.path for t in tasks])
     rows = run_batch(tasks, args.jobs, Progress(len(tasks)).step)
     written = write_summary(summary, rows, mode) if summary is not None else None
     if args.json:

@@ -9,15 +9,7 @@ import os
 import sys
 from pathlib import Path
 
-from balancer import api
-from balancer.building.files import index_file
-from balancer.building.report import building_text
 from balancer.cli import options
-from balancer.cli.progress import progress, wanted
-from balancer.code.demand import DemandOptions
-from balancer.report.json import building_json
-from balancer.report.text import WIDTH, wrap
-from balancer.report.textbars import use_color
 
 
 def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -> None:
@@ -67,6 +59,16 @@ def add_command(commands: argparse._SubParsersAction[argparse.ArgumentParser]) -
 
 def run_command(args: argparse.Namespace) -> int:
     """``balancer building``: returns the exit status (0 done; errors raise)."""
+    # loaded here, not at start-up: the other commands need none of the building's modules
+    from balancer import api
+    from balancer.building.files import index_file
+    from balancer.building.report import building_text
+    from balancer.cli.progress import progress, wanted
+    from balancer.code.demand import DemandOptions
+    from balancer.report.json import building_json
+    from balancer.report.text import WIDTH, wrap
+    from balancer.report.textbars import use_color
+
     balance_options = options.engine(args) if args.balance else None
     index = index_file(args.index)
     workbook = args.output

@@ -37,6 +37,8 @@ def _bars(args: argparse.Namespace, before: Loads, after: Loads | None, neutral:
 
 
 def run_check(args: argparse.Namespace) -> int:
+    pdf = options.pdf_path(args, args.schedule, "")
+    api.refuse_outputs([pdf], [args.schedule])  # before reading
     report = api.run_check(
         args.schedule,
         options.overrides(args),
@@ -58,7 +60,6 @@ def run_check(args: argparse.Namespace) -> int:
                 panel, loads, list(report.warnings), bars=bars, sections=sections, color=color
             )
         )
-    pdf = options.pdf_path(args, args.schedule, "")
     if pdf is not None:
         written = api.write_check_pdf(report, pdf, schedule=args.schedule, paper=args.paper)
         print(f"Wrote {written}", file=sys.stderr if args.json else sys.stdout)
@@ -68,7 +69,7 @@ def run_check(args: argparse.Namespace) -> int:
 def run_balance(args: argparse.Namespace) -> int:
     workbook = args.output or api.default_output(args.schedule)
     pdf = options.pdf_path(args, args.schedule, "-balanced")
-    api.refuse_inputs([workbook, pdf], [args.schedule])  # before the long solve
+    api.refuse_outputs([workbook, pdf], [args.schedule])  # before reading and the long solve
     choices = (
         options.balance(args),
         options.overrides(args),

@@ -1534,8 +1534,8 @@ def demand_sheet_rows(result: DemandResult) -> list[list[Any]]:
     rows += [
         ["Required A", round(f.required_a, 1)],
         ["Minimum OCPD A", f.min_ocpd_a],
-        ["Conductor Cu", f.conductor_cu, _column_text(f.conductor_cu_c)],
-        ["Conductor Al", f.conductor_al, _column_text(f.conductor_al_c)],
+        ["Conductor Cu", _size_text(f.conductor_cu, "Cu"), _column_text(f.conductor_cu_c)],
+        ["Conductor Al", _size_text(f.conductor_al, "Al"), _column_text(f.conductor_al_c)],
         ["Neutral A", None if f.neutral_a is None else round(f.neutral_a, 1)],
         ["Spare A", None if f.spare_a is None else round(f.spare_a, 1)],
         ["Spare %", None if f.spare_pct is None else round(f.spare_pct, 1)],

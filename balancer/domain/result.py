@@ -136,6 +136,9 @@ class BalanceResult:
     # 0-move row of the trade-off table), and its figures; None when there is nothing new.
     with_additions_panel: Panel | None = None
     with_additions: Loads | None = None
+    # At most this many breakers could move (a trade-off row, --max-moves): "the best possible"
+    # means the best with that many moves. None when moves were not limited.
+    move_budget: int | None = None
 
     @property
     def gap_va(self) -> float:

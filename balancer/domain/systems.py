@@ -74,6 +74,17 @@ class System:
             f"({to_neutral:.0f} V to neutral)"
         )
 
+    def high_leg_note(self) -> str:
+        """What a schedule says of a high-leg delta's high leg (NEC 110.15 marking, 408.3(E)
+        position): ``High leg: line B, 208 V to neutral; …``; empty on any other system."""
+        if self.high_leg is None:
+            return ""
+        to_neutral = abs(self.voltage_phasor(self.high_leg))
+        return (
+            f"High leg: line {self.high_leg}, {to_neutral:.0f} V to neutral; no line-to-neutral "
+            "loads on it; marked orange or by other effective means (NEC 110.15)."
+        )
+
     def _wires(self) -> int:
         return len(self.lines) + (1 if self.neutral else 0)
 

@@ -183,6 +183,8 @@ def work_order(before: Panel, after: Panel) -> WorkOrder:
         ids = list(dict.fromkeys(critical))
         named = ("circuit " if len(ids) == 1 else "circuits ") + ", ".join(ids)
         cautions = (MUST_STAY_ON_CAUTION.format(circuits=named), *CAUTIONS)
+    if after.system.high_leg:  # the electrician at the panel reads which line it is first
+        cautions = (f"{after.system.label()}. {after.system.high_leg_note()}", *cautions)
     order = WorkOrder(
         panel_name=after.name,
         steps=tuple(steps),

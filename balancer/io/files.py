@@ -54,6 +54,22 @@ def _cannot_write(path: Path, exc: OSError) -> OutputError:
     return OutputError(f"{path}: cannot write the file: {reason}")
 
 
+def check_writable(path: Path | str) -> None:
+    """Raise OutputError now when ``path`` could not be written (a folder in the way, no such
+    folder, no permission): called before the long work, so an output that cannot be written
+    fails in a second, not after the solve. A temporary file is made in the folder and removed,
+    which is what the write itself will need (and holds for root too, unlike a mode check)."""
+    path = Path(path)
+    if path.is_dir():
+        raise OutputError(f"{path}: is a folder; give a file name for the output")
+    try:
+        fd, name = tempfile.mkstemp(prefix=f".{path.stem}-", suffix=".check", dir=path.parent)
+    except OSError as exc:
+        raise _cannot_write(path, exc) from exc
+    os.close(fd)
+    Path(name).unlink(missing_ok=True)
+
+
 def atomic(path: Path, write: Callable[[Path], object]) -> Path:
     path = Path(path)
     if path.is_dir():

@@ -18,7 +18,6 @@ from balancer.domain.panel import Panel
 from balancer.domain.result import BalanceResult
 from balancer.io.files import atomic, refuse_input_path
 from balancer.io.writer import (
-    STATUS_TEXT,
     ExtraSheet,
     header_facts,
     revised_header,
@@ -48,6 +47,18 @@ _RULE = "#9AA5B1"
 _HEAD = "#33475B"
 
 
+@cache
+def _plain_glyphs() -> dict[str, Any]:
+    """One glyph per character (no ligatures) where matplotlib shapes text (3.11 and later): a
+    ligature's glyph goes into a second embedded copy of the font, and each copy costs a tenth
+    of a second or more to subset when the PDF is written. Copied text reads the same."""
+    from matplotlib.text import Text
+
+    if hasattr(Text, "set_fontfeatures"):
+        return {"fontfeatures": ("-liga", "-clig")}
+    return {}  # pragma: no cover - matplotlib before 3.11 draws no ligatures
+
+
 @dataclass
 class _Page:
     """A page being laid out from the top down, in inches."""
@@ -62,7 +73,8 @@ class _Page:
 
     def text(self, x_in: float, y_in: float, text: str, size: float = 9, **kw: Any) -> None:
         # schedule text is shown as given: '$5 or $6' is money, not math for mathtext to parse
-        self.fig.text(*self._xy(x_in, y_in), text, fontsize=size, va="top", parse_math=False, **kw)
+        look = {"fontsize": size, "va": "top", "parse_math": False, **_plain_glyphs(), **kw}
+        self.fig.text(*self._xy(x_in, y_in), text, **look)
 
     def line(
         self, x0_in: float, x1_in: float, y_in: float, colour: str = _RULE, lw: float = 0.6
@@ -121,8 +133,12 @@ class _Page:
     ) -> None:
         step = size / _POINTS * 1.55
         x_positions = [MARGIN_IN + sum(widths_in[:i]) for i in range(len(widths_in))]
-        cells = [
-            wrap_to_width(title, size * 1.05, w - 0.1) or [""]  # bold is a little wider
+        cells = [  # a line break in a title is kept; bold is a little wider
+            [
+                line
+                for part in title.split("\n")
+                for line in (wrap_to_width(part, size * 1.05, w - 0.1) or [""])
+            ]
             for title, w in zip(header, widths_in, strict=False)
         ]
         lines = max((len(c) for c in cells), default=1)
@@ -172,25 +188,23 @@ def wrap_to_width(text: str, size: float, room_in: float) -> list[str]:
     Nothing is dropped."""
     if not text:
         return []
-    if text_width_in(text, size) <= room_in:
+    if not wider_than(text, size, room_in):
         return [text]
-    import re
-
     lines: list[str] = []
     current = ""
     for word in re.findall(r"\S+\s*", text):
         pieces = [word]
-        if text_width_in(word.rstrip(), size) > room_in:  # break at , - / first, then anywhere
+        if wider_than(word.rstrip(), size, room_in):  # break at , - / first, then anywhere
             pieces = [p for p in re.split(r"(?<=[,/-])", word) if p]
         for piece in pieces:
             trial = current + piece
-            if current and text_width_in(trial.rstrip(), size) > room_in:
+            if current and wider_than(trial.rstrip(), size, room_in):
                 lines.append(current.rstrip())
                 current = ""
                 trial = piece
-            while text_width_in(trial.rstrip(), size) > room_in and len(trial) > 1:
+            while wider_than(trial.rstrip(), size, room_in) and len(trial) > 1:
                 cut = len(trial) - 1
-                while cut > 1 and text_width_in(trial[:cut], size) > room_in:
+                while cut > 1 and wider_than(trial[:cut], size, room_in):
                     cut -= 1
                 lines.append(trial[:cut])
                 trial = trial[cut:]
@@ -198,6 +212,59 @@ def wrap_to_width(text: str, size: float, room_in: float) -> list[str]:
     if current.strip():
         lines.append(current.rstrip())
     return lines
+
+
+# How far a sum of glyph advances can be from the measured width of a line of DejaVu Sans: the
+# ink of the first and last glyph and the kerning between pairs move it by a fraction of an em
+# per line, far inside these margins. Only a line this close to the room is measured.
+ESTIMATE_SLACK = 0.1  # of the estimate
+ESTIMATE_EMS = 0.5  # and half an em
+
+
+def wider_than(text: str, size: float, room_in: float) -> bool:
+    """Whether ``text`` at ``size`` points is wider than ``room_in``: decided from the glyphs'
+    advances when that is clear by a wide margin, else measured (:func:`text_width_in`), so the
+    answer is always the measured one while most of the layout's many trial lines cost a sum."""
+    estimate = advance_width_in(text, size)
+    margin = estimate * ESTIMATE_SLACK + ESTIMATE_EMS * size / _POINTS
+    if estimate + margin <= room_in:
+        return False
+    if estimate - margin > room_in:
+        return True
+    return text_width_in(text, size) > room_in
+
+
+def advance_width_in(text: str, size: float) -> float:
+    """The sum of the glyphs' advances in DejaVu Sans at ``size`` points, in inches."""
+    return sum(_advance_pt(char) for char in text) * size / _ADVANCE_PT / _POINTS
+
+
+_ADVANCE_PT = 100.0  # advances are read at this size; without hinting they scale linearly
+
+
+@cache
+def _advance_pt(char: str) -> float:
+    font = _dejavu()
+    font.set_size(_ADVANCE_PT, _POINTS)
+    glyph = font.load_char(ord(char), flags=_no_hinting())
+    return float(glyph.linearHoriAdvance) / 65536.0
+
+
+def _no_hinting() -> Any:
+    try:
+        from matplotlib.ft2font import LoadFlags  # matplotlib 3.10 and later
+    except ImportError:  # pragma: no cover - older matplotlib
+        from matplotlib import ft2font
+
+        return getattr(ft2font, "LOAD_NO_HINTING")  # noqa: B009 (not in newer stubs)
+    return LoadFlags.NO_HINTING
+
+
+@cache
+def _dejavu() -> Any:
+    from matplotlib.font_manager import FontProperties, findfont, get_font
+
+    return get_font(findfont(FontProperties(family="DejaVu Sans")))
 
 
 def _line2d(xs: list[float], ys: list[float], colour: str, lw: float) -> Any:
@@ -224,6 +291,11 @@ def _va(value: float | None) -> str:
 
 def _amps(value: float | None) -> str:
     return "" if value is None else f"{value:,.1f}"
+
+
+def _signed_pct(value: float) -> str:
+    """``+3.1 %``, ``-2.0 %``; a deviation that rounds to zero is ``+0.0 %``, never ``-0.0 %``."""
+    return f"{round(value, 1) + 0.0:+.1f} %"
 
 
 def _fmt(value: Any) -> str:
@@ -377,8 +449,10 @@ def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: Balance
     additions and after when there are new circuits), and the neutral's: one row a line."""
     shown = states(result)
     header = ["Line"]
+    # three states' titles do not fit beside each other: each unit on a line of its own
+    unit = "\n" if len(shown) > 2 else " "
     for state in shown:
-        header += [f"{state.title} (VA)", f"{state.title} (A)"]
+        header += [f"{state.title}{unit}(VA)", f"{state.title}{unit}(A)"]
     rows: list[list[Any]] = []
     for line in panel.lines:
         row: list[Any] = [line]
@@ -390,8 +464,10 @@ def _before_after_table(page: _Page, panel: Panel, loads: Loads, result: Balance
         for state in shown:
             neutral += [None, _amps(state.loads.neutral_amps)]
         rows.append(neutral)
-    column = 1.15 if len(shown) == 2 else 1.05
-    widths = [0.8, *[column] * (2 * len(shown))]
+    # three states take the page's width, so neighbouring titles keep apart
+    usable = page.width_in - 2 * MARGIN_IN
+    column = 1.15 if len(shown) == 2 else (usable - 0.7) / (2 * len(shown))
+    widths = [0.8 if len(shown) == 2 else 0.7, *[column] * (2 * len(shown))]
     page.table(header, rows, widths, align=["left"] + ["right"] * (len(header) - 1))
     if result.new_circuits:  # say what each state holds, so none is read as another
         for state in shown:
@@ -408,7 +484,7 @@ def _line_table(page: _Page, panel: Panel, loads: Loads) -> None:
             line,
             _va(loads.phase_va[line]),
             _amps(loads.line_amps[line]),
-            f"{(loads.phase_va[line] - average) / average * 100 if average else 0.0:+.1f} %",
+            _signed_pct((loads.phase_va[line] - average) / average * 100 if average else 0.0),
         ]
         for line in panel.lines
     ]
@@ -426,13 +502,10 @@ def _panel_figures(
     if result is None:
         figures = [(label, value) for label, value, _ in _whole_panel(panel, loads)]
     if result is not None:
+        from balancer.report.text import proof_sentence
+
         figures += [
-            ("Result", STATUS_TEXT[result.status]),
-            (
-                "Lower bound on spread",
-                f"{result.lower_bound_spread_va:,.0f} VA "
-                f"(gap {result.gap_va:,.0f} VA, tolerance {result.tolerance_va:g} VA)",
-            ),
+            ("Result", proof_sentence(result)),
             ("Breakers to move", str(len(result.moves))),
         ]
     return figures
@@ -442,7 +515,7 @@ def _whole_panel(panel: Panel, loads: Loads) -> list[tuple[str, str, str]]:
     """(figure, value with its unit, key) for the whole panel."""
     figures = [
         ("Total load", f"{loads.total_va:,.0f} VA", "total"),
-        ("Spread (heaviest − lightest line)", f"{loads.spread_va:,.0f} VA", "spread"),
+        ("Spread (heaviest - lightest line)", f"{loads.spread_va:,.0f} VA", "spread"),
         ("Imbalance (NEMA MG 1 definition)", f"{loads.imbalance_pct:.1f} %", "imbalance"),
     ]
     if loads.unbalance_factor_pct is not None:
@@ -474,11 +547,14 @@ def _before_after_figures(page: _Page, panel: Panel, loads: Loads, result: Balan
 
 
 def _figure_lines(page: _Page, figures: list[tuple[str, str]]) -> None:
-    """Label and value pairs, one a line."""
+    """Label and value pairs, one a line; a long value wraps under itself, never past the
+    margin."""
+    room = page.width_in - 2 * MARGIN_IN - 2.8
     for label, value in figures:
         page.text(MARGIN_IN, page.y_in, label, size=9)
-        page.text(MARGIN_IN + 2.8, page.y_in, value, size=9)
-        page.y_in += 0.19
+        for n, part in enumerate(wrap_to_width(value, 9, room) or [""]):
+            page.text(MARGIN_IN + 2.8, page.y_in + n * 0.15, part, size=9)
+        page.y_in += 0.19 + 0.15 * (max(1, len(wrap_to_width(value, 9, room))) - 1)
 
 
 def _bar_chart(
@@ -541,10 +617,22 @@ def _cautions(page: _Page) -> None:
     page.paragraph(CAUTION)
 
 
+BULLET_IN = 0.14  # a caution's text starts this far right of its bullet
+
+
 def _full_cautions(page: _Page, cautions: Sequence[str] = CAUTIONS) -> None:
+    """The cautions as a bulleted list, each wrapped under its own first word. The bullet is
+    drawn, not typed: a character outside Latin-1 makes the PDF embed the font once more, which
+    costs a tenth of a second or more to write."""
+    from matplotlib.lines import Line2D
+
     page.heading("Before any work at the panel", size=11)
+    size = 8.0
     for note in cautions:
-        page.paragraph(f"• {note}", size=8)
+        x, y = page._xy(MARGIN_IN + 0.05, page.y_in + size / _POINTS * 0.5)
+        dot = Line2D([x], [y], marker="o", markersize=size * 0.3, color="black", linestyle="")
+        page.fig.add_artist(dot)
+        page.paragraph(note, size=size, indent_in=BULLET_IN)
         page.y_in += 0.02
 
 
@@ -605,7 +693,11 @@ def _directory_pages(
         "Description",
     ]
     width = pages[0].width_in - 2 * MARGIN_IN
-    fixed = [0.58, 0.5, 0.48, 0.4, 0.48, 0.5, 0.58]
+    # the breaker columns as wide as their widest rating ("3P 100 A" on one line)
+    breaker_in = max(
+        [0.58, *(text_width_in(str(r[i]), 8.0) + 0.14 for r in rows for i in (1, 7) if r[i])]
+    )
+    fixed = [breaker_in, 0.5, 0.48, 0.4, 0.48, 0.5, breaker_in]
     description_in = (width - sum(fixed)) / 2
     widths = [description_in, *fixed[:3], fixed[3], *fixed[4:], description_in]
     # The directory must stay legible (NEC 408.4): a smaller type before any description is cut.
@@ -626,6 +718,8 @@ def _directory_pages(
             "VA is the circuit's share on that row's line. Keep a legible copy at the panel "
             "(NEC 408.4)."
         )
+        if panel.system.high_leg:
+            page.paragraph(panel.system.high_leg_note(), size=8.5)
         page.y_in += 0.05
         page.table(header, chunk, widths, size=size, align=align)
         pages.append(page)
@@ -1119,7 +1213,7 @@ def _wrap_cell(text: str, width_in: float, size: float) -> list[str]:
     wider than the column keeps a line of its own."""
     lines: list[str] = []
     for word in text.split(" "):
-        if lines and text_width_in(f"{lines[-1]} {word}", size) * 1.03 <= width_in:
+        if lines and not wider_than(f"{lines[-1]} {word}", size, width_in / 1.03):
             lines[-1] = f"{lines[-1]} {word}"
         else:
             lines.append(word)

@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING, Any
 from openpyxl import Workbook
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.header_footer import HeaderFooterItem
 from openpyxl.worksheet.worksheet import Worksheet
 
 from balancer.domain.panel import Circuit, Panel, PanelHeader
@@ -39,8 +40,8 @@ ExtraSheet = tuple[str, Sequence[Sequence[Any]]]
 
 
 STATUS_TEXT = {
-    SolveStatus.OPTIMAL: "optimal: proven best within the stated tolerance",
-    SolveStatus.FEASIBLE: "feasible: checked arrangement, not proven best (see gap)",
+    SolveStatus.OPTIMAL: "optimal (proven)",
+    SolveStatus.FEASIBLE: "checked, not proven the best",
     SolveStatus.UNCHANGED: "unchanged: nothing could be improved or moved",
 }
 
@@ -107,6 +108,7 @@ _HEAD_FONT = Font(bold=True, color="FFFFFF")
 _BAND_FILL = PatternFill("solid", fgColor="EEF2F5")
 _MOVED_FILL = PatternFill("solid", fgColor="FFF1C7")
 _LINE_FILL = PatternFill("solid", fgColor="D5DDE4")
+_HIGH_LEG_FILL = PatternFill("solid", fgColor="F6B26B")  # orange, as the high leg is marked
 _TITLE_FONT = Font(bold=True, size=14)
 _SECTION_FONT = Font(bold=True, size=11, color="33475B")
 _THIN = Side(style="thin", color="9AA5B1")
@@ -182,19 +184,44 @@ def print_setup(ws: Worksheet, *, landscape: bool, title_rows: str | None) -> No
 
 
 def _header_text(text: str) -> str:
-    return text.replace("&", "&&")  # '&' starts a header code in a spreadsheet's page header
+    # '&' starts a header code in a spreadsheet's page header; a schedule's own line break
+    # would add a line the header's margin has no room for
+    return " ".join(text.replace("&", "&&").split())
+
+
+class PageHeaderLines(HeaderFooterItem):
+    """A page header or footer whose line breaks reach the file as line breaks. openpyxl writes
+    a line break in header text as the escape ``_x000a_``, which is for cell text only: a
+    spreadsheet program prints it as it stands (LibreOffice does). Excel and LibreOffice both
+    write a header's line break as a plain newline in the XML, so that is what goes out."""
+
+    def to_tree(self, tagname: str) -> Any:
+        element = super().to_tree(tagname)
+        if element.text:
+            element.text = element.text.replace("_x000a_", "\n")
+        return element
 
 
 def running_header(ws: Worksheet, panel: Panel) -> None:
-    """Every printed page's header: the project, the panel and its system (the high leg named
-    on a high-leg delta panel), the date and revision."""
-    project, issue = title_block(panel.header)
-    # one line each: a line break in a page header is not read alike by every spreadsheet
-    ws.oddHeader.left.text = _header_text(project)
-    ws.oddHeader.center.text = _header_text(f"Panel {panel.name}: {panel.system.label()}")
-    ws.oddHeader.right.text = _header_text(issue)
-    for part in (ws.oddHeader.left, ws.oddHeader.center, ws.oddHeader.right):
+    """Every printed page's header, two short lines a side: the project over the panel and its
+    system (the high leg named on a high-leg delta panel) on the left, the date over the
+    revision on the right."""
+    project, _ = title_block(panel.header)
+    header = PageHeaderLines()
+    # the size code is followed by a space that prints: the second line starts with one too
+    header.left.text = "\n ".join(
+        _header_text(line) for line in (project, f"Panel {panel.name}: {panel.system.label()}")
+    )
+    header.right.text = "\n".join(
+        _header_text(line)
+        for line in (
+            f"Date: {panel.header.date or 'not given'}",
+            f"Revision: {panel.header.revision_text()}",
+        )
+    )
+    for part in (header.left, header.right):
         part.size = 7
+    ws.HeaderFooter.oddHeader = header
     ws.page_margins.top = max(ws.page_margins.top, 0.9)
     ws.page_margins.header = 0.3
 
@@ -215,6 +242,23 @@ def _shown_width(cell: Any) -> float:
         text = f"{value:,.{places}f}" + (unit.group(1) if unit else "")
     bold = 1.1 if cell.font is not None and cell.font.b else 1.0
     return len(text) * bold
+
+
+def pad_text(ws: Worksheet) -> None:
+    """Text right after a number is set in by one indent: the number is flush right in its
+    column, so without it the two read as one ("1,080Reception receptacles")."""
+    for row in ws.iter_rows(min_col=2):
+        for cell in row:
+            if not isinstance(cell.value, str) or cell.fill == _HEAD_FILL:
+                continue
+            align = cell.alignment
+            if align.wrap_text or align.horizontal not in (None, "general", "left"):
+                continue
+            left = ws.cell(row=cell.row, column=cell.column - 1).value
+            if isinstance(left, (int, float)) and not isinstance(left, bool):
+                cell.alignment = Alignment(
+                    horizontal=align.horizontal, vertical=align.vertical, indent=1
+                )
 
 
 def fit_columns(ws: Worksheet) -> None:
@@ -247,7 +291,7 @@ def fit_columns(ws: Worksheet) -> None:
                 else:
                     continue
             else:
-                width = _shown_width(cell) + 2
+                width = _shown_width(cell) + 2 + 2 * (cell.alignment.indent or 0)
             need[cell.column] = max(need.get(cell.column, 0.0), min(width, WIDTH_MAX))
     for column, width in need.items():
         dimension = ws.column_dimensions[get_column_letter(column)]
@@ -522,25 +566,27 @@ def _totals_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
 def _result_block(ws: Worksheet, result: BalanceResult, row: int) -> int:
     """How the balancing ended, its notes and what was not placed, titled at ``row``; returns
     the last row."""
+    from balancer.optimize.goals import goal_for
+    from balancer.report.text import plain_notes, proof_sentence
+
     _section(ws, row, "Result")
     facts: list[tuple[str, Any, str | None]] = [
         ("Status", STATUS_TEXT[result.status], None),
-        ("First goal", result.first_goal, None),
-        ("Engine", result.engine, None),
-        ("Lower bound on spread VA", result.lower_bound_spread_va, VA),
-        ("Gap to lower bound VA", result.gap_va, VA),
-        ("Tolerance VA", result.tolerance_va, VA),
+        ("How good", proof_sentence(result), None),
+        ("Balanced for", goal_for(result.first_goal).label.lower(), None),
         ("Moves", len(result.moves), "0"),
+        ("Engine", result.engine, None),
         ("Solve time s", result.solve_seconds, "0.00"),
     ]
     for label, value, fmt in facts:
         row += 1
         _put(ws, row, 1, label)
+        ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
         if isinstance(value, str) and len(value) > 16:
             _long_text(ws, row, 2, value, last_col=6, chars_per_line=60)
         else:
             _put(ws, row, 2, value, fmt)
-    for note in result.notes:
+    for note in plain_notes(list(result.notes), verbose=False):
         row += 1
         _put(ws, row, 1, "Note")
         ws.cell(row=row, column=1).alignment = Alignment(vertical="top")
@@ -583,15 +629,19 @@ def _layout(ws: Worksheet, result: BalanceResult) -> None:
     # Readings replaced some loads (--basis measured or larger): a "Balanced VA" column beside
     # each "Load VA" (the design load) gives the figure the balance was made on.
     k = 1 if any(c.balance_va is not None for c in panel.circuits) else 0
-    ws["A2"] = (
-        f"{panel.system.label()}. Load VA is each circuit's share on that row's line"
-        + (" (schedule VA); Balanced VA the share it was balanced on" if k else "")
-        + ". 'Was' gives the old spaces of a moved breaker."
-    )
     side = ["Trip A", "Poles", "Space"]
     load = ["Load VA", "Balanced VA"][: 1 + k]
     titles = ["Was", "Description", *load, *side, "Line", *side[::-1], *load[::-1], "Description"]
     titles.append("Was")
+    high_leg = panel.system.high_leg_note()
+    note = (
+        f"{panel.system.label()}. Load VA is each circuit's share on that row's line"
+        + (" (schedule VA); Balanced VA the share it was balanced on" if k else "")
+        + ". 'Was' gives the old spaces of a moved breaker."
+        + (f" {high_leg} Its Line cells are orange." if high_leg else "")
+    )
+    # across the table, wrapped: a note wider than the table would shrink the printed page
+    _long_text(ws, 2, 1, note, last_col=len(titles), chars_per_line=150)
     _header(ws, 3, titles)
     before_spaces = {c.id: c.spaces for c in result.before_panel.circuits}
     totals = dict.fromkeys(panel.lines, 0.0)
@@ -654,7 +704,7 @@ def _layout_row(
     centre = ws.cell(row=row, column=line_col)
     centre.alignment = _CENTRE
     centre.font = Font(bold=True)
-    centre.fill = _LINE_FILL
+    centre.fill = _HIGH_LEG_FILL if line == panel.system.high_leg else _LINE_FILL
 
 
 def _line_totals(
@@ -734,9 +784,15 @@ def _changes(ws: Worksheet, result: BalanceResult) -> None:
 
 def _circuits(ws: Worksheet, panel: Panel) -> None:
     ws.title = CIRCUITS_SHEET
-    write_circuit_table(ws, panel, 1)
-    ws.freeze_panes = "C2"
-    print_setup(ws, landscape=True, title_rows="1:1")
+    # a high-leg delta's list says which line is the high leg above its header (the reader
+    # takes the header wherever it is)
+    header_row = 1
+    if panel.system.high_leg:
+        ws.cell(row=1, column=1, value=panel.system.high_leg_note()).font = Font(bold=True)
+        header_row = 2
+    write_circuit_table(ws, panel, header_row)
+    ws.freeze_panes = f"C{header_row + 1}"
+    print_setup(ws, landscape=True, title_rows=f"{header_row}:{header_row}")
 
 
 NOTE_WRAP_CHARS = 30
@@ -779,11 +835,16 @@ def write_circuit_table(
                 lines = math.ceil(len(value) / (NOTE_WRAP_CHARS - 4))
                 height = ws.row_dimensions[row].height or 15
                 ws.row_dimensions[row].height = max(height, 15 * lines + 2)
+                for other in range(1, len(columns) + len(extra_headers) + 1):
+                    cell = ws.cell(row=row, column=other)
+                    if not cell.alignment.wrap_text:  # the row reads from its top line
+                        cell.alignment = Alignment(vertical="top")
         if circuit.id in shaded:
             for col in range(1, len(columns) + len(extra_headers) + 1):
                 ws.cell(row=row, column=col).fill = _MOVED_FILL
     width = {"Description": 32, "Notes": 32}
     _widths(ws, [width.get(name, 10) for name, _, _ in columns] + [14] * len(extra_headers))
+    pad_text(ws)
     return row
 
 
@@ -865,8 +926,9 @@ def _notes(ws: Worksheet) -> None:
         "(the NEMA MG 1 definition, applied to loads).",
         "Currents are phasor sums at the fundamental frequency from the schedule's VA and power "
         "factors; the neutral carries the sum of the 1-pole circuit currents.",
-        "A result is called optimal only when the solver proved it within the tolerance; "
-        "otherwise the gap to the lower bound is stated.",
+        "A result is called optimal (proven) only when no arrangement can beat it by more than "
+        "the margin stated beside it (1 VA of phase spread unless asked otherwise); otherwise "
+        "the Summary says how much better another arrangement might still be.",
         "The 'Circuits' sheet can be read back by balancer; edit it there and run again.",
     ]
     for row, text in enumerate(lines, start=3):
@@ -905,10 +967,38 @@ LONG_TEXT_CHARS = 40
 COLUMN_CHARS_MAX = 40
 
 
+def tenths_columns(rows: Sequence[Sequence[Any]]) -> list[set[int]]:
+    """For each row, the columns whose figures show one decimal: those where some row of the
+    same run of data rows has a fraction, so a column reads "113.4 … 138.0", not "… 138"."""
+    out: list[set[int]] = []
+    run: list[int] = []
+
+    def close() -> None:
+        columns = {
+            c
+            for i in run
+            for c, v in enumerate(rows[i])
+            if isinstance(v, float) and not v.is_integer()
+        }
+        for i in run:
+            out[i] = columns
+        run.clear()
+
+    for index, values in enumerate(rows):
+        out.append(set())
+        if row_role(values) == "data":
+            run.append(index)
+        else:
+            close()
+    close()
+    return out
+
+
 def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -> None:
     ws.title = title[:31]
     span = max([len(v) for v in rows if row_role(v) == "header"] + [4])
     widths: list[float] = [10.0] * span
+    decimals = tenths_columns(rows)
     for r, values in enumerate(rows, start=1):
         role = row_role(values)
         if role == "header":
@@ -931,7 +1021,7 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
         for c, value in enumerate(values, start=1):
             cell = ws.cell(row=r, column=c, value=value)
             if isinstance(value, float):
-                cell.number_format = "#,##0.0" if tenths else VA
+                cell.number_format = "#,##0.0" if tenths or c - 1 in decimals[r - 1] else VA
             elif isinstance(value, int) and not isinstance(value, bool):
                 cell.number_format = VA
             if c == 1 and isinstance(value, str):
@@ -953,6 +1043,7 @@ def write_rows_sheet(ws: Worksheet, title: str, rows: Sequence[Sequence[Any]]) -
                 ws.row_dimensions[r].height = max(height, 15 * lines + 2)
             widths[c - 1] = max(widths[c - 1], min(COLUMN_CHARS_MAX, len(str(value)) + 2))
     _widths(ws, widths)
+    pad_text(ws)
     print_setup(ws, landscape=True, title_rows=None)
 
 
@@ -1042,6 +1133,8 @@ def write_workbook(
             sheet.oddFooter.center.text = LOAD_BASIS_FOOTER
     for sheet in wb.worksheets:
         running_header(sheet, result.after_panel)
+        if sheet.title != "Intervals":  # every interval: plain figures, set widths
+            pad_text(sheet)
         if sheet.title not in ("Intervals", "Load over time"):  # these set their own widths
             fit_columns(sheet)
     wb.properties.title = f"{result.after_panel.name} revised schedule"

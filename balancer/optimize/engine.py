@@ -407,6 +407,7 @@ def _result(
         goal_value=goal_for(first_goal).measure(after.panel, after.loads, options),
         goal_bound=max(first_stage.bound, bounds.get(first_goal, -math.inf)),
         goal_proven=proven[first_goal],
+        move_budget=options.max_moves if layout.count_moves else None,
     )
 
 

@@ -41,10 +41,11 @@ class Option:
     lines: tuple[tuple[Line, ...], ...]
     spans: tuple[tuple[int, ...], ...]
     moves: int
+    # each member's lines in order: worked out once, as the searches ask for it very often
+    pattern: tuple[tuple[Line, ...], ...] = field(init=False, repr=False, compare=False)
 
-    @property
-    def pattern(self) -> tuple[tuple[Line, ...], ...]:
-        return tuple(tuple(sorted(member)) for member in self.lines)
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "pattern", tuple(tuple(sorted(m)) for m in self.lines))
 
 
 @dataclass(frozen=True, slots=True)
@@ -54,15 +55,20 @@ class Unit:
     members: tuple[int, ...]
     group: str
     placements: tuple[Option, ...]
+    _patterns: tuple[Option, ...] = field(init=False, repr=False, compare=False)
 
-    def patterns(self) -> tuple[Option, ...]:
-        """Distinct line assignments, each with the fewest moves among its placements."""
+    def __post_init__(self) -> None:
         best: dict[tuple[tuple[Line, ...], ...], Option] = {}
         for option in self.placements:
             key = option.pattern
             if key not in best or option.moves < best[key].moves:
                 best[key] = Option(key, (), option.moves)
-        return tuple(best.values())
+        object.__setattr__(self, "_patterns", tuple(best.values()))
+
+    def patterns(self) -> tuple[Option, ...]:
+        """Distinct line assignments, each with the fewest moves among its placements (worked
+        out once: every search and model asks for them)."""
+        return self._patterns
 
 
 @dataclass(frozen=True, slots=True)

@@ -19,7 +19,7 @@ from balancer.code.demand import demand_to_dict
 from balancer.report.peak import peak_json
 from balancer.report.safety import CAUTION
 from balancer.report.states import states
-from balancer.report.text import circuits_to_list, clean, panel_to_dict
+from balancer.report.text import circuits_to_list, clean, panel_to_dict, title_block_to_dict
 
 if TYPE_CHECKING:
     from balancer.api import BalanceReport, BuildingReport, CheckReport
@@ -251,6 +251,7 @@ def building_json(report: BuildingReport) -> dict[str, Any]:
         entry: dict[str, Any] = {
             "panel": name,
             "system": panel.system.designation,
+            "title_block": title_block_to_dict(panel.header),
             "fed_from": None
             if feed is None
             else {"panel": feed.source, "circuit": feed.circuit_id},

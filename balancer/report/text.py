@@ -8,7 +8,7 @@ import textwrap
 from pathlib import Path
 from typing import Any
 
-from balancer.domain.panel import Panel
+from balancer.domain.panel import Panel, PanelHeader
 from balancer.optimize.goals import goal_for
 from balancer.physics.analysis import Loads
 from balancer.report.safety import CAUTION
@@ -94,7 +94,64 @@ def panel_to_dict(panel: Panel) -> dict[str, Any]:
         "bus_a": panel.bus_a,
         "main_a": panel.main_a,
         "source": panel.source,
+        "title_block": title_block_to_dict(panel.header),
     }
+
+
+def title_block_to_dict(header: PanelHeader) -> dict[str, Any]:
+    """The schedule's title block, every field present: text as the schedule writes it, null
+    where it says nothing."""
+    return {
+        f.name: (getattr(header, f.name) if getattr(header, f.name) != "" else None)
+        for f in dataclasses.fields(header)
+    }
+
+
+def title_block_lines(header: PanelHeader, width: int = WIDTH) -> list[str]:
+    """The title block, compact, only the fields given: where the panel is and what feeds it,
+    then its enclosure and ratings, then the project, date and revision; each group on a line
+    of its own within ``width`` (a long feeder or location takes a second), a field never
+    split."""
+    ground = f"ground bus {header.ground_bus}" if header.ground_bus else ""
+    if header.isolated_ground is not None:
+        bar = "with isolated ground bar" if header.isolated_ground else "no isolated ground bar"
+        ground = f"{ground}, {bar}" if ground else bar
+    enclosure = ", ".join(part for part in (header.mounting, header.enclosure) if part)
+    groups = [
+        [
+            f"Location: {header.location}" if header.location else "",
+            f"fed from {header.fed_from}" if header.fed_from else "",
+            f"feeder {header.feeder}" if header.feeder else "",
+        ],
+        [
+            enclosure,
+            f"SCCR {header.sccr_ka:,.4g} kA" if header.sccr_ka else "",
+            f"neutral bus {header.neutral_pct:g} %" if header.neutral_pct else "",
+            ground,
+        ],
+        [
+            f"Project: {header.project}" if header.project else "",
+            f"dated {header.date}" if header.date else "",
+            f"revision {header.revision}" if header.revision else "",
+            f"balanced {header.balanced}" if header.balanced else "",
+        ],
+    ]
+    lines: list[str] = []
+    for group in groups:
+        start = len(lines)
+        for piece in (" ".join(p.split()) for p in group if p):
+            if len(lines) > start and len(lines[-1]) + 3 + len(piece) <= width:
+                lines[-1] += f" | {piece}"
+            else:
+                lines.append(f"  {piece}")
+        if len(lines) > start:  # a group reads as a sentence: it starts with a capital
+            lines[start] = "  " + lines[start][2].upper() + lines[start][3:]
+    return lines
+
+
+def heading_lines(panel: Panel) -> list[str]:
+    """The panel's heading (name, system, ratings) and under it its title block."""
+    return [*panel_heading(panel).split("\n"), *title_block_lines(panel.header)]
 
 
 def loads_to_dict(loads: Loads) -> dict[str, Any]:
@@ -202,7 +259,7 @@ def check_text(
 ) -> str:
     """The ``check`` summary: heading, bars, per-line table, then each extra section; the
     schedule's warnings marked (and coloured when ``color``)."""
-    lines = [panel_heading(panel), f"  read from {panel.source} ({len(panel.circuits)} circuits)"]
+    lines = [*heading_lines(panel), f"  read from {panel.source} ({len(panel.circuits)} circuits)"]
     if bars:
         lines += ["", *bars]
     lines += ["", *loads_table(loads, color=color)]
@@ -277,6 +334,50 @@ def proof_text(result: Any) -> str:
     return "not proven: the time limit ended the search before any limit was found"
 
 
+def proof_sentence(result: Any) -> str:
+    """How good the arrangement is, as a designer reads it on a printout or the Summary sheet:
+    how low no arrangement can go, what this one reaches, and whether that is proven. No solver
+    terms; the exact figures are in the JSON and ``--verbose``."""
+    from balancer.domain.result import BalanceOptions, SolveStatus
+
+    if result.status is SolveStatus.UNCHANGED:
+        return "Nothing to rearrange: every circuit keeps its spaces."
+    goal = goal_for(result.first_goal)
+    what = goal.phrase
+    value, floor = result.goal_value, result.goal_bound
+    if result.first_goal == "spread":  # both are proven floors; the higher says more
+        value, floor = result.after.spread_va, max(floor, result.lower_bound_spread_va)
+    # an optimal status proves every key goal, the first among them
+    proven = result.goal_proven or result.status is SolveStatus.OPTIMAL
+    budget = result.move_budget
+    scope = "" if budget is None else f" moving at most {budget} breaker{'s' * (budget != 1)}"
+    this = goal.text(value)
+    floor_known = math.isfinite(floor)
+    shown = 0.5 * 10.0 ** (-goal.digits)
+    if proven and floor_known and value - floor < shown:
+        text = f"Proven the best possible: no arrangement{scope} brings {what} below {this}."
+    elif proven:
+        margin = goal.tolerance(value, BalanceOptions(tolerance_va=result.tolerance_va))
+        text = f"Within {goal.text(margin)} of the best possible (proven)"
+        if floor_known:
+            text += f": no arrangement{scope} brings {what} below {goal.text(floor)}"
+        text += f"; this one has {this}."
+    elif floor_known:
+        text = (
+            f"Not proven the best: no arrangement{scope} brings {what} below "
+            f"{goal.text(floor)}; this one has {this}, so up to "
+            f"{goal.text(max(0.0, value - floor))} might still be gained."
+        )
+    else:
+        text = (
+            f"Not proven the best: this one has {this}; the time limit ended the search "
+            "before it could say how much lower another arrangement could go."
+        )
+    if result.status is SolveStatus.FEASIBLE and result.goal_proven:
+        text += " The later aims (fewest moves, then the neutral current) are not all proven."
+    return text
+
+
 def result_lines(result: Any, verbose: bool = False) -> list[str]:
     """The ``Result:`` line, and with ``verbose`` the solver's own figures."""
     from balancer.domain.result import SolveStatus
@@ -345,7 +446,7 @@ def balance_text(
     proof, moves, new breakers, extra sections, notes, the schedule's warnings (marked, and
     coloured when ``color``), files; within :data:`WIDTH` columns."""
     after = result.after
-    lines = [panel_heading(result.before_panel)]
+    lines = heading_lines(result.before_panel)
     if bars:
         lines += ["", *bars]
     for state in states(result):

@@ -108,6 +108,76 @@ PANELS: dict[str, tuple[str, int, list[list[object]]]] = {
     ),
 }
 
+# Each panel's title block (invented): location, fed from, feeder, mounting, enclosure, SCCR,
+# neutral bus, ground bus. "Fed from" names the source without its circuit number, which the
+# Building sheet gives (and a revised building may change).
+TITLE_BLOCKS: dict[str, tuple[str, str, str, str, str, str, str, str]] = {
+    "MDP": (
+        "Main electrical room 101",
+        "Utility transformer, pad-mounted",
+        "4 sets 4 #500 kcmil Cu + #3/0 AWG Cu ground, 4 in PVC",
+        "surface",
+        "NEMA 1",
+        "65 kA",
+        "100 %",
+        "yes",
+    ),
+    "H1": (
+        "Mechanical room 104",
+        "MDP",
+        "4 #3 AWG Cu + #8 AWG Cu ground, 1-1/4 in EMT",
+        "surface",
+        "NEMA 1",
+        "35 kA",
+        "100 %",
+        "yes",
+    ),
+    "L1": (
+        "Main electrical room 101",
+        "MDP through transformer T1, 45 kVA",
+        "4 #1/0 AWG Cu + #6 AWG Cu ground, 2 in EMT",
+        "surface",
+        "NEMA 1",
+        "10 kA",
+        "200 %",
+        "yes",
+    ),
+    "L2": (
+        "Upstairs corridor, closet 204",
+        "L1",
+        "4 #4 AWG Cu + #10 AWG Cu ground, 1-1/4 in EMT",
+        "flush",
+        "NEMA 1",
+        "10 kA",
+        "100 %",
+        "yes",
+    ),
+    "K1": (
+        "Kitchen annex, back wall",
+        "MDP through transformer T2, 25 kVA",
+        "3 #2 AWG Cu + #8 AWG Cu ground, 1-1/4 in EMT",
+        "flush",
+        "NEMA 1",
+        "10 kA",
+        "100 %",
+        "yes",
+    ),
+    "W1": (
+        "Workshop, east wall",
+        "MDP through transformer T3, 30 kVA delta-delta",
+        "4 #3 AWG Cu + #8 AWG Cu ground, 1-1/4 in EMT",
+        "surface",
+        "NEMA 12",
+        "10 kA",
+        "100 %",
+        "yes",
+    ),
+}
+# bus rating (A) of each panel, and the service panel's main breaker (invented)
+BUS_A = {"MDP": 400, "H1": 100, "L1": 225, "L2": 100, "K1": 125, "W1": 125}
+MAIN_A = {"MDP": 400}
+PROJECT = ("Kestrel Row community centre electrical survey (demo)", "2026-11-30", "1")
+
 # panel, schedule sheet, fed from, feeder circuit, transformer, kVA, connection
 INDEX = [
     ["MDP", "MDP", None, None, None, None, None],
@@ -137,9 +207,17 @@ def build_workbook() -> Workbook:
         sheet.append(["Panel", name])
         sheet.append(["System", system])
         sheet.append(["Spaces", spaces])
+        sheet.append(["Bus", BUS_A[name]])
+        if name in MAIN_A:
+            sheet.append(["Main", MAIN_A[name]])
+        labels = ("Location", "Fed from", "Feeder", "Mounting", "Enclosure", "SCCR", "Neutral bus")
+        for label, value in zip((*labels, "Ground bus"), TITLE_BLOCKS[name], strict=True):
+            sheet.append([label, value])
+        for label, value in zip(("Project", "Date", "Revision"), PROJECT, strict=True):
+            sheet.append([label, value])
         sheet.append([DEMO])
         sheet.append(HEADER)
-        for cell in sheet[5]:
+        for cell in sheet[sheet.max_row]:
             cell.font = Font(bold=True)
         for row in rows:
             sheet.append(row)
