@@ -182,7 +182,7 @@ async function uploadLogger(file) {
     showCheck(view);
   } catch (error) {
     state.logger = null; // the server keeps no file it cannot read
-    $("logger-status").textContent = `${file.name} could not be used; the balance goes on without it.`;
+    $("logger-status").textContent = `${file.name} could not be used; no logger file is in use.`;
     updateOverTime();
     showProblems(box, error);
     await refreshWithoutProblems();
