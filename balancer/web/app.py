@@ -261,6 +261,7 @@ class WebApp:
     async def forget_logger(self, request: Request) -> Response:
         session = self._session(request)
         with session.lock:
+            session.cancel_jobs()  # a running balance may be reading it
             session.drop_logger()
         return JSONResponse({"logger": None})
 

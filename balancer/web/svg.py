@@ -203,6 +203,86 @@ class Widest:
     spread_va: float
 
 
+@dataclass(frozen=True, slots=True)
+class _Plot:
+    """The spread chart's frame: ``count`` intervals across, 0 to ``top_va`` up."""
+
+    count: int
+    top_va: float
+    width: int = 760
+    height: int = 340
+    left: int = 78
+    right: int = 16
+    top: int = 92
+    bottom: int = 44
+
+    @property
+    def base(self) -> float:
+        return self.height - self.bottom
+
+    def x_at(self, i: float) -> float:
+        return self.left + (self.width - self.left - self.right) * i / max(self.count - 1, 1)
+
+    def y_at(self, va: float) -> float:
+        return self.base - (self.base - self.top) * va / self.top_va
+
+    def path(self, series: Sequence[float]) -> str:
+        return " ".join(f"{self.x_at(i):.1f},{self.y_at(v):.1f}" for i, v in enumerate(series))
+
+
+def _grid(plot: _Plot, stamps: Sequence[str], step: float) -> list[str]:
+    """Level lines every ``step`` VA, and a line and a name at each midnight."""
+    body, tick, end = [], 0.0, plot.width - plot.right
+    while tick <= plot.top_va + 1e-9:
+        y = plot.y_at(tick)
+        body.append(
+            f'<line x1="{plot.left}" y1="{y:.1f}" x2="{end}" y2="{y:.1f}" '
+            'stroke="#d9d5ca" stroke-width="1"/>'
+        )
+        body.append(_text(plot.left - 6, y + 5, f"{tick:,.0f}", size=13, anchor="end"))
+        tick += step
+    days = [i for i, stamp in enumerate(stamps) if stamp[11:16] == "00:00"]
+    if not days or plot.x_at(days[0]) - plot.left > 80:  # the first day named when there is room
+        days.insert(0, 0)
+    for i in days:
+        x = plot.x_at(i)
+        body.append(
+            f'<line x1="{x:.1f}" y1="{plot.top}" x2="{x:.1f}" y2="{plot.base + 6}" '
+            'stroke="#d9d5ca" stroke-width="1"/>'
+        )
+        if x < end - 50:
+            body.append(_text(x + 3, plot.base + 22, _day_label(stamps[i]), size=13))
+    return body
+
+
+def _marks(
+    plot: _Plot,
+    marks: Sequence[tuple[Widest | None, str, bool, Sequence[float]]],
+    legend_y: float,
+) -> tuple[list[str], list[str]]:
+    """Each widest interval on its line (filled diamond, or open circle) and in the legend from
+    ``legend_y`` down; the drawing and the legend's words."""
+    body, words = [], []
+    for mark, label, filled, series in marks:
+        if mark is None:
+            continue
+        shape = (
+            f'<path d="M{{x}},{{y}} m0,-7 l7,7 l-7,7 l-7,-7 z" fill="{MARK}" stroke="{INK}" '
+            'stroke-width="1"/>'
+            if filled
+            else f'<circle cx="{{x}}" cy="{{y}}" r="6" fill="#ffffff" stroke="{MARK}" '
+            'stroke-width="2.5"/>'
+        )
+        x, y = plot.x_at(mark.index), plot.y_at(series[mark.index])
+        body.append(shape.format(x=f"{x:.1f}", y=f"{y:.1f}"))
+        text = f"widest {label}: {mark.start}, {mark.spread_va:,.0f} VA"
+        body.append(shape.format(x="30.0", y=f"{legend_y:.1f}"))
+        body.append(_text(52, legend_y + 5, text, size=14))
+        legend_y += 20
+        words.append(text)
+    return body, words
+
+
 def spread_chart(
     stamps: Sequence[str],
     before_va: Sequence[float],
@@ -213,101 +293,49 @@ def spread_chart(
     """The phase spread per interval over a window (the week around the widest interval): as it
     stands dashed and grey, arranged solid and dark; the widest interval arranged marked with a
     filled diamond, the widest as it stands with an open circle (each when in the window)."""
-    width, height, left, right, top_pad, bottom = 760, 340, 78, 16, 92, 44
     if not stamps:
-        return _svg(width, 60, "No intervals", [_text(10, 30, "No intervals")])
-    values = [*before_va, *(after_va or ())]
-    step = _nice_step(max(values, default=0.0))
-    y_top = step * math.ceil(max(max(values, default=0.0), 1.0) / step)
-    plot_w, plot_h = width - left - right, height - top_pad - bottom
-    base = height - bottom
-    count = len(stamps)
-
-    def x_at(i: float) -> float:
-        return left + plot_w * (i / max(count - 1, 1))
-
-    def y_at(v: float) -> float:
-        return base - plot_h * v / y_top
-
+        return _svg(760, 60, "No intervals", [_text(10, 30, "No intervals")])
+    highest = max([*before_va, *(after_va or ())], default=0.0)
+    step = _nice_step(highest)
+    plot = _Plot(len(stamps), step * math.ceil(max(highest, 1.0) / step))
     body = [_text(8, 22, "Phase spread per interval (VA)", size=17, font_weight="bold")]
-    tick = 0.0
-    while tick <= y_top + 1e-9:
-        y = y_at(tick)
-        body.append(
-            f'<line x1="{left}" y1="{y:.1f}" x2="{width - right}" y2="{y:.1f}" '
-            f'stroke="#d9d5ca" stroke-width="1"/>'
-        )
-        body.append(_text(left - 6, y + 5, f"{tick:,.0f}", size=13, anchor="end"))
-        tick += step
-    days = [i for i, stamp in enumerate(stamps) if stamp[11:16] == "00:00"]
-    if not days or x_at(days[0]) - left > 80:  # the first day named when there is room
-        days.insert(0, 0)
-    for i in days:
-        x = x_at(i)
-        body.append(
-            f'<line x1="{x:.1f}" y1="{top_pad}" x2="{x:.1f}" y2="{base + 6}" '
-            f'stroke="#d9d5ca" stroke-width="1"/>'
-        )
-        if x < width - right - 50:
-            body.append(_text(x + 3, base + 22, _day_label(stamps[i]), size=13))
-
-    def path(series: Sequence[float]) -> str:
-        return " ".join(f"{x_at(i):.1f},{y_at(v):.1f}" for i, v in enumerate(series))
-
+    body += _grid(plot, stamps, step)
+    dashed = ' stroke-dasharray="5 3"' if after_va is not None else ""
     body.append(
-        f'<polyline points="{path(before_va)}" fill="none" stroke="{BEFORE_STROKE}" '
-        f'stroke-width="{1.4 if after_va is not None else 1.8}"'
-        + (' stroke-dasharray="5 3"/>' if after_va is not None else "/>")
+        f'<polyline points="{plot.path(before_va)}" fill="none" stroke="{BEFORE_STROKE}" '
+        f'stroke-width="{1.4 if after_va is not None else 1.8}"{dashed}/>'
     )
-    if after_va is not None:
-        body.append(
-            f'<polyline points="{path(after_va)}" fill="none" stroke="{AFTER_STROKE}" '
-            'stroke-width="1.8"/>'
-        )
-    body.append(
-        f'<line x1="{left}" y1="{base}" x2="{width - right}" y2="{base}" stroke="{INK}" '
-        'stroke-width="1.5"/>'
-    )
-    legend_y, words = 46.0, []
+    legend_y = 46.0
     if after_va is not None:  # the two series side by side on the first legend row
-        body.append(
+        body += [
+            f'<polyline points="{plot.path(after_va)}" fill="none" stroke="{AFTER_STROKE}" '
+            'stroke-width="1.8"/>',
             f'<line x1="14" y1="{legend_y}" x2="46" y2="{legend_y}" stroke="{BEFORE_STROKE}" '
-            'stroke-width="2" stroke-dasharray="5 3"/>'
-        )
-        body.append(_text(52, legend_y + 5, "as it stands (dashed)", size=14))
-        body.append(
+            'stroke-width="2" stroke-dasharray="5 3"/>',
+            _text(52, legend_y + 5, "as it stands (dashed)", size=14),
             f'<line x1="232" y1="{legend_y}" x2="264" y2="{legend_y}" stroke="{AFTER_STROKE}" '
-            'stroke-width="2.5"/>'
-        )
-        body.append(_text(270, legend_y + 5, "arranged (solid)", size=14))
+            'stroke-width="2.5"/>',
+            _text(270, legend_y + 5, "arranged (solid)", size=14),
+        ]
         legend_y += 20
-    marks = [(widest_after, "arranged", True), (widest_before, "as it stands", False)]
-    if after_va is None:
-        marks = [(widest_before, "as it stands", True)]
-    for mark, label, filled in marks:
-        if mark is None:
-            continue
-        series = after_va if filled and after_va is not None else before_va
-        x, y = x_at(mark.index), y_at(series[mark.index])
-        shape = (
-            f'<path d="M{{x}},{{y}} m0,-7 l7,7 l-7,7 l-7,-7 z" fill="{MARK}" stroke="{INK}" '
-            'stroke-width="1"/>'
-            if filled
-            else f'<circle cx="{{x}}" cy="{{y}}" r="6" fill="#ffffff" stroke="{MARK}" '
-            'stroke-width="2.5"/>'
-        )
-        body.append(shape.format(x=f"{x:.1f}", y=f"{y:.1f}"))
-        text = f"widest {label}: {mark.start}, {mark.spread_va:,.0f} VA"
-        body.append(shape.format(x=f"{30:.1f}", y=f"{legend_y:.1f}"))
-        body.append(_text(52, legend_y + 5, text, size=14))
-        legend_y += 20
-        words.append(text)
+        marks = [
+            (widest_after, "arranged", True, after_va),
+            (widest_before, "as it stands", False, before_va),
+        ]
+    else:
+        marks = [(widest_before, "as it stands", True, before_va)]
+    body.append(
+        f'<line x1="{plot.left}" y1="{plot.base}" x2="{plot.width - plot.right}" '
+        f'y2="{plot.base}" stroke="{INK}" stroke-width="1.5"/>'
+    )
+    drawn, words = _marks(plot, marks, legend_y)
     summary = (
-        f"Phase spread per interval from {stamps[0]} to {stamps[-1]}, scale to {y_top:,.0f} VA"
+        f"Phase spread per interval from {stamps[0]} to {stamps[-1]}, scale to "
+        f"{plot.top_va:,.0f} VA"
         + ("; as it stands dashed, arranged solid" if after_va is not None else "")
         + "".join(f"; {w}" for w in words)
     )
-    return _svg(width, height, summary, body)
+    return _svg(plot.width, plot.height, summary, body + drawn)
 
 
 def _mix(low: str, high: str, t: float) -> str:

@@ -234,7 +234,7 @@ function showPeak(box, view, block, facts) {
     el(
       "p",
       { class: "basis" },
-      el("strong", {}, "Load basis: "),
+      el("strong", {}, "Loads per interval: "), // not the step's nameplate/measured basis
       el("span", { data: { figure: "peak-basis" } }, view.basis),
       ` — ${block.intervals.toLocaleString("en-US")} intervals of ${block.interval_min} min, ${first} to ${last}.`
     ),
