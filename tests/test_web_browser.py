@@ -1,8 +1,9 @@
 """``balancer serve`` in a real browser: Debian's chromium driven by Playwright. The clinic
 sample goes in through the file input, the figures shown are the check's, a balance runs, a
 trade-off row is chosen by keyboard, its workbook is downloaded and read back, a circuit is
-locked and the panel re-balanced. A screenshot of each step is saved in a folder the run
-names (BALANCER_WEB_SHOTS, else a temporary folder), for a person to look at.
+locked and the panel re-balanced; the bike-workshop sample is balanced on its logger file. A
+screenshot of each step is saved in a folder the run names (BALANCER_WEB_SHOTS, else a
+temporary folder), for a person to look at.
 
 Without /usr/bin/chromium the tests are skipped, or fail when the environment variable CI is
 set (install it with .ci/browser-deps)."""
@@ -27,6 +28,8 @@ from balancer.report.safety import CAUTIONS
 
 CHROMIUM = Path("/usr/bin/chromium")
 CLINIC = SAMPLES / "clinic-after-additions-208y120.xlsx"
+BIKE = SAMPLES / "bike-workshop-cafe-208y120.xlsx"
+BIKE_LOGGER = SAMPLES / "loggers" / "bike-workshop-cafe-logger.csv"
 STEP_MS = 90_000  # one balance on a shared machine; the solve itself takes seconds
 
 
@@ -244,3 +247,82 @@ def test_the_high_leg_is_named(page: Any, shots: Path) -> None:
     assert page.locator("#layout-now .bus.high").count() >= 1
     assert "HIGH LEG" in page.locator("#layout-now .bus.high").first.inner_text()
     page.screenshot(path=shots / "09-high-leg.png", full_page=True)
+
+
+def _drawn(page: Any, selector: str) -> dict[str, Any]:
+    image = page.locator(selector)
+    assert image.is_visible()
+    size = page.evaluate(
+        "(s) => { const i = document.querySelector(s); return [i.naturalWidth, i.width]; }",
+        selector,
+    )
+    assert size[0] > 300  # the SVG was decoded and drawn, not a broken image
+    return {"alt": str(image.get_attribute("alt")), "width": size[1]}
+
+
+def test_the_load_over_time_from_the_bundled_logger(page: Any, shots: Path) -> None:
+    page.set_input_files("#file", str(BIKE))
+    page.wait_for_selector("#step-check:not([hidden])")
+    page.set_input_files("#logger-file", str(BIKE_LOGGER))
+    page.wait_for_selector("#check-peak:not([hidden])")
+    report = api.run_check(BIKE, over_time=api.LoadOverTime(logger=BIKE_LOGGER))
+    expected = check_json(report)["load_over_time"]
+    section = page.locator("#check-peak")
+    assert page.inner_text("#check-peak [data-figure='peak-basis']") == (
+        f"measured, from {BIKE_LOGGER.name}"
+    )
+    before = expected["widest_before"]
+    assert page.inner_text("#check-peak [data-figure='peak-before-spread']") == (
+        f"{before['spread_va']:,.0f} VA"
+    )
+    assert before["start"] in section.inner_text()
+    existing = expected["existing_load"]
+    assert f"at 125 % {existing['existing_a']:.1f} A" in page.inner_text(
+        "#check-peak [data-figure='peak-existing']"
+    )
+    assert "widest as it stands" in _drawn(page, "#check-peak-chart img")["alt"]
+    _drawn(page, "#check-peak-heat img")
+    assert page.locator("#goal").is_hidden()  # the load over time sets the goal
+    assert page.locator("#goal-note").is_visible()
+
+    page.fill("#time_limit_s", "20")
+    page.click("#run")
+    page.wait_for_selector("#row-peak:not([hidden])", timeout=STEP_MS)
+    assert "No trade-off table" in page.inner_text("#table")
+    row = page.locator("#row-peak")
+    assert "Load over time" in row.inner_text()
+    after = page.inner_text("#row-peak [data-figure='peak-after-spread']")
+    assert page.inner_text("#table [data-figure='peak-goal']") == after
+    assert float(after.removesuffix(" VA").replace(",", "")) < before["spread_va"]
+    assert after in page.inner_text("#row-peak-note")
+    chart = _drawn(page, "#row-peak-chart img")
+    assert "widest arranged" in chart["alt"]
+    assert "as it stands dashed, arranged solid" in chart["alt"]
+    heat = _drawn(page, "#row-peak-heat img")
+    assert "Arranged line A" in heat["alt"]
+    width = page.evaluate("document.documentElement.scrollWidth")
+    assert width <= 1280  # nothing runs off the side
+    page.screenshot(path=shots / "10-load-over-time.png", full_page=True)
+    row.screenshot(path=shots / "11-load-over-time-section.png")
+
+    with page.expect_download() as download:
+        page.click(".downloads [data-kind='xlsx']")
+    saved = shots / download.value.suggested_filename
+    download.value.save_as(saved)
+    assert {"Load over time", "Intervals"} <= set(openpyxl.load_workbook(saved).sheetnames)
+
+
+def test_a_wrong_logger_shows_its_located_problem(page: Any, shots: Path, tmp_path: Path) -> None:
+    page.set_input_files("#file", str(BIKE))
+    page.wait_for_selector("#step-check:not([hidden])")
+    logger = tmp_path / "clamp.csv"
+    logger.write_text("Time,1 (A),77 (A)\n2026-10-12 00:00,1.0,2.0\n", encoding="utf-8")
+    page.set_input_files("#logger-file", str(logger))
+    page.wait_for_selector("#logger-problems:not([hidden])")
+    text = page.inner_text("#logger-problems")
+    assert "clamp.csv" in text
+    assert 'file row 1, column "77 (A)"' in text
+    assert "Traceback" not in text
+    assert page.locator("#check-peak").is_hidden()
+    assert page.locator("#goal").is_visible()  # no load over time: the goals are back
+    page.locator("#over-time").screenshot(path=shots / "12-bad-logger.png")

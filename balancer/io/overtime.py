@@ -24,7 +24,6 @@ if TYPE_CHECKING:
 
 __all__ = ["over_time_page", "write_over_time_sheets"]
 
-WEEK_H = 7 * 24
 # The Intervals sheet holds every interval up to this many (a year of hourly data; writing a
 # cell costs a spreadsheet library about 30 µs), else the four weeks around the widest one.
 SHEET_ROWS = 8_760
@@ -34,12 +33,7 @@ HEAT_LOW, HEAT_MID, HEAT_HIGH = "F7F4EC", "E9B872", "A4443B"  # cool paper to br
 
 def _window(figures: PeakFigures, weeks: int = 1) -> slice:
     """The weeks around the widest interval (after balancing when there is an after)."""
-    series = figures.series
-    per_hour = max(1, 60 // series.interval_min)
-    count = weeks * WEEK_H * per_hour
-    centre = figures.worst(after=figures.after_va is not None)
-    first = max(0, min(centre - count // 2, len(series.starts) - count))
-    return slice(first, min(len(series.starts), first + count))
+    return figures.window(weeks)
 
 
 def _basis(figures: PeakFigures) -> str:

@@ -31,6 +31,7 @@ __all__ = [
 DEMAND_WINDOW_MIN = 15  # NEC 220.87: the highest average over a 15-minute interval
 EXISTING_FACTOR = 1.25  # NEC 220.87: the maximum demand at 125 percent
 RECORDING_DAYS = 30  # NEC 220.87: a recording of at least 30 days when a year of data is lacking
+WEEK_H = 7 * 24
 
 
 @dataclass(frozen=True, slots=True)
@@ -76,6 +77,16 @@ class PeakFigures:
         va = self.after_va if after else self.before_va
         assert va is not None
         return int(np.argmax(va.max(axis=1)))
+
+    def window(self, weeks: int = 1) -> slice:
+        """The intervals of the weeks around the widest one (after balancing when there is an
+        after), kept inside the horizon."""
+        per_hour = max(1, 60 // self.series.interval_min)
+        count = weeks * WEEK_H * per_hour
+        total = len(self.series.starts)
+        centre = self.worst(after=self.after_va is not None)
+        first = max(0, min(centre - count // 2, total - count))
+        return slice(first, min(total, first + count))
 
     def stamp(self, index: int) -> str:
         return str(self.series.starts[index]).replace("T", " ")[:16]

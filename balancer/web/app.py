@@ -6,6 +6,8 @@ Routes (every ``/api`` request but the first carries the tab's session id in the
     GET  /                                  the page
     POST /api/session                       a new session for this tab
     POST /api/schedule                      the schedule as the request body → the check
+    POST /api/logger?basis=&rules=&tz=      a logger file for it as the body → the check with it
+    DELETE /api/logger                      forget the logger file
     POST /api/check                         the check again with another basis or rule set
     POST /api/balance                       start a balance → a job id
     GET  /api/jobs/{job}                    its state, and when done the trade-off table
@@ -42,6 +44,7 @@ from starlette.types import ASGIApp, Message, Receive, Scope, Send
 
 from balancer import api
 from balancer.errors import BalancerError, Problem
+from balancer.intervals.logger import MAX_FILE_BYTES as LOGGER_LIMIT_BYTES
 from balancer.report.json import balance_json
 from balancer.report.safety import CAUTION, CAUTIONS
 from balancer.web import views
@@ -140,6 +143,7 @@ class WebApp:
 
     sessions: Sessions
     upload_limit: int = UPLOAD_LIMIT_BYTES
+    logger_limit: int = LOGGER_LIMIT_BYTES  # the logger reader's own bound
 
     def __post_init__(self) -> None:
         self._write_lock = threading.Lock()  # matplotlib and the writers, one at a time
@@ -163,15 +167,16 @@ class WebApp:
             except Refusal as exc:
                 return _error(exc.status, exc.message)
             except BalancerError as exc:
-                problems = [
-                    Problem(self._scrub(p.where), self._scrub(p.what)) for p in problems_of(exc)
-                ]
-                return _error(422, "The schedule or an option cannot be used as given.", problems)
+                return self._problems(exc, "The schedule or an option cannot be used as given.")
             except Exception:
                 LOG.exception("request %s %s failed", request.method, request.url.path)
                 return _error(500, GENERIC_ERROR)
 
         return run
+
+    def _problems(self, exc: BalancerError, message: str) -> JSONResponse:
+        problems = [Problem(self._scrub(p.where), self._scrub(p.what)) for p in problems_of(exc)]
+        return _error(422, message, problems)
 
     def _session(self, request: Request) -> Session:
         session = self.sessions.get(request.headers.get(SESSION_HEADER, ""))
@@ -204,6 +209,7 @@ class WebApp:
             {
                 "session": session.id,
                 "upload_limit_bytes": self.upload_limit,
+                "logger_limit_bytes": self.logger_limit,
                 "caution": CAUTION,
                 "cautions": list(CAUTIONS),
             }
@@ -213,8 +219,10 @@ class WebApp:
         if session.schedule is None:
             raise Refusal(409, "Upload a schedule first.")
         chosen = check_choices(data)
+        over_time = chosen.over_time.load_over_time(session.logger)
         panel = read_panel(session.schedule, session.name)
-        return views.check_view(api.check_panel(panel, chosen.basis, chosen.demand), session.name)
+        report = api.check_panel(panel, chosen.basis, chosen.demand, over_time)
+        return views.check_view(report, session.name)
 
     async def upload(self, request: Request) -> Response:
         session = self._session(request)
@@ -227,6 +235,35 @@ class WebApp:
         with session.lock:
             session.store(name, data)
         return JSONResponse(await run_in_threadpool(self._check, session, {}))
+
+    async def upload_logger(self, request: Request) -> Response:
+        """A logger file for the schedule: kept only when it reads; its problems otherwise."""
+        session = self._session(request)
+        if session.schedule is None:
+            raise Refusal(409, "Upload a schedule first.")
+        name = safe_name(unquote(request.headers.get("x-filename", "")), (".csv",), "logger")
+        if name is None:
+            raise Refusal(415, "Give a logger file as a .csv file.")
+        data = await read_bounded(request, self.logger_limit)
+        if not data:
+            raise Refusal(422, f"{name}: the file is empty.")
+        options = {**request.query_params, "load": "logger"}
+        check_choices(options)  # a wrong option is the option's problem, not the file's
+        with session.lock:
+            session.store_logger(name, data)
+        try:
+            return JSONResponse(await run_in_threadpool(self._check, session, options))
+        except BalancerError as exc:
+            with session.lock:
+                session.drop_logger()
+            return self._problems(exc, f"The logger file {name} cannot be used as given.")
+
+    async def forget_logger(self, request: Request) -> Response:
+        session = self._session(request)
+        with session.lock:
+            session.cancel_jobs()  # a running balance may be reading it
+            session.drop_logger()
+        return JSONResponse({"logger": None})
 
     async def check(self, request: Request) -> Response:
         session = self._session(request)
@@ -242,8 +279,10 @@ class WebApp:
             session.cancel_jobs()  # one solve per tab: a new balance replaces a running one
             for old in list(session.jobs)[:-KEPT_JOBS]:
                 del session.jobs[old]
+            over_time = chosen.over_time.load_over_time(session.logger)
             job = Job(
-                secrets.token_urlsafe(16), SolveRequest(session.schedule, session.name, chosen)
+                secrets.token_urlsafe(16),
+                SolveRequest(session.schedule, session.name, chosen, over_time),
             )
             session.jobs[job.id] = job
             job.start()
@@ -330,6 +369,8 @@ class WebApp:
             Route("/", self.page),
             Route("/api/session", g(self.new_session), methods=["POST"]),
             Route("/api/schedule", g(self.upload), methods=["POST"]),
+            Route("/api/logger", g(self.upload_logger), methods=["POST"]),
+            Route("/api/logger", g(self.forget_logger), methods=["DELETE"]),
             Route("/api/check", g(self.check), methods=["POST"]),
             Route("/api/balance", g(self.balance), methods=["POST"]),
             Route("/api/jobs/{job}", g(self.job_status)),
@@ -341,13 +382,15 @@ class WebApp:
 
 
 def create_app(
-    allowed_hosts: Sequence[str] = LOOPBACK_HOSTS, upload_limit: int = UPLOAD_LIMIT_BYTES
+    allowed_hosts: Sequence[str] = LOOPBACK_HOSTS,
+    upload_limit: int = UPLOAD_LIMIT_BYTES,
+    logger_limit: int = LOGGER_LIMIT_BYTES,
 ) -> Starlette:
     """The app. Its private folder is made when it starts and deleted, with every upload and
     output and after every job is stopped, when it stops. Requests naming another host are
     refused (a page elsewhere cannot reach this one through a rebound name)."""
     sessions = Sessions()
-    web = WebApp(sessions, upload_limit)
+    web = WebApp(sessions, upload_limit, logger_limit)
 
     @asynccontextmanager
     async def lifespan(app: Starlette) -> AsyncIterator[None]:

@@ -1,14 +1,17 @@
 """The page's balance and check options (a JSON object) turned into the pipeline's choices, each
-problem named by the option's label on the page. Only built-in rule sets are accepted: nothing
-from the browser names a file."""
+problem named by the option's label on the page. Only built-in rule sets and load shapes are
+accepted, and the logger file is the one uploaded to the session: nothing from the browser
+names a file."""
 
 from __future__ import annotations
 
 import math
+import zoneinfo
 from dataclasses import dataclass, field
-from typing import Any, get_args
+from pathlib import Path
+from typing import Any, Literal, get_args
 
-from balancer.api import FieldChoices, Supply
+from balancer.api import FieldChoices, LoadOverTime, Supply
 from balancer.code.demand import DemandOptions
 from balancer.domain.result import BalanceOptions, Objective
 from balancer.errors import Problem, ScheduleError
@@ -19,12 +22,38 @@ BASES: tuple[str, ...] = get_args(Basis)
 RULE_SETS = ("nec2023", "nec2020", "connected")
 MAX_TIME_LIMIT_S = 600.0
 MAX_TABLE_MOVES = 30
+LoadSource = Literal["logger", "typical"]
+LOAD_SOURCES: tuple[str, ...] = get_args(LoadSource)
+MAX_ZONE_CHARS = 64
+
+
+@dataclass(frozen=True, slots=True)
+class OverTimeChoice:
+    """Where the load over time comes from: the session's uploaded logger file, the packaged
+    (invented) typical load shapes, or nowhere; and the logger's time zone."""
+
+    source: LoadSource | None = None
+    tz: str | None = None
+
+    def load_over_time(self, logger: Path | None) -> LoadOverTime | None:
+        """The pipeline's :class:`~balancer.api.LoadOverTime`; ``logger`` is the session's
+        uploaded file (the server's path, never one the browser named)."""
+        if self.source is None:
+            return None
+        if self.source == "typical":
+            return LoadOverTime(shapes="typical")
+        if logger is None:
+            raise ScheduleError(
+                Problem("Logger file", "upload a logger file first, or tick typical load shapes")
+            )
+        return LoadOverTime(logger=logger, tz=self.tz)
 
 
 @dataclass(frozen=True, slots=True)
 class CheckChoices:
     basis: Basis = "nameplate"
     demand: DemandOptions = field(default_factory=DemandOptions)
+    over_time: OverTimeChoice = field(default_factory=OverTimeChoice)
 
 
 @dataclass(frozen=True, slots=True)
@@ -34,6 +63,7 @@ class BalanceChoices:
     demand: DemandOptions
     supply: Supply | None
     locks: dict[str, bool]
+    over_time: OverTimeChoice
 
 
 class _Reader:
@@ -75,6 +105,19 @@ class _Reader:
             return None
         return number
 
+    def text(self, key: str, label: str, limit: int) -> str | None:
+        value = self.data.get(key)
+        if value in (None, ""):
+            return None
+        if not isinstance(value, str):
+            self.problems.append(Problem(label, f"{value!r} is not text"))
+            return None
+        value = value.strip()
+        if len(value) > limit:
+            self.problems.append(Problem(label, f"longer than {limit} characters"))
+            return None
+        return value or None
+
     def flag(self, key: str) -> bool:
         return self.data.get(key) is True
 
@@ -97,12 +140,33 @@ def _demand(reader: _Reader) -> DemandOptions:
     return DemandOptions(rules=rules or None)
 
 
+def _over_time(reader: _Reader) -> OverTimeChoice:
+    source = reader.choice("load", "Load over time", LOAD_SOURCES, "") or None
+    tz = reader.text("tz", "Logger time zone", MAX_ZONE_CHARS)
+    if tz is not None and source != "logger":
+        reader.problems.append(Problem("Logger time zone", "applies to a logger file only"))
+        tz = None
+    if tz is not None:
+        try:
+            zoneinfo.ZoneInfo(tz)
+        except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+            reader.problems.append(
+                Problem(
+                    "Logger time zone",
+                    f"{tz!r} is not a known time zone (an IANA name such as America/Chicago)",
+                )
+            )
+            tz = None
+    return OverTimeChoice(source, tz)  # type: ignore[arg-type]
+
+
 def check_choices(data: Any) -> CheckChoices:
     reader = _Reader(data)
     basis = reader.choice("basis", "Load basis", BASES, "nameplate")
     demand = _demand(reader)
+    over_time = _over_time(reader)
     reader.done()
-    return CheckChoices(basis, demand)  # type: ignore[arg-type]
+    return CheckChoices(basis, demand, over_time)  # type: ignore[arg-type]
 
 
 def balance_choices(data: Any) -> BalanceChoices:
@@ -118,6 +182,15 @@ def balance_choices(data: Any) -> BalanceChoices:
     basis = reader.choice("basis", "Load basis", BASES, "nameplate")
     demand = _demand(reader)
     locks = reader.locks()
+    over_time = _over_time(reader)
+    if over_time.source is not None and goal != "spread":
+        reader.problems.append(
+            Problem(
+                "Goal",
+                "the load over time sets the goal (the widest interval's phase spread); "
+                "choose no load over time for another goal",
+            )
+        )
     supply = None
     if goal == "transformer":
         if kva is None:
@@ -131,9 +204,12 @@ def balance_choices(data: Any) -> BalanceChoices:
         objective=goal,  # type: ignore[arg-type]
         time_limit_s=60.0 if time_limit is None else time_limit,
     )
+    # with a load series each row of the table is a solve over the whole horizon: on request
+    # only, as on the command line (None leaves the pipeline's default)
     choices = FieldChoices(
         basis=basis,  # type: ignore[arg-type]
+        tradeoff=True if over_time.source is not None and reader.flag("peak_table") else None,
         tradeoff_moves=None if table_moves is None else int(table_moves),
         within_pct=within,
     )
-    return BalanceChoices(options, choices, demand, supply, locks)
+    return BalanceChoices(options, choices, demand, supply, locks, over_time)

@@ -1,10 +1,10 @@
 """Balancing in a worker process, one job per request, so a long solve can be cancelled: a
 cancelled job's process is terminated and whatever it had found is discarded.
 
-The worker reads the uploaded schedule, applies the page's locks and runs
-:func:`balancer.api.balance_panel`; it sends back the report, or the located problems of a
-:class:`~balancer.errors.BalancerError`, or (for anything else) a trace that is logged on the
-server and never shown to the browser.
+The worker reads the uploaded schedule (and the logger file, with a load over time), applies
+the page's locks and runs :func:`balancer.api.balance_panel`; it sends back the report, or the
+located problems of a :class:`~balancer.errors.BalancerError`, or (for anything else) a trace
+that is logged on the server and never shown to the browser.
 """
 
 from __future__ import annotations
@@ -35,6 +35,7 @@ class SolveRequest:
     schedule: Path
     name: str  # the file's name as uploaded, put in the panel's source
     choices: BalanceChoices
+    over_time: api.LoadOverTime | None = None  # the logger file is the session's upload
 
 
 def problems_of(exc: BalancerError) -> list[Problem]:
@@ -52,7 +53,9 @@ def solve(request: SolveRequest) -> api.BalanceReport:
     """The balance the page asked for (run in the worker process)."""
     chosen = request.choices
     panel = api.lock_circuits(read_panel(request.schedule, request.name), chosen.locks)
-    return api.balance_panel(panel, chosen.options, chosen.field, chosen.demand, chosen.supply)
+    return api.balance_panel(
+        panel, chosen.options, chosen.field, chosen.demand, chosen.supply, request.over_time
+    )
 
 
 def work(request: SolveRequest) -> tuple[str, Any]:

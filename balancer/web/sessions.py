@@ -1,6 +1,7 @@
-"""Per-tab state: each session has an unguessable id, a private folder for its upload and
-outputs, and its balance jobs. There is no shared "current panel"; the least recently used
-sessions are dropped beyond a bound, and every folder goes when the server stops."""
+"""Per-tab state: each session has an unguessable id, a private folder for its uploads (the
+schedule and, optionally, a logger file read against it) and outputs, and its balance jobs.
+There is no shared "current panel"; the least recently used sessions are dropped beyond a
+bound, and every folder goes when the server stops."""
 
 from __future__ import annotations
 
@@ -25,6 +26,7 @@ class Session:
     folder: Path
     schedule: Path | None = None
     name: str = ""
+    logger: Path | None = None  # a logger file for this schedule; it goes with the schedule
     jobs: dict[str, Job] = field(default_factory=dict)
     uploads: int = 0
     used: float = field(default_factory=time.monotonic)
@@ -46,18 +48,40 @@ class Session:
         folder.mkdir(mode=0o700)
         path = folder / name
         path.write_bytes(data)
-        self.schedule, self.name = path, name
+        self.schedule, self.name, self.logger = path, name, None
         return path
 
+    def store_logger(self, name: str, data: bytes) -> Path:
+        """Keep a logger file beside the schedule (in a folder of the server's choosing),
+        replacing an earlier one. A running balance may be reading the old one: it is stopped;
+        finished ones keep their figures."""
+        if self.schedule is None:
+            raise RuntimeError("a logger file needs its schedule first")
+        self.cancel_jobs()
+        self.drop_logger()
+        folder = self.schedule.parent / "logger"
+        folder.mkdir(mode=0o700)
+        path = folder / name
+        path.write_bytes(data)
+        self.logger = path
+        return path
 
-def safe_name(given: str) -> str | None:
+    def drop_logger(self) -> None:
+        if self.logger is not None:
+            shutil.rmtree(self.logger.parent, ignore_errors=True)
+            self.logger = None
+
+
+def safe_name(
+    given: str, accepted: tuple[str, ...] = ACCEPTED, default: str = "schedule"
+) -> str | None:
     """The uploaded file's name without any folder, kept to plain characters; None when it
-    is not an .xlsx or .csv file."""
+    does not end in one of ``accepted`` (.xlsx or .csv)."""
     base = re.split(r"[\\/]", given.strip())[-1]
     stem, dot, suffix = base.rpartition(".")
-    if not dot or f".{suffix.lower()}" not in ACCEPTED:
+    if not dot or f".{suffix.lower()}" not in accepted:
         return None
-    stem = re.sub(r"[^\w .()+-]", "_", stem).strip(" .")[:80] or "schedule"
+    stem = re.sub(r"[^\w .()+-]", "_", stem).strip(" .")[:80] or default
     return f"{stem}.{suffix.lower()}"
 
 

@@ -6,12 +6,15 @@ from __future__ import annotations
 
 from typing import Any
 
+import numpy as np
+
 from balancer.api import BalanceReport, CheckReport
 from balancer.domain.panel import Panel
 from balancer.field.tradeoff import _status_text
 from balancer.field.workorder import ACTION_TEXT
 from balancer.optimize.goals import goal_for
 from balancer.report.json import balance_json, check_json
+from balancer.report.peak import PeakFigures
 from balancer.report.safety import CAUTIONS
 from balancer.report.states import states
 from balancer.web import svg
@@ -68,6 +71,61 @@ def layout(panel: Panel, before: Panel | None = None) -> dict[str, Any]:
     return {"spaces": panel.spaces, "rows": rows, "breakers": breakers, "unplaced": unplaced}
 
 
+CHART_POINTS = 1_400  # a week of 1-minute readings is 10,080: drawn as the widest of each group
+
+
+def _thinned(values: np.ndarray, group: int) -> list[float]:
+    """The widest spread of each ``group`` intervals, so no peak is lost in the drawing."""
+    if group <= 1:
+        return [float(v) for v in values]
+    padded = np.pad(values, (0, -len(values) % group), constant_values=-np.inf)
+    return [float(v) for v in padded.reshape(-1, group).max(axis=1)]
+
+
+def _hours(table: np.ndarray) -> list[list[float | None]]:
+    return [[None if np.isnan(v) else float(v) for v in row] for row in table]
+
+
+def peak_view(figures: PeakFigures | None, high_leg: str | None) -> dict[str, Any] | None:
+    """What the page draws of the load over time (its figures are in the JSON report's
+    ``load_over_time`` block): the load basis in words, the spread per interval over the week
+    around the widest interval, and the mean loading by hour of day."""
+    if figures is None:
+        return None
+    series = figures.series
+    measured = series.kind == "measured"
+    window = figures.window()
+    group = max(1, -(-(window.stop - window.start) // CHART_POINTS))
+    stamps = [figures.stamp(i) for i in range(window.start, window.stop, group)]
+    after = figures.after_spread_va
+
+    def mark(spread: np.ndarray, index: int) -> svg.Widest | None:
+        if not window.start <= index < window.stop:
+            return None
+        place = (index - window.start) // group
+        return svg.Widest(place, figures.stamp(index), float(spread[index]))
+
+    widest_before = mark(figures.before_spread_va, figures.worst(after=False))
+    widest_after = None if after is None else mark(after, figures.worst(after=True))
+    tables = [("As it stands", _hours(figures.by_hour(after=False)))]
+    if figures.after_va is not None:
+        tables.append(("Arranged", _hours(figures.by_hour(after=True))))
+    return {
+        "measured": measured,
+        "basis": f"measured, from {series.source}" if measured else "typical load shapes, invented",
+        "window": {"first": figures.stamp(window.start), "last": figures.stamp(window.stop - 1)},
+        "whole_horizon": window.stop - window.start == len(series.starts),
+        "chart": svg.spread_chart(
+            stamps,
+            _thinned(figures.before_spread_va[window], group),
+            None if after is None else _thinned(after[window], group),
+            widest_after,
+            widest_before,
+        ),
+        "heat": svg.hour_heat_map(figures.lines, tables, high_leg),
+    }
+
+
 def check_view(report: CheckReport, name: str) -> dict[str, Any]:
     data = check_json(report)
     data["panel"]["source"] = name
@@ -81,6 +139,7 @@ def check_view(report: CheckReport, name: str) -> dict[str, Any]:
         "bars": svg.line_bars(
             [("as it stands", report.loads.phase_va)], panel.lines, facts["high_leg"]
         ),
+        "over_time": peak_view(report.peak, facts["high_leg"]),
     }
 
 
@@ -114,8 +173,11 @@ def table_view(report: BalanceReport, selected: int | None) -> dict[str, Any]:
         "recommended_row": recommended,
         "recommendation": field["recommendation"],
         "target": field["target"],
+        "goal": result.first_goal,
+        "over_time": report.peak is not None,
         "recommended": {
             "moves": len(result.moves),
+            "goal_value": result.goal_value,
             "spread_va": result.after.spread_va,
             "imbalance_pct": result.after.imbalance_pct,
             "neutral_fundamental_a": result.after.neutral_a,
@@ -161,4 +223,5 @@ def arrangement_view(
         ),
         "cautions": list(order.cautions if order is not None else CAUTIONS),
         "table": table_view(original, row),
+        "over_time": peak_view(report.peak, facts["high_leg"]),
     }

@@ -5,6 +5,8 @@
 const state = {
   session: null,
   limit: 0,
+  loggerLimit: 0,
+  logger: null, // the name of the logger file the server holds for this schedule
   cautions: [],
   check: null, // the check view of the uploaded schedule
   locks: {}, // circuit id -> locked, as the next balance will use
@@ -104,6 +106,11 @@ async function upload(file) {
     $("file-status").textContent = `Read ${file.name}.`;
     state.locks = {};
     state.job = null;
+    state.logger = null; // a logger file goes with its schedule
+    $("typical").checked = false;
+    $("logger-status").textContent = "";
+    hideProblems($("logger-problems"));
+    updateOverTime();
     ["step-table", "step-row"].forEach((id) => ($(id).hidden = true));
     showCheck(view);
   } catch (error) {
@@ -115,11 +122,160 @@ async function upload(file) {
 
 async function recheck() {
   if (!state.check) return;
+  const overTime = overTimeOptions();
   try {
-    showCheck(await postJSON("/api/check", { basis: $("basis").value, rules: $("rules").value }));
+    showCheck(await postJSON("/api/check", Object.assign({ basis: $("basis").value, rules: $("rules").value }, overTime)));
     hideProblems($("balance-problems"));
+    hideProblems($("logger-problems"));
   } catch (error) {
-    showProblems($("balance-problems"), error);
+    showProblems($(overTime.load ? "logger-problems" : "balance-problems"), error);
+  }
+}
+
+// ------------------------------------------------------------------ load over time
+
+function loadSource() {
+  if ($("typical").checked) return "typical";
+  return state.logger ? "logger" : "";
+}
+
+function overTimeOptions() {
+  const load = loadSource();
+  return { load, tz: load === "logger" ? $("tz").value.trim() : "" };
+}
+
+function updateOverTime() {
+  const load = loadSource();
+  $("logger-remove").hidden = !state.logger;
+  $("logger-choose").textContent = state.logger ? "Choose another logger file" : "Choose a logger file (.csv)";
+  // the load over time sets the goal; the trade-off table is made only when asked for
+  $("goal").hidden = Boolean(load);
+  if (load) $("goal").value = "spread";
+  $("goal").dispatchEvent(new Event("change"));
+  $("goal-note").hidden = !load;
+  $("margin-field").hidden = Boolean(load);
+  $("peak-table-field").hidden = !load;
+  $("table-moves-field").hidden = Boolean(load) && !$("peak_table").checked;
+}
+
+async function uploadLogger(file) {
+  const box = $("logger-problems");
+  hideProblems(box);
+  if (!/\.csv$/i.test(file.name)) {
+    showProblems(box, new Error(`${file.name}: give the logger readings as a .csv file.`));
+    return;
+  }
+  if (state.loggerLimit && file.size > state.loggerLimit) {
+    const mb = Math.floor(state.loggerLimit / (1024 * 1024));
+    showProblems(box, new Error(`${file.name} is larger than ${mb} MB; balancer refuses it.`));
+    return;
+  }
+  $("logger-status").textContent = `Reading ${file.name}…`;
+  const query = new URLSearchParams({ basis: $("basis").value, rules: $("rules").value, tz: $("tz").value.trim() });
+  try {
+    const view = await call("POST", `/api/logger?${query}`, file, { "X-Filename": encodeURIComponent(file.name) });
+    state.logger = file.name;
+    $("typical").checked = false;
+    const block = view.check.load_over_time;
+    $("logger-status").textContent = `Read ${file.name}: ${block.intervals.toLocaleString("en-US")} intervals of ${block.interval_min} min.`;
+    updateOverTime();
+    showCheck(view);
+  } catch (error) {
+    state.logger = null; // the server keeps no file it cannot read
+    $("logger-status").textContent = `${file.name} could not be used; no logger file is in use.`;
+    updateOverTime();
+    showProblems(box, error);
+    await refreshWithoutProblems();
+  }
+}
+
+async function refreshWithoutProblems() {
+  // the check as it now stands, keeping the problems shown above
+  try {
+    showCheck(await postJSON("/api/check", Object.assign({ basis: $("basis").value, rules: $("rules").value }, overTimeOptions())));
+  } catch (_) {}
+}
+
+async function removeLogger() {
+  try {
+    await call("DELETE", "/api/logger");
+  } catch (error) {
+    showProblems($("logger-problems"), error);
+    return;
+  }
+  state.logger = null;
+  $("logger-status").textContent = "The logger file was removed.";
+  hideProblems($("logger-problems"));
+  updateOverTime();
+  await recheck();
+}
+
+function intervalRow(title, interval, facts, figure) {
+  if (!interval) return null;
+  return el(
+    "tr",
+    {},
+    el("td", { class: "text" }, title),
+    el("td", { class: "text" }, interval.start),
+    facts.lines.map((line) => el("td", {}, va(interval.line_va[line]))),
+    el("td", { class: "big", data: { figure } }, va(interval.spread_va))
+  );
+}
+
+function showPeak(box, view, block, facts) {
+  clear(box);
+  box.hidden = !view || !block;
+  if (box.hidden) return;
+  const first = block.first_start;
+  const last = block.last_start;
+  const add = (...nodes) => box.append(...nodes.filter(Boolean)); // DOM append would write "null"
+  add(
+    el("h3", {}, "Load over time"),
+    el(
+      "p",
+      { class: "basis" },
+      el("strong", {}, "Loads per interval: "), // not the step's nameplate/measured basis
+      el("span", { data: { figure: "peak-basis" } }, view.basis),
+      ` — ${block.intervals.toLocaleString("en-US")} intervals of ${block.interval_min} min, ${first} to ${last}.`
+    ),
+    view.measured ? null : el("p", { class: "hint" }, "The packaged shapes are invented, typical of a small commercial building: a figure to plan with, not a measurement. The command line takes your own shapes (balancer balance --profiles FILE)."),
+    el(
+      "table",
+      { class: "grid", "aria-label": "Widest interval" },
+      el("caption", { class: "text" }, "Widest interval (largest phase spread over the whole period)"),
+      el("thead", {}, el("tr", {}, el("th", { class: "text" }, ""), el("th", { class: "text" }, "Starts"), facts.lines.map((line) => el("th", {}, lineTag(line, facts))), el("th", {}, "Spread"))),
+      el("tbody", {}, intervalRow("As it stands", block.widest_before, facts, "peak-before-spread"), intervalRow("Arranged", block.widest_after, facts, "peak-after-spread"))
+    )
+  );
+  const existing = block.existing_load;
+  if (existing) {
+    box.append(
+      el(
+        "dl",
+        { class: "facts" },
+        el("dt", {}, "Existing load from the data (NEC 220.87)"),
+        el("dd", { data: { figure: "peak-existing" } }, `line ${existing.line} peaks at ${amps(existing.demand_a)} (${existing.window_min}-minute average); at 125 % ${amps(existing.existing_a)}`),
+        el("dt", {}, "Data"),
+        el("dd", {}, existing.remark)
+      )
+    );
+    if (!existing.enough_data) showWarnings(box.appendChild(el("div", { class: "warnings", role: "note" })), [`NEC 220.87: ${existing.remark}.`]);
+  }
+  const chart = el("img", { alt: "" });
+  const heat = el("img", { alt: "" });
+  const span = view.whole_horizon ? "the whole period" : `the week around the widest interval (${view.window.first} to ${view.window.last})`;
+  box.append(
+    el(
+      "div",
+      { class: "charts" },
+      el("figure", { class: "chart wide", id: `${box.id}-chart` }, chart, el("figcaption", {}, `Phase spread per interval over ${span}; the widest interval is marked.`)),
+      el("figure", { class: "chart wide", id: `${box.id}-heat` }, heat, el("figcaption", {}, "Mean load per line by hour of day: light is least, dark is most, on one scale for every row."))
+    )
+  );
+  setSvg(chart, view.chart);
+  setSvg(heat, view.heat);
+  if (block.notices.length) {
+    box.append(el("details", { class: "notices" }, el("summary", {}, `What the reader noticed in the data (${block.notices.length})`), el("ul", { class: "notes" }, block.notices.map((n) => el("li", {}, n)))));
   }
 }
 
@@ -194,6 +350,7 @@ function showCheck(view) {
   }
   showWarnings($("check-warnings"), warnings);
   showDemand(data.demand);
+  showPeak($("check-peak"), view.over_time, data.load_over_time, facts);
   drawPanel($("layout-now"), view.layout, facts, "now");
   updateLocksNote();
 }
@@ -375,6 +532,8 @@ function formOptions() {
     time_limit_s: value("time_limit_s"),
     fresh: $("fresh").checked,
     locks: lockRequest(),
+    ...overTimeOptions(),
+    peak_table: $("peak_table").checked,
   };
 }
 
@@ -455,9 +614,10 @@ function showTable(table) {
   const entries = table.rows.map((row, index) => ({ key: String(index), row, index }));
   if (table.recommended_row === null) {
     const r = table.recommended;
-    entries.unshift({ key: "recommended", row: { moves: r.moves, spread_va: r.spread_va, imbalance_pct: r.imbalance_pct, neutral_fundamental_a: r.neutral_fundamental_a, status_text: r.status_text }, index: null });
+    entries.unshift({ key: "recommended", row: { moves: r.moves, goal_value: r.goal_value, spread_va: r.spread_va, imbalance_pct: r.imbalance_pct, neutral_fundamental_a: r.neutral_fundamental_a, status_text: r.status_text }, index: null });
   }
-  const goal = table.rows.length ? table.rows[0].goal : "spread";
+  const goal = table.goal || (table.rows.length ? table.rows[0].goal : "spread");
+  const goalText = (v) => (v === undefined || v === null ? "—" : goal === "peak" ? va(v) : v.toFixed(2));
   const body = el("tbody");
   entries.forEach((entry) => {
     const recommended = entry.index === table.recommended_row || entry.key === "recommended";
@@ -469,7 +629,7 @@ function showTable(table) {
       el("td", {}, va(entry.row.spread_va)),
       el("td", {}, pct(entry.row.imbalance_pct)),
       el("td", {}, amps(entry.row.neutral_fundamental_a)),
-      goal !== "spread" ? el("td", {}, entry.row.goal_value === undefined ? "—" : entry.row.goal_value.toFixed(2)) : null,
+      goal !== "spread" ? el("td", { data: goal === "peak" ? { figure: "peak-goal" } : null }, goalText(entry.row.goal_value)) : null,
       el("td", { class: "text" }, entry.row.status_text)
     );
     body.append(tr);
@@ -481,12 +641,17 @@ function showTable(table) {
       el(
         "thead",
         {},
-        el("tr", {}, el("th", {}, "Moves (at most)"), el("th", {}, "Spread"), el("th", {}, "Imbalance"), el("th", {}, "Neutral (fundamental)"), goal !== "spread" ? el("th", {}, `Goal: ${goal}`) : null, el("th", { class: "text" }, "Status"))
+        el("tr", {}, el("th", {}, "Moves (at most)"), el("th", {}, goal === "peak" ? "Spread (connected)" : "Spread"), el("th", {}, goal === "peak" ? "Imbalance (connected)" : "Imbalance"), el("th", {}, "Neutral (fundamental)"), goal === "peak" ? el("th", {}, "Widest interval spread") : goal !== "spread" ? el("th", {}, `Goal: ${goal}`) : null, el("th", { class: "text" }, "Status"))
       ),
       body
     )
   );
-  if (!table.rows.length) box.append(el("p", { class: "hint" }, "No trade-off table for a fresh layout: the best balance is recommended."));
+  if (!table.rows.length) {
+    const why = table.over_time
+      ? "No trade-off table: with a load over time each row is a solve over every interval, so the table is made only when asked for (tick “Trade-off table over the load over time”)."
+      : "No trade-off table for a fresh layout: the best balance is recommended.";
+    box.append(el("p", { class: "hint" }, why));
+  }
   setSvg($("table-chart"), table.chart);
   const notes = clear($("table-notes"));
   table.notes.forEach((n) => notes.append(el("li", {}, n)));
@@ -523,6 +688,14 @@ function showArrangement(view, key) {
   const moves = data.moves.length;
   $("row-title").textContent = key === "recommended" ? `Recommended arrangement: ${moves} move(s)` : `Arrangement for at most ${view.table.rows[Number(key)].moves} move(s), using ${moves}`;
   $("row-status").textContent = `Status: ${view.status_text}. Goal: ${view.goal_phrase}; engine ${data.engine}, ${data.solve_seconds.toFixed(1)} s.`;
+  const over = data.load_over_time;
+  const peakNote = $("row-peak-note");
+  peakNote.hidden = !(over && over.widest_after);
+  if (over && over.widest_after) {
+    peakNote.textContent =
+      `The goal was the widest interval of the load over time: its phase spread goes from ${va(over.widest_before.spread_va)} as it stands to ${va(over.widest_after.spread_va)} arranged (see “Load over time” below). ` +
+      "The figures and bars just below are of the connected loads (schedule VA); this arrangement aims at the widest interval instead.";
+  }
   const figures = clear($("row-figures"));
   // with new circuits, a middle state: the panel with them landed and nothing moved (the 0-move row)
   const middle = data.with_additions;
@@ -545,6 +718,7 @@ function showArrangement(view, key) {
     ...(middle ? data.states.map((s) => el("p", { class: "state-note" }, `${s.title}: ${s.detail}.`)) : [])
   );
   setSvg($("row-bars"), view.bars);
+  showPeak($("row-peak"), view.over_time, data.load_over_time, facts);
   const notes = clear($("row-notes"));
   [...data.notes, ...data.warnings].forEach((n) => notes.append(el("li", {}, n)));
   drawPanel($("layout-row"), view.layout, facts, "row");
@@ -649,6 +823,19 @@ function wireUp() {
     $("kva-field").hidden = !transformer;
     $("delta-field").hidden = !transformer;
   });
+  $("logger-file").addEventListener("change", (e) => {
+    if (e.target.files.length) uploadLogger(e.target.files[0]);
+    e.target.value = "";
+  });
+  $("logger-remove").addEventListener("click", removeLogger);
+  $("typical").addEventListener("change", () => {
+    updateOverTime();
+    recheck();
+  });
+  $("tz").addEventListener("change", () => {
+    if (loadSource() === "logger") recheck();
+  });
+  $("peak_table").addEventListener("change", updateOverTime);
   $("basis").addEventListener("change", recheck);
   $("rules").addEventListener("change", recheck);
   document.querySelectorAll(".downloads button").forEach((b) => b.addEventListener("click", () => download(b.dataset.kind)));
@@ -660,8 +847,10 @@ async function start() {
     const session = await call("POST", "/api/session");
     state.session = session.session;
     state.limit = session.upload_limit_bytes;
+    state.loggerLimit = session.logger_limit_bytes;
     state.cautions = session.cautions;
     $("file-hint").textContent = `Up to ${Math.floor(state.limit / (1024 * 1024))} MB. The file stays on this computer.`;
+    $("logger-hint").textContent = `Interval readings: a time column, then one column per circuit (such as “12 (A)” or “9 (kW)”) or one per line. Up to ${Math.floor(state.loggerLimit / (1024 * 1024))} MB; it stays on this computer.`;
   } catch (error) {
     showProblems($("file-problems"), error);
   }
