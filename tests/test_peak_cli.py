@@ -101,6 +101,9 @@ def test_pdf_has_a_load_over_time_page(balanced: Any) -> None:
     page = next(t for t in pages if "Load over time" in t and "Widest interval" in t)
     assert "NEC 220.87" in page
     assert "Mean load per line by hour of day" in page
+    summary = " ".join(pages[0].split())  # the first page says what was balanced for
+    assert "the load over time" in summary
+    assert "connected loads" in summary
 
 
 def test_check_reports_the_data_as_it_stands() -> None:

@@ -508,6 +508,14 @@ def _panel_figures(
             ("Result", proof_sentence(result)),
             ("Breakers to move", str(len(result.moves))),
         ]
+        if result.first_goal in ("peak", "peak-line"):
+            figures.append(
+                (
+                    "Balanced for",
+                    "the load over time (its own page); the per-line figures above are the "
+                    "connected loads, which are not the goal here",
+                )
+            )
     return figures
 
 

@@ -374,7 +374,12 @@ def proof_sentence(result: Any) -> str:
             "before it could say how much lower another arrangement could go."
         )
     if result.status is SolveStatus.FEASIBLE and result.goal_proven:
-        text += " The later aims (fewest moves, then the neutral current) are not all proven."
+        later = (
+            "fewest moves"
+            if result.first_goal in ("peak", "peak-line")
+            else "fewest moves, then the neutral current"
+        )
+        text += f" The later aims ({later}) are not all proven."
     return text
 
 
