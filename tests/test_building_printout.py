@@ -136,3 +136,16 @@ def test_demo_panels_carry_their_title_blocks_to_the_printout(
             assert shown in page, (panel.name, shown)
         assert f"Project: {header.project}" in page
         assert f"Revision: {header.revision}" in page
+
+
+def test_panel_sheets_keep_their_title_block_labels_whole(
+    balanced: tuple[api.BuildingReport, Path, Path],
+) -> None:
+    _, workbook, _ = balanced
+    book = load_workbook(workbook)
+    for panel in ("MDP", "W1"):
+        ws = book[panel]
+        labels = [str(r[0]) for r in ws.iter_rows(max_row=20, values_only=True) if r[0] and r[1]]
+        assert "Neutral bus (%)" in labels
+        width = ws.column_dimensions["A"].width
+        assert all(len(label) * 1.1 <= width for label in labels), (panel, width)

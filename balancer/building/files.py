@@ -366,7 +366,7 @@ def write_building_sheets(
     found), a feeder breaker that moved is named by its new number and its old one. Returns
     panel → sheet name.
     """
-    from openpyxl.styles import Font
+    from openpyxl.styles import Alignment, Font
 
     from balancer.io.writer import panel_title_rows, print_setup, write_circuit_table
 
@@ -389,6 +389,7 @@ def write_building_sheets(
         for label, value in facts:
             ws.append([label, value])
             ws.cell(row=ws.max_row, column=1).font = Font(bold=True)
+            ws.cell(row=ws.max_row, column=2).alignment = Alignment(horizontal="left")
         feed = building.feed_of(panel.name)
         if feed is not None:
             ws.append([f"Fed from {building.feeder_text(feed, was=was)}"])
@@ -401,6 +402,10 @@ def write_building_sheets(
         table_panel = panel.with_circuits(ordered)
         header_row = ws.max_row + 2
         write_circuit_table(ws, table_panel, header_row, marked)
+        # the title block's labels are longer than the table's first column: never cut them
+        longest = max((len(str(label)) for label, _ in facts), default=0)
+        column = ws.column_dimensions["A"]
+        column.width = max(column.width or 10, longest * 1.15 + 2)
         ws.freeze_panes = ws.cell(row=header_row + 1, column=3)
         print_setup(ws, landscape=True, title_rows=f"{header_row}:{header_row}")
     return sheets

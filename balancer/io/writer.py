@@ -245,20 +245,31 @@ def _shown_width(cell: Any) -> float:
 
 
 def pad_text(ws: Worksheet) -> None:
-    """Text right after a number is set in by one indent: the number is flush right in its
-    column, so without it the two read as one ("1,080Reception receptacles")."""
+    """Text right after a number is set in by one indent, and so is the rest of its column's
+    text: the number is flush right in its column, so without it the two read as one
+    ("1,080Reception receptacles")."""
+
+    def plain(cell: Any) -> bool:
+        align = cell.alignment
+        return (
+            isinstance(cell.value, str)
+            and cell.fill != _HEAD_FILL
+            and not align.wrap_text
+            and align.horizontal in (None, "general", "left")
+        )
+
+    columns = set()
     for row in ws.iter_rows(min_col=2):
         for cell in row:
-            if not isinstance(cell.value, str) or cell.fill == _HEAD_FILL:
-                continue
-            align = cell.alignment
-            if align.wrap_text or align.horizontal not in (None, "general", "left"):
-                continue
             left = ws.cell(row=cell.row, column=cell.column - 1).value
-            if isinstance(left, (int, float)) and not isinstance(left, bool):
-                cell.alignment = Alignment(
-                    horizontal=align.horizontal, vertical=align.vertical, indent=1
-                )
+            if plain(cell) and isinstance(left, (int, float)) and not isinstance(left, bool):
+                columns.add(cell.column)
+    for column in columns:
+        for (cell,) in ws.iter_rows(min_col=column, max_col=column):
+            if plain(cell):
+                # an indent counts only on left-aligned text (not on "general")
+                align = cell.alignment
+                cell.alignment = Alignment(horizontal="left", vertical=align.vertical, indent=1)
 
 
 def fit_columns(ws: Worksheet) -> None:

@@ -164,7 +164,19 @@ def _placements(
 
 
 def build_layout(panel: Panel, options: BalanceOptions) -> Layout:
-    """Split the panel into fixed circuits and movable units; raise InfeasibleError on conflicts."""
+    """Split the panel into fixed circuits and movable units; raise InfeasibleError on conflicts.
+
+    The layout depends only on the panel and on ``fresh`` and ``move_spares``, and every row of
+    a trade-off table asks for the same one: it is worked out once (panels are frozen)."""
+    try:
+        return _layout(panel, options.fresh, options.move_spares)
+    except TypeError:  # pragma: no cover - a kept input column holding an unhashable value
+        return _layout.__wrapped__(panel, options.fresh, options.move_spares)
+
+
+@functools.lru_cache(maxsize=8)
+def _layout(panel: Panel, fresh: bool, move_spares: bool) -> Layout:
+    options = BalanceOptions(fresh=fresh, move_spares=move_spares)
     lines = panel.lines
     for circuit in panel.circuits:
         _check_circuit(panel, circuit)
